@@ -1,0 +1,29 @@
+# python3.12 may be a pyenv shim that is not active; fall back to pyenv's own install.
+PYTHON ?= $(shell for p in python3.12 $$(ls -d /root/.pyenv/versions/3.12*/bin/python3.12 /usr/local/bin/python3.12 /usr/bin/python3.12 2>/dev/null); do $$p -c 'import sys; assert sys.version_info >= (3, 12)' 2>/dev/null && { echo $$p; break; }; done)
+VENV := .venv
+BIN := $(VENV)/bin
+
+.PHONY: venv demo test bench clean
+
+$(BIN)/returngap: pyproject.toml
+	@test -n "$(PYTHON)" || { echo "error: Python 3.12 or newer not found (set PYTHON=...)"; exit 2; }
+	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install -q --upgrade pip
+	$(BIN)/python -m pip install -q -e '.[test]'
+	@touch $(BIN)/returngap
+
+venv: $(BIN)/returngap
+
+demo: venv
+	$(BIN)/python examples/make_demo_board.py --check examples/demo-board
+	$(BIN)/returngap check examples/demo-board --stackup examples/demo-board/stackup.toml \
+		--json out/demo/findings.json --out out/demo --fail-on never
+
+test: venv
+	$(BIN)/python -m pytest
+
+bench: venv
+	@echo "bench: not yet (benchmark issue open)"
+
+clean:
+	rm -rf $(VENV) out

@@ -1,0 +1,558 @@
+"""Fabrication files -> board model: layer roles, copper geometry, drills, outline, netlist.
+
+Layer roles, in this order of trust: the Gerber's own X2 attributes (%TF or G04 #@! TF),
+the Gerber job file's FilesAttributes, the user's mapping in the stackup file, then
+gerbonara's file-name recognition. Disagreements are reported as assumptions.
+"""
+
+import json
+import math
+import re
+import warnings
+from dataclasses import dataclass
+from pathlib import Path, PurePosixPath
+
+import numpy as np
+import shapely
+from gerbonara import ExcellonFile, GerberFile
+from gerbonara import graphic_objects as go
+from gerbonara.apertures import CircleAperture
+from gerbonara.cam import FileSettings
+from gerbonara.ipc356 import Netlist
+from gerbonara.layers import _best_match
+from gerbonara.utils import MM, Inch
+
+from . import gerbonara_compat, shapes
+from .errors import InputError
+from .inputs import BoardFiles
+from .model import Board, CopperLayer, DrillFile, NetPoint
+
+gerbonara_compat.apply()
+
+X2_FUNC_RE = re.compile(r"(?:%TF|G04 #@! TF|; #@! TF)\.FileFunction,([^*%\r\n]*)")
+X2_POL_RE = re.compile(r"(?:%TF|G04 #@! TF|; #@! TF)\.FilePolarity,(\w+)")
+UNESCAPE_RE = re.compile(r"\\u([0-9A-Fa-f]{4})")
+
+
+def unescape_net(name):
+    """Gerber attribute values escape special characters as \\uXXXX."""
+    return UNESCAPE_RE.sub(lambda m: chr(int(m.group(1), 16)), name).strip()
+
+
+@dataclass
+class Role:
+    kind: str                   # copper | profile | drill | other
+    number: int | None = None   # copper: 1-based from the top, when the source gives it
+    order_key: float | None = None
+    side: str | None = None
+    polarity: str = "positive"
+    type_hint: str | None = None
+    plated: bool | None = None
+    span: tuple | None = None
+    source: str = ""
+    label: str = ""
+
+
+def role_from_function(func, polarity=None, source=""):
+    """Role from a .FileFunction value (X2 file attribute or job-file entry)."""
+    f = [p.strip() for p in func.split(",")]
+    pol = (polarity or "positive").lower()
+    head = f[0].lower()
+    if head == "copper" and len(f) >= 3 and re.fullmatch(r"L\d+", f[1]):
+        side = {"top": "top", "inr": "inner", "bot": "bottom"}.get(f[2].lower(), "inner")
+        return Role("copper", number=int(f[1][1:]), side=side, polarity=pol,
+                    type_hint=f[3] if len(f) > 3 else None, source=source, label=func)
+    if head in ("plated", "nonplated"):
+        span = None
+        if len(f) >= 3 and f[1].isdigit() and f[2].isdigit():
+            span = (int(f[1]), int(f[2]))
+        return Role("drill", plated=head == "plated", span=span, source=source, label=func)
+    if head in ("profile", "keepout"):
+        return Role("profile", source=source, label=func)
+    return Role("other", source=source, label=func)
+
+
+def role_from_user(value, source="stackup file"):
+    v = str(value).strip()
+    low = v.lower()
+    if re.fullmatch(r"l\d+", low):
+        return Role("copper", number=int(low[1:]), source=source, label=v)
+    if low in ("profile", "outline"):
+        return Role("profile", source=source, label=v)
+    if low.startswith("drill"):
+        plated = None if low in ("drill", "drill:unknown") else not ("npth" in low or "nonplated" in low)
+        m = re.search(r"(\d+)-(\d+)", low)
+        return Role("drill", plated=True if plated is None else plated,
+                    span=(int(m.group(1)), int(m.group(2))) if m else None, source=source, label=v)
+    if low in ("ignore", "other"):
+        return Role("other", source=source, label=v)
+    raise InputError(source, f"unknown layer role {value!r} (use L<n>, profile, drill, drill:npth, drill:<a>-<b>, ignore)")
+
+
+def role_from_name(key):
+    """Role from gerbonara's file-name recognition key, e.g. 'inner_2 copper'."""
+    side, _, use = key.partition(" ")
+    if use == "copper":
+        if side == "top":
+            return Role("copper", order_key=0, side="top", source="file name", label=key)
+        if side == "bottom":
+            return Role("copper", order_key=1e9, side="bottom", source="file name", label=key)
+        m = re.match(r"inner_(\d+)", side)
+        return Role("copper", order_key=int(m.group(1)) if m else 5e8, side="inner", source="file name", label=key)
+    if use == "outline":
+        return Role("profile", source="file name", label=key)
+    if side == "drill":
+        plated = {"plated": True, "nonplated": False}.get(use)
+        return Role("drill", plated=plated, source="file name", label=key)
+    return Role("other", source="file name", label=key)
+
+
+def read_text(fab):
+    try:
+        return fab.path.read_bytes().decode("latin-1")
+    except OSError as e:
+        raise InputError(fab.name, f"cannot read ({e.strerror})")
+
+
+def parse_job_file(fab, text):
+    """FilesAttributes and MaterialStackup of a JSON job file (legacy %TJ job files carry neither)."""
+    if text.lstrip("\ufeff \t\r\n").startswith("{"):
+        try:
+            data = json.loads(text.lstrip("\ufeff"))
+        except json.JSONDecodeError as e:
+            raise InputError(fab.name, f"job file is not valid JSON ({e.msg})", e.lineno)
+        if not isinstance(data, dict):
+            raise InputError(fab.name, "job file is not a JSON object")
+        return data
+    return {}
+
+
+def identify(board_files, texts, job, user_layers):
+    """Role of every Gerber and Excellon file; returns ({name: Role}, [assumption, ...])."""
+    notes = []
+    roles = {}
+    job_roles = {}
+    for entry in (job.get("FilesAttributes") or []) if isinstance(job, dict) else []:
+        if isinstance(entry, dict) and entry.get("Path") and entry.get("FileFunction"):
+            job_roles[PurePosixPath(str(entry["Path"]).replace("\\", "/")).name] = role_from_function(
+                str(entry["FileFunction"]), entry.get("FilePolarity"), "job file")
+    candidates = [f for f in board_files.fab if f.kind in ("gerber", "excellon")]
+    name_roles = {}
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        try:
+            _gen, guessed = _best_match([f.path for f in candidates])
+        except Exception:
+            guessed = {}
+    by_path = {f.path: f.name for f in candidates}
+    for key, paths in guessed.items():
+        for p in paths:
+            if p in by_path:
+                name_roles[by_path[p]] = role_from_name(key)
+    user_roles = {k: role_from_user(v) for k, v in (user_layers or {}).items()}
+    for f in candidates:
+        base = PurePosixPath(f.name).name
+        text = texts[f.name]
+        x2 = X2_FUNC_RE.search(text)
+        pol = X2_POL_RE.search(text)
+        own = role_from_function(x2.group(1), pol.group(1) if pol else None, "X2 attribute") if x2 else None
+        if own is not None and f.kind == "gerber" and re.search(r"%IPNEG\*%", text):
+            own.polarity = "negative"
+        chosen = own
+        jr = job_roles.get(base)
+        if chosen is None:
+            chosen = jr
+        elif jr is not None and (jr.kind, jr.number, jr.span) != (own.kind, own.number, own.span):
+            notes.append(f"{f.name}: job file says '{jr.label}', the file's own X2 attribute says "
+                         f"'{own.label}'; using the file's own attribute")
+        ur = user_roles.get(base) or user_roles.get(f.name)
+        if chosen is None:
+            chosen = ur
+        elif ur is not None and (ur.kind, ur.number) != (chosen.kind, chosen.number):
+            notes.append(f"{f.name}: stackup file maps it to '{ur.label}', but the {chosen.source} says "
+                         f"'{chosen.label}'; using the {chosen.source}")
+        if chosen is None:
+            chosen = name_roles.get(f.name)
+        if chosen is None and f.kind == "excellon":
+            chosen = Role("drill", source="content")
+        if chosen is None:
+            chosen = Role("other", source="unrecognised", label="unrecognised")
+        if chosen.kind == "drill" and f.kind != "excellon":
+            chosen = Role("other", source=chosen.source, label=chosen.label)
+        if chosen.kind in ("copper", "profile") and f.kind != "gerber":
+            chosen = Role("other", source=chosen.source, label=chosen.label)
+        if f.kind == "gerber" and chosen.kind == "copper" and re.search(r"%IPNEG\*%", text):
+            chosen.polarity = "negative"
+        roles[f.name] = chosen
+    return roles, notes
+
+
+def number_copper(roles):
+    """Copper files in order, top to bottom, as [(file name, Role)] numbered L1..Ln."""
+    copper = [(n, r) for n, r in roles.items() if r.kind == "copper"]
+    if not copper:
+        return []
+    if all(r.number is not None for _, r in copper):
+        copper.sort(key=lambda nr: nr[1].number)
+        nums = [r.number for _, r in copper]
+        if len(set(nums)) != len(nums):
+            dup = sorted({x for x in nums if nums.count(x) > 1})
+            raise InputError(copper[0][0], f"two copper files claim layer L{dup[0]}")
+    else:
+        copper.sort(key=lambda nr: nr[1].number * 1e6 if nr[1].number is not None else nr[1].order_key)
+    n = len(copper)
+    for i, (_, r) in enumerate(copper):
+        r.number = i + 1
+        r.side = "top" if i == 0 else ("bottom" if i == n - 1 and n > 1 else "inner")
+    return copper
+
+
+def parse_gerber(fab, text, notes):
+    """gerbonara parse with every failure turned into one line naming file and line."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            g = GerberFile.from_string(text, filename=fab.name)
+        except RecursionError:
+            raise InputError(fab.name, "nesting too deep to read")
+        except Exception as e:
+            msg = str(e)
+            m = re.match(r".*?:(\d+) \"(.*?)\": (.*)", msg, re.S)
+            if m:
+                raise InputError(fab.name, f"{m.group(3)} (at {m.group(2)[:40]!r})", int(m.group(1)))
+            raise InputError(fab.name, f"cannot read as Gerber ({type(e).__name__}: {msg[:120]})")
+    for w in caught:
+        if "missing mandatory M02" in str(w.message):
+            notes.append(f"{fab.name}: no M02 end-of-file marker, the file may be truncated; read what is there")
+            break
+    unknown = sum(1 for w in caught if "Unknown statement" in str(w.message))
+    if unknown:
+        notes.append(f"{fab.name}: {unknown} unrecognised statement(s) skipped")
+    return g
+
+
+def _attr_net(attrs):
+    if not isinstance(attrs, dict):
+        return None
+    v = attrs.get(".N")
+    if not v:
+        return None
+    name = unescape_net(v[0])
+    return name or None
+
+
+def _aper_function(obj):
+    a = getattr(obj, "aperture", None)
+    for k, v in (getattr(a, "attrs", None) or ()):
+        if k == ".AperFunction":
+            return v[0] if v else None
+    return None
+
+
+def build_layer(fab, g, role, outline, tol):
+    """Copper geometry and drawn objects of one copper layer, in mm."""
+    layer = CopperLayer(name=f"L{role.number}", file=fab.name, side=role.side, polarity=role.polarity,
+                        type_hint=role.type_hint, identified_by=role.source)
+    aps = shapes.ApertureShapes(tol)
+    segs, seg_net, seg_fn = [], [], []
+    flashes, fl_net, fl_fn, fl_part = [], [], [], []
+    runs = []                       # [(dark, [pieces])]
+    round_lines = []                # pending (coords, radius) of the current run, buffered together
+
+    def flush_round():
+        if round_lines:
+            lines = shapely.linestrings([c for c, _ in round_lines]) if len({len(c) for c, _ in round_lines}) == 1 \
+                else np.array([shapely.LineString(c) for c, _ in round_lines], dtype=object)
+            radii = np.array([r for _, r in round_lines])
+            q = shapes.quad_segs_for(float(radii.max()), tol)
+            runs[-1][1].extend(shapely.buffer(lines, radii, quad_segs=q))
+            round_lines.clear()
+
+    for obj in g.objects:
+        dark = bool(obj.polarity_dark)
+        if not runs or runs[-1][0] != dark:
+            if runs:
+                flush_round()
+            runs.append((dark, []))
+        k = 25.4 if obj.unit == Inch else 1.0
+        net = _attr_net(getattr(obj, "attrs", None))
+        if isinstance(obj, (go.Line, go.Arc)):
+            if isinstance(obj, go.Line):
+                pts = [(obj.x1 * k, obj.y1 * k), (obj.x2 * k, obj.y2 * k)]
+            else:
+                c = obj.center
+                pts = shapes.arc_points(obj.x1 * k, obj.y1 * k, obj.x2 * k, obj.y2 * k, c[0] * k, c[1] * k,
+                                        obj.clockwise, tol)
+            w = shapes.aperture_width_mm(obj.aperture)
+            if isinstance(obj.aperture, CircleAperture) and w > 0:
+                if pts[0] == pts[-1] and len(pts) == 2:
+                    runs[-1][1].append(shapely.Point(pts[0]).buffer(w / 2, quad_segs=shapes.quad_segs_for(w / 2, tol)))
+                else:
+                    round_lines.append((pts, w / 2))
+            else:
+                runs[-1][1].append(shapes.stroke_shape(pts, obj.aperture, aps, tol))
+            if dark:
+                fn = _aper_function(obj)
+                for (xa, ya), (xb, yb) in zip(pts[:-1], pts[1:]):
+                    segs.append((xa, ya, xb, yb, w))
+                    seg_net.append(net)
+                    seg_fn.append(fn)
+        elif isinstance(obj, go.Flash):
+            base = aps.shape(obj.aperture)
+            x, y = obj.x * k, obj.y * k
+            runs[-1][1].append(shapely.affinity.translate(base, x, y))
+            if dark:
+                b = base.bounds
+                flashes.append((x, y, max(b[2] - b[0], b[3] - b[1]) if not base.is_empty else 0.0))
+                fl_net.append(net)
+                fl_fn.append(_aper_function(obj))
+                p = (getattr(obj, "attrs", None) or {}).get(".P") if isinstance(getattr(obj, "attrs", None), dict) else None
+                fl_part.append((p[0], p[1] if len(p) > 1 else "") if p else None)
+        elif isinstance(obj, go.Region):
+            poly = shapes.polygon_from_points(shapes.ring_points(obj.outline, obj.arc_centers or [], tol, k))
+            runs[-1][1].append(poly)
+            if dark and not poly.is_empty:
+                layer.regions.append((poly, net, None))
+    if runs:
+        flush_round()
+    acc = shapely.Polygon()
+    for dark, pieces in runs:
+        pieces = [p for p in pieces if p is not None and not p.is_empty]
+        if not pieces:
+            continue
+        run = shapely.union_all(pieces)
+        acc = acc.union(run) if dark else acc.difference(run)
+    if role.polarity == "negative":
+        acc = outline.difference(acc)
+    layer.geometry = shapely.make_valid(acc) if not acc.is_valid else acc
+    layer.segments = np.array(segs, dtype=float).reshape(-1, 5)
+    layer.segment_net, layer.segment_function = seg_net, seg_fn
+    layer.flashes = np.array(flashes, dtype=float).reshape(-1, 3)
+    layer.flash_net, layer.flash_function, layer.flash_part = fl_net, fl_fn, fl_part
+    return layer
+
+
+def outline_polygon(g, tol):
+    """Board profile from an outline/profile Gerber: the largest closed loop, inner loops as cut-outs."""
+    lines = []
+    for obj in g.objects:
+        k = 25.4 if obj.unit == Inch else 1.0
+        if isinstance(obj, go.Line):
+            lines.append(shapely.LineString([(obj.x1 * k, obj.y1 * k), (obj.x2 * k, obj.y2 * k)]))
+        elif isinstance(obj, go.Arc):
+            c = obj.center
+            lines.append(shapely.LineString(shapes.arc_points(obj.x1 * k, obj.y1 * k, obj.x2 * k, obj.y2 * k,
+                                                             c[0] * k, c[1] * k, obj.clockwise, tol)))
+        elif isinstance(obj, go.Region):
+            pts = shapes.ring_points(obj.outline, obj.arc_centers or [], tol, k)
+            if len(pts) > 2:
+                lines.append(shapely.LineString(pts + [pts[0]]))
+    lines = [ln for ln in lines if ln.length > 0]
+    if not lines:
+        return None
+    # a 1 um grid closes loops whose ends were written with rounding differences
+    merged = shapely.union_all(shapely.set_precision(np.array(lines, dtype=object), 0.001))
+    polys = list(shapely.get_parts(shapely.polygonize(shapely.get_parts(merged))))
+    if not polys:
+        return None
+    polys.sort(key=lambda p: -p.area)
+    outer = shapely.Polygon(polys[0].exterior)
+    holes = [p for p in polys[1:] if outer.contains(p.representative_point()) and p.area < outer.area]
+    # nested loops alternate board / cut-out; keep only the first level of cut-outs
+    cut = shapely.union_all([shapely.Polygon(h.exterior) for h in holes]) if holes else shapely.Polygon()
+    return outer.difference(cut) if not cut.is_empty else outer
+
+
+EXCELLON_CANDIDATES = [(u, nf, z) for u in (MM, Inch) for nf in ((2, 4), (3, 3), (2, 5), (3, 5), (4, 4), (3, 4), (4, 3))
+                       for z in ("leading", "trailing")]
+
+
+def _drill_points(d):
+    pts = []
+    for o in d.objects:
+        k = 25.4 if o.unit == Inch else 1.0
+        if isinstance(o, go.Flash):
+            pts.append((o.x * k, o.y * k))
+        elif isinstance(o, go.Line):
+            pts.append((o.x1 * k, o.y1 * k))
+    return np.array(pts, dtype=float).reshape(-1, 2)
+
+
+def _inside_fraction(pts, region):
+    if len(pts) == 0 or region is None or region.is_empty:
+        return 0.0
+    return float(np.mean(shapely.contains_xy(region, pts[:, 0], pts[:, 1])))
+
+
+def parse_drill(fab, text, copper_region, notes):
+    """Excellon via gerbonara; when the header is silent or the holes land off the board,
+    try the usual number formats and keep the one whose holes fall on the copper."""
+    def attempt(settings):
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return ExcellonFile.from_string(text, settings=settings, filename=fab.name)
+
+    first_error = None
+    d = None
+    try:
+        d = attempt(None)
+    except Exception as e:
+        first_error = e
+    if d is not None:
+        score = _inside_fraction(_drill_points(d), copper_region)
+        if score >= 0.9 or len(d.objects) == 0 or copper_region is None:
+            s = d.import_settings
+            return d, f"{s.unit} {s.number_format} zeros={s.zeros}" if s else ""
+    else:
+        score = -1.0
+    declared_unit = MM if re.search(r"^\s*METRIC", text, re.M) else (Inch if re.search(r"^\s*INCH", text, re.M) else None)
+    best, best_score, best_desc = d, score, None
+    for unit, nf, zeros in EXCELLON_CANDIDATES:
+        if declared_unit is not None and unit != declared_unit:
+            continue
+        try:
+            cand = attempt(FileSettings(unit=unit, number_format=nf, zeros=zeros))
+        except Exception:
+            continue
+        sc = _inside_fraction(_drill_points(cand), copper_region)
+        if sc > best_score + 1e-9:
+            best, best_score = cand, sc
+            best_desc = f"{unit} {nf[0]}.{nf[1]} with {zeros} zeros omitted"
+    if best is None:
+        msg = str(first_error) if first_error else "no holes found"
+        m = re.match(r".*?:(\d+) \"(.*?)\": (.*)", msg, re.S)
+        line = int(m.group(1)) if m else None
+        reason = m.group(3) if m else msg
+        raise InputError(fab.name, f"cannot read as Excellon ({reason.split('.')[0][:150]})", line)
+    if best_desc:
+        notes.append(f"{fab.name}: drill number format not stated or inconsistent; inferred {best_desc} "
+                     f"({best_score:.0%} of holes land on copper)")
+    return best, best_desc or ""
+
+
+VIA_TOOL_RE = re.compile(r"#@! TA\.AperFunction,([^\r\n]*)\r?\n\s*T(\d+)C([\d.]+)")
+
+
+def build_drill(fab, d, role, n_layers, text, fmt):
+    holes, slots, via_flags, tool_plating = [], [], [], []
+    via_diams = {}
+    for m in VIA_TOOL_RE.finditer(text):
+        via_diams[round(float(m.group(3)), 4)] = "ViaDrill" in m.group(1)
+    for o in d.objects:
+        k = 25.4 if o.unit == Inch else 1.0
+        dia = o.aperture.unit.convert_to(MM, o.aperture.diameter) if getattr(o, "aperture", None) else 0.0
+        native = round(o.aperture.diameter, 4) if getattr(o, "aperture", None) else None
+        tool_plating.append(getattr(o.aperture, "plated", None))
+        if isinstance(o, go.Flash):
+            holes.append((o.x * k, o.y * k, dia))
+            via_flags.append(via_diams.get(native))
+        elif isinstance(o, go.Line):
+            slots.append((o.x1 * k, o.y1 * k, o.x2 * k, o.y2 * k, dia))
+    plated = role.plated
+    known = {p for p in tool_plating if p is not None}
+    if plated is None and len(known) == 1:
+        plated = known.pop()
+    span = role.span or (1, n_layers)
+    m = re.search(r"[-_](\d+)[-_](\d+)\.\w+$", PurePosixPath(fab.name).name)
+    if role.span is None and m and 1 <= int(m.group(1)) < int(m.group(2)) <= n_layers:
+        span = (int(m.group(1)), int(m.group(2)))
+    return DrillFile(file=fab.name, plated=plated, from_layer=span[0], to_layer=min(span[1], n_layers),
+                     holes=np.array(holes, dtype=float).reshape(-1, 3), slots=np.array(slots, dtype=float).reshape(-1, 5),
+                     hole_is_via=via_flags, identified_by=role.source, number_format=fmt), tool_plating
+
+
+def parse_netlist(fab):
+    """IPC-D-356 test records -> NetPoints in mm."""
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            nl = Netlist.open(fab.path)
+    except Exception as e:
+        raise InputError(fab.name, f"cannot read as IPC-D-356 ({type(e).__name__}: {str(e)[:120]})")
+    pts = []
+    for r in nl.test_records:
+        if r.x is None or r.y is None or not r.net_name or r.net_name in ("N/C",):
+            continue
+        k = 25.4 if r.unit == Inch else 1.0
+        pts.append(NetPoint(net=unescape_net(r.net_name), x=r.x * k, y=r.y * k, refdes=r.ref_des,
+                            pin=str(r.pin_num) if r.pin_num is not None else None, is_via=bool(r.is_via),
+                            layers=None))
+    return pts
+
+
+def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_MM):
+    """Read a board (folder, zip or file list) into the board model."""
+    with BoardFiles(sources) as bf:
+        texts = {f.name: read_text(f) for f in bf.fab if f.kind in ("gerber", "excellon", "job")}
+        notes = []
+        job, job_name = {}, None
+        for f in bf.fab:
+            if f.kind == "job":
+                job = parse_job_file(f, texts[f.name]) or job
+                job_name = f.name
+        roles, id_notes = identify(bf, texts, job, user_layers)
+        notes.extend(id_notes)
+        copper_roles = number_copper(roles)
+        if not copper_roles:
+            raise InputError(bf.source, "no copper layer could be identified (give a [layers] mapping in a stackup file)")
+        by_name = {f.name: f for f in bf.fab}
+        parsed = {}
+        for name, role in roles.items():
+            if role.kind in ("copper", "profile"):
+                parsed[name] = parse_gerber(by_name[name], texts[name], notes)
+        outline = None
+        outline_file = None
+        for name, role in roles.items():
+            if role.kind == "profile":
+                outline = outline_polygon(parsed[name], chord_tol_mm)
+                outline_file = name
+                if outline is not None:
+                    break
+        provisional = outline
+        layers = []
+        for name, role in copper_roles:
+            layers.append(build_layer(by_name[name], parsed[name], role, provisional or shapely.Polygon(), chord_tol_mm))
+            if role.polarity == "negative" and provisional is None:
+                raise InputError(name, "negative-polarity copper needs a board profile file")
+        all_copper = shapely.union_all([l.geometry for l in layers])
+        if outline is None:
+            hull = all_copper.convex_hull if not all_copper.is_empty else shapely.Polygon()
+            outline = hull
+            notes.append("no usable board profile file" + (f" ({outline_file} has no closed outline)" if outline_file else "")
+                         + "; board outline taken as the convex hull of all copper")
+        board = Board(name=bf.name, source=bf.source, copper=layers, drills=[], outline=outline,
+                      ignored=list(bf.ignored))
+        board.job = job
+        board.job_file = job_name
+        board.outline_file = outline_file
+        n = len(layers)
+        region = outline.buffer(1.0) if not outline.is_empty else None
+        for name, role in roles.items():
+            if role.kind == "drill":
+                f = by_name[name]
+                d, fmt = parse_drill(f, texts[name], region, notes)
+                drill, tool_plating = build_drill(f, d, role, n, texts[name], fmt)
+                if drill.plated is None:
+                    known = {p for p in tool_plating if p is not None}
+                    if len(known) > 1:
+                        drill.plated = True
+                        notes.append(f"{name}: mixes plated and non-plated tools; all its holes treated as plated")
+                    else:
+                        drill.plated = True
+                        notes.append(f"{name}: plating not stated; holes assumed plated")
+                board.drills.append(drill)
+            elif role.kind == "other":
+                board.other_files.append({"file": name, "role": role.label, "identified_by": role.source})
+        for f in bf.fab:
+            if f.kind == "ipc356":
+                board.netlist.extend(parse_netlist(f))
+                board.netlist_file = f.name
+        for l in layers:
+            if l.geometry.is_empty:
+                notes.append(f"{l.file}: copper layer {l.name} is empty")
+        for note in notes:
+            board.assume(note)
+        for l in layers:
+            if l.identified_by == "file name":
+                board.assume(f"{l.file}: identified as copper {l.name} ({l.side}) from its file name only")
+        return board

@@ -1,0 +1,130 @@
+"""The board model that the importer builds and later stages read."""
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import shapely
+
+
+@dataclass
+class CopperLayer:
+    """One copper layer: its unioned copper plus the drawn objects that later stages need."""
+
+    name: str                 # "L1" .. "Ln", top to bottom
+    file: str
+    side: str                 # top | inner | bottom
+    polarity: str = "positive"
+    type_hint: str | None = None      # Signal | Plane | Mixed | Hatched, when the file says
+    identified_by: str = ""
+    geometry: object = field(default_factory=shapely.Polygon)
+    # dark strokes as centre-line segments: columns x1, y1, x2, y2, width (mm)
+    segments: np.ndarray = field(default_factory=lambda: np.zeros((0, 5)))
+    segment_net: list = field(default_factory=list)       # str or None per segment
+    segment_function: list = field(default_factory=list)  # .AperFunction or None
+    # dark flashes: columns x, y, size (mm)
+    flashes: np.ndarray = field(default_factory=lambda: np.zeros((0, 3)))
+    flash_net: list = field(default_factory=list)
+    flash_function: list = field(default_factory=list)
+    flash_part: list = field(default_factory=list)        # (refdes, pin) or None
+    # dark regions: (polygon, net, function)
+    regions: list = field(default_factory=list)
+
+    @property
+    def index(self):
+        return int(self.name[1:]) - 1
+
+    @property
+    def copper_area_mm2(self):
+        return float(self.geometry.area)
+
+    def object_nets(self):
+        return {n for n in self.segment_net + self.flash_net + [r[1] for r in self.regions] if n}
+
+
+@dataclass
+class DrillFile:
+    file: str
+    plated: bool | None
+    from_layer: int           # 1-based copper layer numbers
+    to_layer: int
+    holes: np.ndarray = field(default_factory=lambda: np.zeros((0, 3)))    # x, y, diameter
+    slots: np.ndarray = field(default_factory=lambda: np.zeros((0, 5)))    # x1, y1, x2, y2, width
+    hole_is_via: list = field(default_factory=list)   # True / False / None per hole
+    identified_by: str = ""
+    number_format: str = ""
+
+    @property
+    def hole_count(self):
+        return int(len(self.holes) + len(self.slots))
+
+
+@dataclass
+class Dielectric:
+    between: tuple            # ("L1", "L2")
+    thickness_mm: float
+    er: float
+    source: str = ""
+
+
+@dataclass
+class Stackup:
+    dielectrics: list         # top to bottom, one between each pair of neighbouring copper layers
+    copper_thickness_mm: dict  # layer name -> thickness
+    board_thickness_mm: float
+    source: str = ""
+
+    def height_mm(self, upper, lower):
+        """Dielectric thickness between two copper layers (sum of what lies between them)."""
+        a, b = sorted((int(upper[1:]), int(lower[1:])))
+        total = 0.0
+        for d in self.dielectrics:
+            i = int(d.between[0][1:])
+            if a <= i < b:
+                total += d.thickness_mm
+        for n in range(a + 1, b):  # copper of layers in between
+            total += self.copper_thickness_mm.get(f"L{n}", 0.035)
+        return total
+
+    def er_between(self, upper, lower):
+        """Thickness-weighted permittivity of the dielectrics between two copper layers."""
+        a, b = sorted((int(upper[1:]), int(lower[1:])))
+        parts = [d for d in self.dielectrics if a <= int(d.between[0][1:]) < b]
+        t = sum(d.thickness_mm for d in parts)
+        return sum(d.er * d.thickness_mm for d in parts) / t if t > 0 else 4.3
+
+
+@dataclass
+class NetPoint:
+    """A netlist test point (IPC-D-356): where a net has a pad or via."""
+
+    net: str
+    x: float
+    y: float
+    refdes: str | None
+    pin: str | None
+    is_via: bool
+    layers: tuple | None      # (from, to) 1-based, None when unknown
+
+
+@dataclass
+class Board:
+    name: str
+    source: str
+    copper: list              # CopperLayer, top to bottom
+    drills: list              # DrillFile
+    outline: object           # shapely Polygon of the board profile
+    stackup: Stackup | None = None
+    netlist: list = field(default_factory=list)   # NetPoint
+    assumptions: list = field(default_factory=list)
+    ignored: list = field(default_factory=list)   # {"file", "reason"}
+    other_files: list = field(default_factory=list)  # recognised but unused here (mask, silk, ...)
+
+    def layer(self, name):
+        for c in self.copper:
+            if c.name == name:
+                return c
+        raise KeyError(name)
+
+    def assume(self, text):
+        if text not in self.assumptions:
+            self.assumptions.append(text)
