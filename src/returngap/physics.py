@@ -7,7 +7,7 @@ published result. All of them are estimates for review, not field-solver results
 import math
 
 C_MM_PER_NS = 299.792458          # speed of light
-MU0_NH_PER_MM = 4e-4 * math.pi    # 4*pi*1e-7 H/m = 4*pi*1e-4 nH/mm
+MU0_NH_PER_MM = 0.4 * math.pi     # 4*pi*1e-7 H/m = 0.4*pi nH/mm
 ETA0_OHM = 376.730313
 
 

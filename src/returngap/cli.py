@@ -1,0 +1,119 @@
+"""Command line: `returngap layers BOARD` and `returngap check BOARD`.
+
+Exit status: 0 clean, 1 findings at or above --fail-on, 2 bad input or usage.
+"""
+
+import os
+import sys
+import traceback
+import warnings
+from pathlib import Path
+
+import click
+
+from . import __version__, report
+from .errors import InputError
+
+FAIL_LEVELS = {"error": {"error"}, "warning": {"error", "warning"}, "never": set()}
+
+
+def _run(ctx, fn):
+    """Bad input -> one line on stderr and exit 2; a traceback only with --debug."""
+    debug = ctx.obj.get("debug") if ctx.obj else False
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return fn()
+    except InputError as e:
+        click.echo(f"returngap: error: {e}", err=True)
+        if debug:
+            traceback.print_exc()
+        sys.exit(2)
+    except (KeyboardInterrupt, SystemExit):
+        raise
+    except MemoryError:
+        click.echo("returngap: error: out of memory while processing the board", err=True)
+        sys.exit(2)
+    except Exception as e:  # a defect of ours or an input we do not understand; never a bare traceback
+        click.echo(f"returngap: error: could not process the board ({type(e).__name__}: {str(e)[:200]})"
+                   " (run with --debug for details)", err=True)
+        if debug:
+            traceback.print_exc()
+        sys.exit(2)
+
+
+def _write(path, text):
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name(path.name + ".tmp")
+    tmp.write_text(text, encoding="utf-8")
+    os.replace(tmp, path)
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(__version__, prog_name="returngap")
+@click.option("--debug", is_flag=True, help="Show a traceback on errors.")
+@click.pass_context
+def main(ctx, debug):
+    """Return-current path checks on released PCB fabrication data (estimates for review)."""
+    ctx.obj = {"debug": debug}
+
+
+@main.command()
+@click.argument("board", nargs=-1, required=True, type=click.Path())
+@click.option("--stackup", "stackup_file", type=click.Path(), help="Stackup / layer-mapping TOML file.")
+@click.option("--json", "as_json", is_flag=True, help="Print the layer report as JSON.")
+@click.pass_context
+def layers(ctx, board, stackup_file, as_json):
+    """Show the recognised layers, drills, stackup, ignored files and assumptions."""
+    from . import connectivity, pipeline
+
+    def go():
+        b, cfg = pipeline.load(list(board), stackup_file)
+        rep = report.layers_report(b, connectivity.build_nets(b, cfg))
+        click.echo(report.to_json(rep) if as_json else report.layers_text(rep), nl=not as_json)
+    _run(ctx, go)
+
+
+@main.command()
+@click.argument("board", nargs=-1, required=True, type=click.Path())
+@click.option("--stackup", "stackup_file", type=click.Path(), help="Stackup / layer-mapping TOML file.")
+@click.option("--rise-time", "rise_ns", type=click.FloatRange(min=1e-4, max=1e3), help="10-90 % rise time, ns.")
+@click.option("--max-freq", "max_ghz", type=click.FloatRange(min=1e-4, max=1e3),
+              help="Highest frequency of interest, GHz (instead of --rise-time).")
+@click.option("--nets", "net_globs", multiple=True, help="Only nets matching this glob (repeatable).")
+@click.option("--json", "json_file", type=click.Path(), help="Write the findings report (JSON) here.")
+@click.option("--out", "out_dir", type=click.Path(), help="Write all reports into this folder.")
+@click.option("--fail-on", type=click.Choice(["error", "warning", "never"]), default="error", show_default=True)
+@click.option("--limit", type=click.IntRange(min=1), default=40, show_default=True, help="Rows in the printed table.")
+@click.pass_context
+def check(ctx, board, stackup_file, rise_ns, max_ghz, net_globs, json_file, out_dir, fail_on, limit):
+    """Find where return current must detour around slots, splits and voids."""
+    from . import pipeline
+    from .projector import Settings
+
+    if rise_ns and max_ghz:
+        raise click.UsageError("give --rise-time or --max-freq, not both")
+    settings = Settings(nets=tuple(net_globs))
+    if rise_ns:
+        settings.rise_time_ns = rise_ns
+    if max_ghz:
+        settings.max_freq_GHz = max_ghz
+
+    def go():
+        result = pipeline.run_check(list(board), stackup_file, settings)
+        rep = report.findings_report(result)
+        text = report.to_json(rep)
+        if json_file:
+            _write(json_file, text)
+        if out_dir:
+            _write(Path(out_dir) / "findings.json", text)
+        click.echo(report.findings_table(rep, limit))
+        click.echo(report.summary_line(rep))
+        bad = FAIL_LEVELS[fail_on]
+        return 1 if any(f["severity"] in bad for f in rep["findings"]) else 0
+    sys.exit(_run(ctx, go))
+
+
+if __name__ == "__main__":
+    main()

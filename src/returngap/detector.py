@@ -1,0 +1,419 @@
+"""Gap crossings: where a track's return footprint meets missing copper of its reference net.
+
+A void here is any connected piece of (board outline - reference-net copper) on the
+reference layer. The centre line crossing it, with the same plane island on both
+sides, is a slot or void crossing with a geodesic detour; with different islands (or
+nets) on the two sides it is a split. A footprint that only grazes an enclosed void
+is reported when the interrupted share of return current is large enough. A track
+ending inside a void (its own via's antipad, or running off the plane) is left to
+the layer-change and plane-edge checks.
+"""
+
+import hashlib
+import math
+from dataclasses import dataclass
+
+import networkx as nx
+import numpy as np
+import shapely
+
+from . import physics
+
+EPS = 1e-6
+STEP_OFF_MM = 0.01     # how far beyond a gap's edge the detour path starts and ends
+MAX_STATIONS = 160     # transverse cuts per crossing for the interrupted share
+
+
+@dataclass
+class Void:
+    geom: object
+    enclosed: bool
+    index: int
+
+
+class ReferenceCopper:
+    """The plane copper (every plane net) of one reference layer, its voids and islands, indexed."""
+
+    def __init__(self, layer_nets, plane_nets, outline):
+        parts = [(p, n) for p, n in zip(layer_nets.islands, layer_nets.island_net) if n in plane_nets]
+        self.islands = np.array([p for p, _ in parts], dtype=object)
+        self.island_net = [n for _, n in parts]
+        self.tree = shapely.STRtree(self.islands)
+        copper = shapely.union_all(self.islands) if len(self.islands) else shapely.Polygon()
+        voids = shapely.get_parts(outline.difference(copper))
+        edge = outline.boundary
+        self.voids = [Void(v, not v.buffer(1e-4).intersects(edge), k)
+                      for k, v in enumerate(voids) if v.geom_type == "Polygon" and v.area > 1e-6]
+        self.void_tree = shapely.STRtree(np.array([v.geom for v in self.voids], dtype=object))
+        self.outline = outline
+        self.edge = edge
+
+    def island_at(self, point):
+        hit = self.tree.query(point, predicate="intersects")
+        return int(hit[0]) if len(hit) else None
+
+
+def reflex_vertices(poly):
+    """Vertices of a polygon's rings where the free space turns a reflex corner (a convex obstacle corner)."""
+    poly = shapely.orient_polygons(poly)
+    out = []
+    for ring in [poly.exterior] + list(poly.interiors):
+        c = np.asarray(ring.coords)[:-1]
+        if len(c) < 3:
+            continue
+        prev, nxt = np.roll(c, 1, axis=0), np.roll(c, -1, axis=0)
+        cross = (c[:, 0] - prev[:, 0]) * (nxt[:, 1] - c[:, 1]) - (c[:, 1] - prev[:, 1]) * (nxt[:, 0] - c[:, 0])
+        out.append(c[cross < 0])
+    return np.vstack(out) if out else np.zeros((0, 2))
+
+
+def geodesic(island, a, b, focus, max_nodes=400):
+    """Shortest path from a to b inside island (a Polygon), searched near `focus`; (length, coords) or None.
+
+    Visibility graph over the reflex corners of the free space, clipped to a window around
+    the gap so that the search stays local."""
+    ax, ay = a
+    bx, by = b
+    fx0, fy0, fx1, fy1 = focus.bounds
+    x0, y0 = min(ax, bx, fx0), min(ay, by, fy0)
+    x1, y1 = max(ax, bx, fx1), max(ay, by, fy1)
+    margin = max(2.0, 0.25 * math.hypot(x1 - x0, y1 - y0))
+    window = shapely.box(x0 - margin, y0 - margin, x1 + margin, y1 + margin)
+    free = island.intersection(window)
+    pa, pb = shapely.Point(a), shapely.Point(b)
+    if free.geom_type != "Polygon":
+        parts = [p for p in shapely.get_parts(free) if p.geom_type == "Polygon" and p.buffer(1e-6).covers(pa)]
+        if not parts:
+            return None
+        free = parts[0]
+    test = free.buffer(1e-6)
+    shapely.prepare(test)
+    if not test.covers(pb):
+        return None
+    direct = shapely.LineString([a, b])
+    if test.covers(direct):
+        return direct.length, [a, b]
+    tol = 0.01
+    simple = free
+    while True:
+        corners = reflex_vertices(simple)
+        if len(corners) <= max_nodes or tol > 1.0:
+            break
+        tol *= 2
+        simple = free.simplify(tol, preserve_topology=True)
+        if simple.geom_type != "Polygon":
+            simple = free
+            break
+    corners = corners[:max_nodes]
+    nodes = np.vstack([[a, b], corners])
+    n = len(nodes)
+    ii, jj = np.triu_indices(n, 1)
+    lines = shapely.linestrings(np.stack([nodes[ii], nodes[jj]], axis=1))
+    ok = shapely.covers(test, lines)
+    g = nx.Graph()
+    d = np.hypot(nodes[ii, 0] - nodes[jj, 0], nodes[ii, 1] - nodes[jj, 1])
+    g.add_weighted_edges_from(zip(ii[ok].tolist(), jj[ok].tolist(), d[ok].tolist()))
+    if 0 not in g or 1 not in g:
+        return None
+    try:
+        length, path = nx.single_source_dijkstra(g, 0, 1)
+    except nx.NetworkXNoPath:
+        return None
+    return float(length), [tuple(map(float, nodes[k])) for k in path]
+
+
+def interval_fraction(x1, x2, width, ref):
+    if ref.other_h_mm is None:
+        return physics.microstrip_fraction_between(x1, x2, width, ref.h_mm)
+    return physics.stripline_fraction_between(x1, x2, ref.h_mm, ref.other_h_mm)
+
+
+def interrupted_share(line, s_from, s_to, halfwidth, width, ref, gap):
+    """Largest share of the return current over the gap, over transverse cuts from s_from to s_to.
+
+    Returns (share, s at the maximum)."""
+    s_from, s_to = max(0.0, s_from), min(line.length, s_to)
+    if s_to <= s_from:
+        return 0.0, s_from
+    n = int(min(MAX_STATIONS, max(3, (s_to - s_from) / max(ref.h_mm / 4, 0.02))))
+    ss = np.linspace(s_from, s_to, n)
+    p = shapely.get_coordinates(shapely.line_interpolate_point(line, ss))
+    q = shapely.get_coordinates(shapely.line_interpolate_point(line, np.minimum(ss + 1e-3, line.length)))
+    r = shapely.get_coordinates(shapely.line_interpolate_point(line, np.maximum(ss - 1e-3, 0.0)))
+    t = q - r
+    t /= np.maximum(np.hypot(t[:, 0], t[:, 1]), EPS)[:, None]
+    nrm = np.column_stack([-t[:, 1], t[:, 0]])
+    cuts = shapely.linestrings(np.stack([p - halfwidth * nrm, p + halfwidth * nrm], axis=1))
+    pieces = shapely.intersection(cuts, gap)
+    best, best_s = 0.0, ss[0]
+    for k, piece in enumerate(pieces):
+        if piece.is_empty:
+            continue
+        total = 0.0
+        for part in shapely.get_parts(piece):
+            if part.geom_type not in ("LineString", "LinearRing"):
+                continue
+            c = np.asarray(part.coords)
+            x = (c - p[k]) @ nrm[k]
+            total += interval_fraction(float(x.min()), float(x.max()), width, ref)
+        if total > best:
+            best, best_s = total, ss[k]
+    return best, float(best_s)
+
+
+def stable_id(*parts):
+    return hashlib.sha1("|".join(str(p) for p in parts).encode()).hexdigest()[:12]
+
+
+def _extent_across(void_geom, mid, direction, reach):
+    """Where a line through mid along direction leaves the void, both ways: (l1, l2, end1, end2)."""
+    ux, uy = direction
+    line = shapely.LineString([(mid[0] - reach * ux, mid[1] - reach * uy), (mid[0] + reach * ux, mid[1] + reach * uy)])
+    inter = line.intersection(void_geom)
+    pm = shapely.Point(mid)
+    for part in shapely.get_parts(inter):
+        if part.geom_type == "LineString" and part.distance(pm) < 1e-3:
+            c = np.asarray(part.coords)
+            s = (c - np.asarray(mid)) @ np.asarray(direction)
+            return max(0.0, -float(s.min())), max(0.0, float(s.max())), \
+                tuple(np.asarray(mid) + float(s.min()) * np.asarray(direction)), \
+                tuple(np.asarray(mid) + float(s.max()) * np.asarray(direction))
+    return 0.0, 0.0, mid, mid
+
+
+def _tangent(line, s):
+    a = line.interpolate(max(0.0, s - 0.01))
+    b = line.interpolate(min(line.length, s + 0.01))
+    dx, dy = b.x - a.x, b.y - a.y
+    n = math.hypot(dx, dy) or 1.0
+    return dx / n, dy / n
+
+
+def slot_geometry(void, mid, tangent, reach, aspect_limit):
+    """gap length and width, the crossing's distances to the two ends, and which end is open."""
+    perp = (-tangent[1], tangent[0])
+    if void.enclosed:
+        rect = void.geom.minimum_rotated_rectangle
+        c = np.asarray(rect.exterior.coords)[:4]
+        e1, e2 = c[1] - c[0], c[2] - c[1]
+        if np.hypot(*e1) < np.hypot(*e2):
+            e1, e2 = e2, e1
+        length, width = float(np.hypot(*e1)), float(np.hypot(*e2))
+        axis = e1 / (length or 1.0)
+        centre = c.mean(axis=0)
+        s = float((np.asarray(mid) - centre) @ axis)
+        l1, l2 = max(0.0, length / 2 + s), max(0.0, length / 2 - s)
+        elongated = width > 0 and length / width >= aspect_limit
+        return dict(length=length, width=width, l1=l1, l2=l2, open_ends=0, elongated=elongated)
+    l1, l2, end1, end2 = _extent_across(void.geom, mid, perp, reach)
+    return dict(length=l1 + l2, width=None, l1=l1, l2=l2, end1=end1, end2=end2, elongated=True, open_ends=None)
+
+
+def detect_gap_crossings(board, nets, refs, chains, settings):
+    """All gap-crossing findings, as dicts (see report.FINDING_FIELDS)."""
+    findings = []
+    copper_cache = {}
+    reach = math.hypot(*(np.subtract(board.outline.bounds[2:], board.outline.bounds[:2])))
+    own_holes = {}
+    for drill in board.drills:
+        for k, h in enumerate(drill.holes):
+            net = nets.hole_net.get((drill.file, k))
+            if net:
+                own_holes.setdefault(net, []).append((h[0], h[1]))
+    own_hole_pts = {n: shapely.points(np.array(v)) for n, v in own_holes.items()}
+    ref_by_layer = {(s, r.layer): r for s, rs in refs.items() for r in rs}
+    seen = set()
+    for ch in chains:
+        for ref_layer, (fp, hw) in ch.footprints.items():
+            ref = ref_by_layer[(ch.layer, ref_layer)]
+            ln = nets.layers[ref_layer]
+            if fp.is_empty:
+                continue
+            # the reference net: the plane net with most copper under the footprint
+            cand = ln.tree.query(fp, predicate="intersects")
+            overlap = {}
+            for i in cand:
+                net = ln.island_net[i]
+                if net in nets.plane_nets:
+                    overlap[net] = overlap.get(net, 0.0) + ln.islands[i].intersection(fp).area
+            if not overlap:
+                continue
+            ref_net = max(overlap.items(), key=lambda kv: (kv[1], kv[0]))[0]
+            rc = copper_cache.get(ref_layer)
+            if rc is None:
+                rc = copper_cache[ref_layer] = ReferenceCopper(ln, nets.plane_nets, board.outline)
+            if not rc.voids:
+                continue
+            line = ch.line
+            for vi in rc.void_tree.query(fp, predicate="intersects"):
+                void = rc.voids[int(vi)]
+                gap = fp.intersection(void.geom)
+                if gap.area < 1e-4:
+                    continue
+                if void.enclosed and ch.net in own_hole_pts and \
+                        shapely.intersects(void.geom, own_hole_pts[ch.net]).any():
+                    continue  # the antipad of the track's own via belongs to its layer change
+                crossing = line.intersection(void.geom)
+                pieces = []
+                for part in shapely.get_parts(crossing):
+                    if part.geom_type != "LineString" or part.length <= 0:
+                        continue
+                    s = sorted((line.project(shapely.Point(part.coords[0])), line.project(shapely.Point(part.coords[-1]))))
+                    pieces.append(s)
+                pieces.sort()
+                merged = []
+                for s0, s1 in pieces:  # pieces of one crossing closer than the footprint merge
+                    if merged and s0 - merged[-1][1] < hw:
+                        merged[-1][1] = max(merged[-1][1], s1)
+                    else:
+                        merged.append([s0, s1])
+                events = []
+                for s0, s1 in merged:
+                    if s0 <= STEP_OFF_MM or s1 >= line.length - STEP_OFF_MM:
+                        continue  # track ends inside this void
+                    events.append(("cross", s0, s1))
+                if not pieces and void.enclosed:
+                    events.append(("graze", None, None))
+                for ev, s0, s1 in events:
+                    f = _finding(board, ch, ref, rc, void, gap, line, hw, ev, s0, s1, reach, settings, ref_net)
+                    if f is None:
+                        continue
+                    key = (f["net"], f["layer"], f["reference_layer"], void.index, round(f["x_mm"], 1), round(f["y_mm"], 1))
+                    if key in seen:
+                        continue
+                    seen.add(key)
+                    findings.append(f)
+    return findings
+
+
+def _finding(board, ch, ref, rc, void, gap, line, hw, ev, s0, s1, reach, settings, ref_net):
+    w = ch.width_mm
+    if ev == "cross":
+        mid_s = (s0 + s1) / 2
+        pa = line.interpolate(max(0.0, s0 - STEP_OFF_MM))
+        pb = line.interpolate(min(line.length, s1 + STEP_OFF_MM))
+        ia, ib = rc.island_at(pa), rc.island_at(pb)
+        share, _ = interrupted_share(line, s0 - hw, s1 + hw, hw, w, ref, void.geom)
+        path_line = line
+    else:
+        # graze: measure along the filament just inside the void's nearest edge
+        near_line, near_void = shapely.shortest_line(line, void.geom).coords
+        mid_s = line.project(shapely.Point(near_line))
+        d = line.distance(void.geom)
+        near = void.geom.intersection(line.buffer(hw, cap_style="flat"))
+        span = [line.project(shapely.Point(c)) for c in near.exterior.coords] if near.geom_type == "Polygon" else \
+            [line.project(shapely.Point(c)) for c in shapely.get_coordinates(near)]
+        s_lo, s_hi = (min(span), max(span)) if span else (mid_s, mid_s)
+        share, _ = interrupted_share(line, s_lo, s_hi, hw, w, ref, void.geom)
+        path_line = None
+        for side in (1, -1):
+            off = line.offset_curve(side * (d + 0.02))
+            if off.is_empty or off.geom_type != "LineString":
+                continue
+            if off.distance(void.geom) < 1e-6:
+                path_line = off
+                break
+        ia = ib = None
+        pa = pb = None
+        if path_line is not None:
+            cr = [p for p in shapely.get_parts(path_line.intersection(void.geom)) if p.geom_type == "LineString"]
+            if cr:
+                ss = sorted(path_line.project(shapely.Point(c)) for p in cr for c in (p.coords[0], p.coords[-1]))
+                if ss[0] > STEP_OFF_MM and ss[-1] < path_line.length - STEP_OFF_MM:
+                    pa = path_line.interpolate(ss[0] - STEP_OFF_MM)
+                    pb = path_line.interpolate(ss[-1] + STEP_OFF_MM)
+                    ia, ib = rc.island_at(pa), rc.island_at(pb)
+    if share < settings.min_interrupted_fraction:
+        return None
+    mid = line.interpolate(mid_s)
+    tangent = _tangent(line, mid_s)
+    geo = slot_geometry(void, (mid.x, mid.y), tangent, reach, settings.slot_aspect_ratio)
+    if geo["length"] < settings.min_gap_length_mm and void.enclosed:
+        return None
+    detour, path = None, None
+    split = ev == "cross" and (ia is None or ib is None or ia != ib)
+    if not split and pa is not None and ia is not None and ia == ib:
+        g = geodesic(rc.islands[ia], (pa.x, pa.y), (pb.x, pb.y), void.geom)
+        if g is not None:
+            detour = max(0.0, g[0] - pa.distance(pb))
+            path = g[1]
+    if ev == "graze" and detour is None:
+        detour = 0.0
+    if ev == "cross" and detour is None and not split:
+        split = True  # no path found inside the plane island: treat as a split
+    if split:
+        gap_type = "split"
+    elif void.enclosed:
+        gap_type = "slot" if geo["elongated"] else "void"
+    else:
+        gap_type = "slot"  # a notch cut in from the plane's edge
+    width = geo["width"] if geo["width"] is not None else (s1 - s0 if ev == "cross" else 0.0)
+    open_one_end = False
+    if not void.enclosed and gap_type == "slot":
+        open_one_end = True
+        e1_open = shapely.Point(geo["end1"]).distance(rc.edge) < 0.05 or not rc.outline.buffer(-0.01).contains(shapely.Point(geo["end1"]))
+        # the open end is the one that reaches the plane's outer edge; the stub model keeps the closed one
+        l_closed = geo["l2"] if e1_open else geo["l1"]
+        l_open = geo["l1"] if e1_open else geo["l2"]
+    else:
+        l_closed, l_open = geo["l1"], geo["l2"]
+    slot_len = geo["length"]
+    d_eff = detour if detour is not None else slot_len  # a split: the whole gap length
+    l_hsdd = physics.hsdd_slot_inductance_nH(d_eff, w)
+    l_stub = physics.slot_stub_inductance_nH(l_closed, l_open, max(width, 0.01), l2_open=open_one_end,
+                                            strip_width_mm=max(slot_len / 2, 0.01))
+    vals = [v for v in (l_hsdd, l_stub) if v > 0]
+    est = math.sqrt(l_hsdd * l_stub) if len(vals) == 2 else (vals[0] if vals else 0.0)
+    lo, hi = (min(vals), max(vals)) if vals else (0.0, 0.0)
+    z0 = _z0(ch, ref, board)
+    refl = physics.series_inductance_reflection(est, z0, settings.rise_ns)
+    f_res = physics.slot_resonance_GHz(slot_len, ref.plane_er_eff, open_at_one_end=open_one_end)
+    f_res_low = physics.slot_resonance_GHz(slot_len, max(ref.plane_er_eff, _buried_er(ref)), open_at_one_end=open_one_end)
+    if split:
+        severity = "error"
+    elif refl >= settings.reflection_budget:
+        severity = "error"
+    elif refl >= settings.reflection_budget / 2:
+        severity = "warning"
+    else:
+        severity = "info"
+    resonant = f_res_low <= settings.knee_GHz
+    if resonant and severity != "error":
+        severity = "warning" if severity == "info" else "error"
+    x, y = float(mid.x), float(mid.y)
+    fid = stable_id("gap-crossing", ch.layer, ref.layer, ch.net, f"{x:.1f}", f"{y:.1f}", gap_type)
+    what = {"split": "crosses a split", "slot": "crosses a slot", "void": "crosses a void"}[gap_type]
+    if ev == "graze":
+        what = f"runs beside a {gap_type}"
+    det = "no path within the plane" if detour is None else f"detour {detour:.2f} mm"
+    if split and ib is not None and ia is not None and rc.island_net[ib] != rc.island_net[ia]:
+        det += f" ({rc.island_net[ia]} on one side, {rc.island_net[ib]} on the other)"
+    msg = (f"{ch.net} on {ch.layer} {what} in {ref_net} on {ref.layer} at ({x:.2f}, {y:.2f}) mm: {det}, "
+           f"{share:.0%} of return current interrupted, about {est:.1f} nH added ({lo:.1f}-{hi:.1f}), "
+           f"~{refl:.0%} reflection at {settings.rise_ns:g} ns; gap resonance near {f_res:.2f} GHz")
+    return {
+        "id": fid, "kind": "gap-crossing", "gap_type": gap_type, "severity": severity,
+        "net": ch.net, "layer": ch.layer, "reference_layer": ref.layer, "reference_net": ref_net,
+        "x_mm": x, "y_mm": y, "gap_length_mm": slot_len, "gap_width_mm": width,
+        "detour_mm": detour, "interrupted_fraction": min(1.0, share),
+        "added_inductance_nH": est, "added_inductance_range_nH": [lo, hi],
+        "inductance_method": "geometric mean of hsdd-slot-formula and slotline-stub-model",
+        "resonance_GHz": f_res, "resonance_range_GHz": sorted([f_res_low, f_res]),
+        "resonance_er_eff": ref.plane_er_eff, "resonance_mode": "quarter-wave" if open_one_end else "half-wave",
+        "reflection_fraction": refl, "z0_ohm": z0, "trace_width_mm": w, "height_mm": ref.h_mm,
+        "line_type": ref.kind, "plane_share": ref.share, "crossing": ev,
+        "detour_path_mm": [[round(a, 4), round(b, 4)] for a, b in path] if path else None,
+        "message": msg,
+    }
+
+
+def _buried_er(ref):
+    # lower resonance bound on an outer plane: the full substrate permittivity
+    return 2 * ref.plane_er_eff - 1 if ref.plane_is_outer else ref.plane_er_eff
+
+
+def _z0(ch, ref, board):
+    t = board.stackup.copper_thickness_mm.get(ch.layer, 0.035)
+    if ref.other_h_mm is None:
+        return physics.microstrip_z0_eeff(ch.width_mm, ref.h_mm, ref.er, t)[0]
+    return physics.stripline_z0(ch.width_mm, ref.h_mm + ref.other_h_mm, ref.er)

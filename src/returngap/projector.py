@@ -1,0 +1,158 @@
+"""Signal tracks and the reference planes their return current flows in.
+
+For each signal layer: the nearest plane-carrying copper layer above and below, the
+dielectric height to each, microstrip or stripline, and each plane's share of the
+return. Tracks are merged into centre-line chains per net and width; each chain's
+return footprint is its width plus the half-width holding the chosen share of the
+return current (REFERENCE: 1/(1+(x/h)^2) for microstrip, the two-plate law for stripline).
+"""
+
+import fnmatch
+import math
+from collections import defaultdict
+from dataclasses import dataclass, field
+
+import numpy as np
+import shapely
+
+from . import physics
+
+NON_TRACK_FUNCTIONS = {"NonConductor", "Profile", "Material", "NonMaterial", "Other", "Drawing", "Border",
+                       "CopperBalancing", "EtchedComponent"}
+
+
+@dataclass
+class Settings:
+    """Check settings; defaults cite a source or say 'common practice, no source'."""
+
+    rise_time_ns: float = 0.5          # a fast CMOS edge (common practice, no source)
+    max_freq_GHz: float | None = None  # when given, overrides the rise time: T_r = 0.5 / f
+    current_fraction: float = 0.90     # share of the return current the footprint holds (REFERENCE sec. 1.4)
+    reflection_budget: float = 0.10    # 10 % reflection noise (Bogatin, from memory)
+    min_interrupted_fraction: float = 0.05  # smaller interruptions are not reported (common practice, no source)
+    min_gap_length_mm: float = 1.0     # single via antipads under a track are not reported (common practice, no source)
+    slot_aspect_ratio: float = 3.0     # elongated beyond this: a slot, else a void (common practice, no source)
+    plane_min_fraction: float = 0.20   # a layer whose plane-net copper covers this share of the board is a reference
+    nets: tuple = ()                   # glob patterns; empty = every signal net
+
+    @property
+    def rise_ns(self):
+        return physics.rise_time_for_knee_ns(self.max_freq_GHz) if self.max_freq_GHz else self.rise_time_ns
+
+    @property
+    def knee_GHz(self):
+        return self.max_freq_GHz or physics.knee_frequency_GHz(self.rise_time_ns)
+
+    def as_dict(self):
+        return {
+            "rise_time_ns": round(self.rise_ns, 6), "knee_frequency_GHz": round(self.knee_GHz, 6),
+            "current_fraction": self.current_fraction, "reflection_budget": self.reflection_budget,
+            "min_interrupted_fraction": self.min_interrupted_fraction,
+            "min_gap_length_mm": self.min_gap_length_mm, "slot_aspect_ratio": self.slot_aspect_ratio,
+            "plane_min_fraction": self.plane_min_fraction, "nets": list(self.nets),
+        }
+
+
+@dataclass
+class Reference:
+    layer: str
+    h_mm: float                 # dielectric height from the signal layer to this plane
+    other_h_mm: float | None    # stripline: height to the other plane
+    share: float                # share of the return current on this plane
+    er: float                   # dielectric between signal and plane
+    plane_is_outer: bool
+    plane_er_eff: float         # for slot resonance: er buried, (er+1)/2 on an outer layer
+    plane_er_low: float         # lower bound of the slot's effective permittivity
+
+    @property
+    def kind(self):
+        return "stripline" if self.other_h_mm is not None else "microstrip"
+
+
+@dataclass
+class Chain:
+    net: str
+    layer: str
+    width_mm: float
+    line: object                # shapely LineString
+    footprints: dict = field(default_factory=dict)  # reference layer -> (polygon, half-width)
+
+
+def plane_layers(board, nets, settings):
+    """Layers whose plane-net copper covers enough of the board to carry return current."""
+    area = board.outline.area or 1.0
+    out = {}
+    for layer in board.copper:
+        ln = nets.layers[layer.name]
+        cover = sum(p.area for p, n in zip(ln.islands, ln.island_net) if n in nets.plane_nets)
+        out[layer.name] = cover / area >= settings.plane_min_fraction
+    return out
+
+
+def _er_around(stackup, layer_name, n_layers):
+    i = int(layer_name[1:])
+    ers = [d.er for d in stackup.dielectrics if int(d.between[0][1:]) in (i - 1, i)]
+    return sum(ers) / len(ers) if ers else 4.3
+
+
+def references(board, nets, settings):
+    """For each copper layer: the plane(s) its tracks return in."""
+    planes = plane_layers(board, nets, settings)
+    names = [l.name for l in board.copper]
+    st = board.stackup
+    out = {}
+    for i, name in enumerate(names):
+        above = next((names[j] for j in range(i - 1, -1, -1) if planes[names[j]]), None)
+        below = next((names[j] for j in range(i + 1, len(names)) if planes[names[j]]), None)
+        found = [r for r in (above, below) if r is not None]
+        refs = []
+        for r in found:
+            h = st.height_mm(name, r)
+            other = [o for o in found if o != r]
+            oh = st.height_mm(name, other[0]) if other else None
+            share = physics.stripline_plane_share(h, oh) if oh is not None else 1.0
+            outer = r in (names[0], names[-1])
+            er_plane = _er_around(st, r, len(names))
+            refs.append(Reference(r, h, oh, share, st.er_between(name, r), outer,
+                                  (er_plane + 1) / 2 if outer else er_plane,
+                                  (er_plane + 1) / 2 if outer else er_plane))
+        out[name] = refs
+    return out, planes
+
+
+def footprint_halfwidth(width_mm, ref, fraction):
+    if ref.other_h_mm is None:
+        return width_mm / 2 + physics.microstrip_k_for_fraction(fraction) * ref.h_mm
+    return width_mm / 2 + physics.stripline_halfwidth_for_fraction(fraction, ref.h_mm, ref.other_h_mm)
+
+
+def wanted(net, settings):
+    return not settings.nets or any(fnmatch.fnmatchcase(net, g) for g in settings.nets)
+
+
+def chains(board, nets, refs, settings):
+    """Signal-track centre lines merged per (layer, net, width), with a footprint per reference."""
+    out = []
+    for layer in board.copper:
+        if not refs.get(layer.name):
+            continue
+        ln = nets.layers[layer.name]
+        groups = defaultdict(list)
+        for seg, net, fn in zip(layer.segments, ln.segment_net, layer.segment_function):
+            if not nets.is_signal(net) or fn in NON_TRACK_FUNCTIONS or seg[4] <= 0 or not wanted(net, settings):
+                continue
+            if seg[0] == seg[2] and seg[1] == seg[3]:
+                continue
+            groups[(net, round(float(seg[4]), 4))].append(((seg[0], seg[1]), (seg[2], seg[3])))
+        for (net, w), segs in sorted(groups.items()):
+            merged = shapely.line_merge(shapely.set_precision(shapely.MultiLineString(segs), 1e-5))
+            for line in shapely.get_parts(merged):
+                if line.length <= 0:
+                    continue
+                ch = Chain(net, layer.name, w, line)
+                for ref in refs[layer.name]:
+                    hw = footprint_halfwidth(w, ref, settings.current_fraction)
+                    fp = shapely.buffer(line, hw, cap_style="flat", join_style="round")
+                    ch.footprints[ref.layer] = (fp.intersection(board.outline), hw)
+                out.append(ch)
+    return out

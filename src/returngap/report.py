@@ -1,0 +1,156 @@
+"""Reports: the layers summary and the findings report (JSON, text table).
+
+Floats are rounded to fixed decimals so that the same input gives byte-identical output.
+"""
+
+import json
+import math
+from importlib import resources
+
+from . import __version__
+
+DISCLAIMER = ("Estimates for engineering review, from closed-form models; they do not replace field "
+              "solving, the board's own EMC test results or the applicable standards.")
+SEVERITY_ORDER = {"error": 0, "warning": 1, "info": 2}
+DECIMALS = 4
+
+
+def clean(value):
+    """Round floats (recursively) so reports are deterministic; non-finite values become null."""
+    if isinstance(value, float):
+        if not math.isfinite(value):
+            return None
+        v = round(value, DECIMALS)
+        return 0.0 if v == 0 else v
+    if isinstance(value, dict):
+        return {k: clean(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [clean(v) for v in value]
+    return value
+
+
+def board_summary(board, nets=None):
+    st = board.stackup
+    heights = []
+    names = [c.name for c in board.copper]
+    for i, name in enumerate(names):
+        h = {"layer": name}
+        if i > 0:
+            h["above_mm"] = st.height_mm(names[i - 1], name)
+        if i < len(names) - 1:
+            h["below_mm"] = st.height_mm(name, names[i + 1])
+        heights.append(h)
+    layers = []
+    for c in board.copper:
+        entry = {"name": c.name, "file": c.file, "side": c.side, "polarity": c.polarity,
+                 "type_hint": c.type_hint, "identified_by": c.identified_by,
+                 "copper_area_mm2": c.copper_area_mm2, "copper_thickness_mm": st.copper_thickness_mm.get(c.name)}
+        if nets is not None:
+            entry["net_count"] = len(set(nets.layers[c.name].island_net))
+        else:
+            entry["net_count"] = len(c.object_nets())
+        layers.append(entry)
+    return clean({
+        "name": board.name,
+        "source": board.source,
+        "outline_area_mm2": board.outline.area,
+        "board_thickness_mm": st.board_thickness_mm,
+        "stackup_source": st.source,
+        "copper_layers": layers,
+        "drills": [{"file": d.file, "plated": d.plated, "from_layer": f"L{d.from_layer}", "to_layer": f"L{d.to_layer}",
+                    "hole_count": d.hole_count, "number_format": d.number_format, "identified_by": d.identified_by}
+                   for d in board.drills],
+        "dielectrics": [{"between": list(d.between), "thickness_mm": d.thickness_mm, "er": d.er, "source": d.source}
+                        for d in st.dielectrics],
+        "layer_heights": heights,
+        "other_files": board.other_files,
+        "ignored": board.ignored,
+    })
+
+
+def layers_report(board, nets=None):
+    out = board_summary(board, nets)
+    out = {"format": "returngap-layers", "version": 1, **out, "assumptions": list(board.assumptions)}
+    return out
+
+
+def sort_findings(findings):
+    return sorted(findings, key=lambda f: (SEVERITY_ORDER[f["severity"]], -(f.get("added_inductance_nH") or 0),
+                                           f["kind"], f["net"], f["layer"], f["x_mm"], f["y_mm"], f["id"]))
+
+
+def findings_report(result):
+    board = result.board
+    findings = sort_findings([clean(f) for f in result.findings])
+    counts = {s: sum(1 for f in findings if f["severity"] == s) for s in ("error", "warning", "info")}
+    refs = {layer: [clean({"layer": r.layer, "h_mm": r.h_mm, "other_h_mm": r.other_h_mm, "share": r.share,
+                           "line_type": r.kind}) for r in rs] for layer, rs in result.refs.items()}
+    return {
+        "format": "returngap-findings",
+        "version": 1,
+        "tool_version": __version__,
+        "disclaimer": DISCLAIMER,
+        "board": board_summary(board, result.nets),
+        "settings": clean(result.settings.as_dict()),
+        "references": refs,
+        "assumptions": list(board.assumptions),
+        "summary": {"findings": len(findings), **counts, "tracks_checked": len(result.chains)},
+        "findings": findings,
+    }
+
+
+def to_json(data):
+    return json.dumps(data, indent=1, sort_keys=False, ensure_ascii=False) + "\n"
+
+
+def schema():
+    return json.loads(resources.files("returngap").joinpath("schemas/findings.schema.json").read_text())
+
+
+def _fmt(v, spec):
+    return "-" if v is None else format(v, spec)
+
+
+def findings_table(report, limit=None):
+    rows = report["findings"][:limit] if limit else report["findings"]
+    head = f"{'#':>3} {'severity':8} {'kind':12} {'gap':6} {'net':18} {'layer':5} {'ref':5} " \
+           f"{'x mm':>8} {'y mm':>8} {'detour mm':>9} {'cut %':>5} {'added nH':>8} {'res GHz':>7}"
+    lines = [head, "-" * len(head)]
+    for i, f in enumerate(rows, 1):
+        lines.append(f"{i:>3} {f['severity']:8} {f['kind'][:12]:12} {(f.get('gap_type') or '-')[:6]:6} "
+                     f"{f['net'][:18]:18} {f['layer']:5} {f.get('reference_layer') or '-':5} "
+                     f"{f['x_mm']:8.2f} {f['y_mm']:8.2f} {_fmt(f.get('detour_mm'), '9.2f'):>9} "
+                     f"{_fmt(100 * f['interrupted_fraction'] if f.get('interrupted_fraction') is not None else None, '5.0f'):>5} "
+                     f"{_fmt(f.get('added_inductance_nH'), '8.2f'):>8} {_fmt(f.get('resonance_GHz'), '7.2f'):>7}")
+    if limit and len(report["findings"]) > limit:
+        lines.append(f"... {len(report['findings']) - limit} more in the JSON report")
+    return "\n".join(lines)
+
+
+def summary_line(report):
+    s = report["summary"]
+    return (f"returngap: {report['board']['name']}: {s['findings']} finding(s) "
+            f"({s['error']} error, {s['warning']} warning, {s['info']} info) on {s['tracks_checked']} track(s); "
+            f"estimates only, see disclaimer")
+
+
+def layers_text(rep):
+    out = [f"board {rep['name']} ({rep['source']}), outline {rep['outline_area_mm2']:.1f} mm2, "
+           f"{rep['board_thickness_mm']:.3f} mm thick, stackup from {rep['stackup_source']}", "", "copper layers (top to bottom):"]
+    for c in rep["copper_layers"]:
+        out.append(f"  {c['name']:4} {c['side']:6} {c['polarity']:8} {c['copper_area_mm2']:10.1f} mm2  "
+                   f"{c['net_count']:4} nets  {c['file']}  [{c['identified_by']}]")
+    out.append("dielectrics:")
+    for d in rep["dielectrics"]:
+        out.append(f"  {d['between'][0]}-{d['between'][1]}: {d['thickness_mm']:.4f} mm, er {d['er']:.2f} [{d['source']}]")
+    out.append("drills:")
+    for d in rep["drills"]:
+        out.append(f"  {d['file']}: {'plated' if d['plated'] else 'non-plated'} {d['from_layer']}-{d['to_layer']}, "
+                   f"{d['hole_count']} holes")
+    if rep["ignored"]:
+        out.append("ignored files:")
+        out += [f"  {i['file']}: {i['reason']}" for i in rep["ignored"]]
+    if rep["assumptions"]:
+        out.append("assumptions:")
+        out += [f"  - {a}" for a in rep["assumptions"]]
+    return "\n".join(out)
