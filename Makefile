@@ -15,7 +15,6 @@ $(BIN)/returngap: pyproject.toml
 venv: $(BIN)/returngap
 
 demo: venv
-	$(BIN)/python examples/make_demo_board.py --check examples/demo-board
 	$(BIN)/returngap check examples/demo-board --stackup examples/demo-board/stackup.toml \
 		--json out/demo/findings.json --out out/demo --fail-on never
 

@@ -67,11 +67,59 @@ def reflex_vertices(poly):
     return np.vstack(out) if out else np.zeros((0, 2))
 
 
-def geodesic(island, a, b, focus, max_nodes=400):
+def _shortest(nodes, test):
+    """Dijkstra over the visibility graph of nodes (0 = start, 1 = end) inside `test`."""
+    n = len(nodes)
+    ii, jj = np.triu_indices(n, 1)
+    lines = shapely.linestrings(np.stack([nodes[ii], nodes[jj]], axis=1))
+    ok = shapely.covers(test, lines)
+    d = np.hypot(nodes[ii, 0] - nodes[jj, 0], nodes[ii, 1] - nodes[jj, 1])
+    g = nx.Graph()
+    g.add_weighted_edges_from(zip(ii[ok].tolist(), jj[ok].tolist(), d[ok].tolist()))
+    if 0 not in g or 1 not in g:
+        return None
+    try:
+        length, path = nx.single_source_dijkstra(g, 0, 1)
+    except nx.NetworkXNoPath:
+        return None
+    return float(length), [tuple(map(float, nodes[k])) for k in path]
+
+
+def _convex_corners(geom, clearance=0.03, tol=0.02, limit=160):
+    """Outward corners of an obstacle, set `clearance` off it so they lie in free copper."""
+    g = geom.buffer(clearance, quad_segs=4).simplify(tol, preserve_topology=True)
+    out = []
+    for poly in shapely.get_parts(g):
+        if poly.geom_type != "Polygon":
+            continue
+        c = np.asarray(shapely.orient_polygons(poly).exterior.coords)[:-1]
+        if len(c) < 3:
+            continue
+        prev, nxt = np.roll(c, 1, axis=0), np.roll(c, -1, axis=0)
+        cross = (c[:, 0] - prev[:, 0]) * (nxt[:, 1] - c[:, 1]) - (c[:, 1] - prev[:, 1]) * (nxt[:, 0] - c[:, 0])
+        out.append(c[cross > 0])
+    c = np.vstack(out) if out else np.zeros((0, 2))
+    if len(c) > limit:
+        c = c[np.linspace(0, len(c) - 1, limit).astype(int)]
+    return c
+
+
+def _near(geom, points, clearance=0.03, radius=1.0):
+    """Dense ring points of the offset obstacle near the path's ends (chords there hug the gap edge)."""
+    ring = shapely.get_coordinates(geom.buffer(clearance, quad_segs=16).boundary)
+    if not len(ring):
+        return np.zeros((0, 2))
+    d = np.min(np.hypot(ring[:, None, 0] - points[None, :, 0], ring[:, None, 1] - points[None, :, 1]), axis=1)
+    sel = ring[d < radius]
+    return sel[:: max(1, len(sel) // 80)]
+
+
+def geodesic(island, a, b, focus, max_nodes=200):
     """Shortest path from a to b inside island (a Polygon), searched near `focus`; (length, coords) or None.
 
-    Visibility graph over the reflex corners of the free space, clipped to a window around
-    the gap so that the search stays local."""
+    Visibility graph, first over the corners of the gap's convex hull (pushed a hair into
+    the copper), then, if that finds no way, over every reflex corner of the copper in a
+    window around the gap, so that the search stays local."""
     ax, ay = a
     bx, by = b
     fx0, fy0, fx1, fy1 = focus.bounds
@@ -86,40 +134,26 @@ def geodesic(island, a, b, focus, max_nodes=400):
         if not parts:
             return None
         free = parts[0]
-    test = free.buffer(1e-6)
+    test = free.buffer(0.005)  # tolerate chords grazing the gap edge by 5 um
     shapely.prepare(test)
     if not test.covers(pb):
         return None
     direct = shapely.LineString([a, b])
-    if test.covers(direct):
+    if free.buffer(1e-6).covers(direct):
         return direct.length, [a, b]
-    tol = 0.01
-    simple = free
-    while True:
-        corners = reflex_vertices(simple)
-        if len(corners) <= max_nodes or tol > 1.0:
-            break
-        tol *= 2
-        simple = free.simplify(tol, preserve_topology=True)
-        if simple.geom_type != "Polygon":
-            simple = free
-            break
-    corners = corners[:max_nodes]
-    nodes = np.vstack([[a, b], corners])
-    n = len(nodes)
-    ii, jj = np.triu_indices(n, 1)
-    lines = shapely.linestrings(np.stack([nodes[ii], nodes[jj]], axis=1))
-    ok = shapely.covers(test, lines)
-    g = nx.Graph()
-    d = np.hypot(nodes[ii, 0] - nodes[jj, 0], nodes[ii, 1] - nodes[jj, 1])
-    g.add_weighted_edges_from(zip(ii[ok].tolist(), jj[ok].tolist(), d[ok].tolist()))
-    if 0 not in g or 1 not in g:
-        return None
-    try:
-        length, path = nx.single_source_dijkstra(g, 0, 1)
-    except nx.NetworkXNoPath:
-        return None
-    return float(length), [tuple(map(float, nodes[k])) for k in path]
+    ends = np.array([a, b], dtype=float)
+    local = focus.intersection(window)
+    own = np.vstack([_convex_corners(local), _near(local, ends)])
+    found = _shortest(np.vstack([ends, own]), test)
+    if found is not None:
+        return found
+    inner = free.buffer(-0.03, quad_segs=4)
+    corners = reflex_vertices(inner.simplify(0.02, preserve_topology=True)) if inner.geom_type == "Polygon" else \
+        np.vstack([reflex_vertices(p) for p in shapely.get_parts(inner) if p.geom_type == "Polygon"] or [np.zeros((0, 2))])
+    if len(corners) > max_nodes:
+        keep = np.argsort(np.hypot(corners[:, 0] - (ax + bx) / 2, corners[:, 1] - (ay + by) / 2))[:max_nodes]
+        corners = corners[keep]
+    return _shortest(np.vstack([ends, own, corners]), test)
 
 
 def interval_fraction(x1, x2, width, ref):

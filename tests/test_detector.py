@@ -1,0 +1,98 @@
+"""Gap crossings on analytic boards: answers from geometry and the closed forms of the physics."""
+
+import math
+
+import pytest
+
+from boards import H, slot_board, stripline_board
+from returngap import physics
+from returngap.pipeline import run_check
+from returngap.projector import Settings
+
+
+def gaps(folder, **kw):
+    return run_check(folder, settings=Settings(**kw)).findings
+
+
+def test_centred_slot_detour_is_slot_length(tmp_path):
+    D, s = 20.0, 0.5
+    f = gaps(slot_board(tmp_path, D=D, s=s))
+    assert len(f) == 1
+    f = f[0]
+    assert (f["gap_type"], f["net"], f["layer"], f["reference_layer"], f["reference_net"]) == \
+        ("slot", "CLK", "L1", "L2", "GND")
+    # half the slot out along one edge, half back (REFERENCE 2.4): detour ~ D, path ~ D + s
+    assert f["detour_mm"] == pytest.approx(D, rel=0.05)
+    path = f["detour_path_mm"]
+    length = sum(math.dist(a, b) for a, b in zip(path[:-1], path[1:]))
+    assert length == pytest.approx(D + s, rel=0.05)
+    assert (f["x_mm"], f["y_mm"]) == pytest.approx((30.0, 20.0), abs=0.01)
+    assert f["gap_length_mm"] == pytest.approx(D, abs=1e-6) and f["gap_width_mm"] == pytest.approx(s, abs=1e-6)
+    # a closed slot in a buried plane: half-wave at er of its dielectrics (slot-antenna theory)
+    assert f["resonance_GHz"] == pytest.approx(physics.slot_resonance_GHz(D, 4.3), rel=1e-6)
+    # the whole footprint crosses: the share it holds, 90 % (REFERENCE 1.1, finite width adds a little)
+    assert 0.89 < f["interrupted_fraction"] <= 0.95
+    lo, hi = f["added_inductance_range_nH"]
+    assert lo <= f["added_inductance_nH"] <= hi
+    assert hi == pytest.approx(physics.hsdd_slot_inductance_nH(f["detour_mm"], 0.2), rel=1e-3)
+
+
+@pytest.mark.parametrize("offset", [3.0, 5.0, -6.0])
+def test_off_centre_slot_goes_round_the_near_end(tmp_path, offset):
+    D = 20.0
+    f = gaps(slot_board(tmp_path, D=D, offset=offset))
+    assert len(f) == 1
+    # the nearer end is D/2 - |e| away: out and back = D - 2|e|
+    assert f[0]["detour_mm"] == pytest.approx(D - 2 * abs(offset), rel=0.05)
+
+
+def test_solid_plane_reports_nothing(tmp_path):
+    assert gaps(slot_board(tmp_path, solid=True)) == []
+
+
+def test_void_under_no_track_is_not_reported(tmp_path):
+    from returngap.synth import rect
+    f = gaps(slot_board(tmp_path, extra_void=rect(5, 30, 25, 31)))  # 10 mm away from the track
+    assert len(f) == 1 and f[0]["x_mm"] == pytest.approx(30.0)
+
+
+def test_full_split(tmp_path):
+    f = gaps(slot_board(tmp_path, split=True))
+    assert len(f) == 1
+    assert f[0]["gap_type"] == "split" and f[0]["detour_mm"] is None and f[0]["severity"] == "error"
+    assert f[0]["gap_length_mm"] == pytest.approx(40.0, abs=0.01)
+
+
+@pytest.mark.parametrize("d", [0.3, 0.6, 1.0])
+def test_graze_matches_closed_form(tmp_path, d):
+    # footprint +-(w/2 + k h) meets a void from lateral offset d outward;
+    # REFERENCE 1.1: share = (atan(x2/h) - atan(x1/h)) / pi
+    w = 0.02
+    f = gaps(slot_board(tmp_path, graze=d, width=w), min_interrupted_fraction=0.0)
+    assert len(f) == 1 and f[0]["crossing"] == "graze"
+    hw = w / 2 + physics.microstrip_k_for_fraction(0.9) * H
+    expect = (math.atan(hw / H) - math.atan(d / H)) / math.pi
+    assert f[0]["interrupted_fraction"] == pytest.approx(expect, rel=0.02)
+
+
+def test_own_via_antipad_is_left_to_the_layer_change(tmp_path):
+    assert gaps(slot_board(tmp_path, solid=True, own_via=True)) == []
+
+
+def test_stripline_share(tmp_path):
+    r = run_check(stripline_board(tmp_path, h1=0.2, h2=0.6))
+    f = [x for x in r.findings if x["reference_layer"] == "L2"]
+    assert len(f) == 1
+    # nearer plane carries h2/b of the return (REFERENCE 1.3): 0.75; the footprint holds 90 % of that
+    assert f[0]["plane_share"] == pytest.approx(0.75)
+    hw = 0.05 + physics.stripline_halfwidth_for_fraction(0.9, 0.2, 0.6)
+    assert f[0]["interrupted_fraction"] == pytest.approx(physics.stripline_fraction_between(-hw, hw, 0.2, 0.6), rel=0.02)
+    assert 0.75 * 0.9 <= f[0]["interrupted_fraction"] <= 0.75
+    assert f[0]["line_type"] == "stripline"
+    assert not [x for x in r.findings if x["reference_layer"] == "L4"]
+
+
+def test_finding_ids_are_stable(tmp_path):
+    a = gaps(slot_board(tmp_path / "a"))
+    b = gaps(slot_board(tmp_path / "b"))
+    assert [x["id"] for x in a] == [x["id"] for x in b]

@@ -1,0 +1,153 @@
+"""Tiny hand-written Gerber / Excellon cases whose answers follow from geometry."""
+
+import io
+import math
+import zipfile
+
+import pytest
+import shapely
+
+from conftest import gerber
+from returngap import importer
+from returngap.errors import InputError
+
+SQUARE = "G36*\nX0Y0D02*\nX10000000Y0D01*\nX10000000Y10000000D01*\nX0Y10000000D01*\nX0Y0D01*\nG37*"
+
+
+def one_layer(tmp_path, body, name="c.gbr", **kw):
+    (tmp_path / name).write_text(gerber(body, **kw))
+    return importer.load_board(tmp_path).copper[0]
+
+
+def test_clear_circle_in_dark_region(tmp_path):
+    # 10 x 10 dark square minus a clear circle of diameter 4: 100 - 4*pi
+    layer = one_layer(tmp_path, SQUARE + "\n%LPC*%\n%ADD10C,4.000000*%\nD10*\nX5000000Y5000000D03*")
+    assert layer.copper_area_mm2 == pytest.approx(100 - math.pi * 4, abs=2 * math.pi * 2 * 1e-3)  # within perimeter x chord tolerance
+
+
+def test_polarity_in_file_order(tmp_path):
+    # dark square, clear centre 2x2 rectangle, then a dark 1 mm circle inside the clear hole
+    body = SQUARE + "\n%LPC*%\n%ADD10R,2.000000X2.000000*%\nD10*\nX5000000Y5000000D03*\n%LPD*%\n" \
+                    "%ADD11C,1.000000*%\nD11*\nX5000000Y5000000D03*"
+    layer = one_layer(tmp_path, body)
+    assert layer.copper_area_mm2 == pytest.approx(100 - 4 + math.pi / 4, abs=math.pi * 1e-3)
+
+
+def test_arc_chord_tolerance(tmp_path):
+    # a full-circle arc track r = 5 mm, width 0.2: ring area 2*pi*r*w within the 1 um chord tolerance
+    body = "%ADD10C,0.200000*%\nD10*\nG75*\nX5000000Y0D02*\nG03X5000000Y0I-5000000J0D01*"
+    layer = one_layer(tmp_path, body)
+    assert layer.copper_area_mm2 == pytest.approx(2 * math.pi * 5 * 0.2, rel=1e-4)
+    assert len(layer.segments) > 100  # kept as centre-line segments
+
+
+def test_macro_thermal_and_obround(tmp_path):
+    # obround 2 x 1: rectangle 1x1 plus a 1 mm circle
+    layer = one_layer(tmp_path, "%ADD10O,2.000000X1.000000*%\nD10*\nX0Y0D03*")
+    assert layer.copper_area_mm2 == pytest.approx(1 + math.pi / 4, abs=(2 + math.pi) * 1e-3)
+
+
+def test_step_and_repeat_area(tmp_path):
+    body = "%SRX3Y2I5.0J5.0*%\n%ADD10R,1.000000X1.000000*%\nD10*\nX0Y0D03*\n%SR*%"
+    assert one_layer(tmp_path, body).copper_area_mm2 == pytest.approx(6.0, abs=1e-6)
+
+
+def test_negative_polarity_plane(tmp_path):
+    # negative plane file: copper = board profile minus what is drawn (one 2 mm clearance)
+    (tmp_path / "edge.gbr").write_text(gerber("%ADD10C,0.100000*%\nD10*\nX0Y0D02*\nX20000000Y0D01*\n"
+                                              "X20000000Y10000000D01*\nX0Y10000000D01*\nX0Y0D01*",
+                                              attrs="%TF.FileFunction,Profile,NP*%"))
+    (tmp_path / "p.gbr").write_text(gerber("%ADD10C,2.000000*%\nD10*\nX5000000Y5000000D03*",
+                                           attrs="%TF.FileFunction,Copper,L1,Top*%\n%TF.FilePolarity,Negative*%"))
+    b = importer.load_board(tmp_path)
+    assert b.outline.area == pytest.approx(200.0, abs=1e-6)
+    assert b.copper[0].copper_area_mm2 == pytest.approx(200 - math.pi, abs=2 * math.pi * 1e-3)
+
+
+def test_stroke_fill_pour_is_solid(tmp_path):
+    # a pour drawn as overlapping 0.25 mm strokes 0.2 mm apart comes out as one solid rectangle
+    lines = ["%ADD10C,0.250000*%", "D10*"]
+    for k in range(51):
+        y = int(k * 0.2 * 1e6)
+        lines += [f"X0Y{y}D02*", f"X10000000Y{y}D01*"]
+    layer = one_layer(tmp_path, "\n".join(lines))
+    assert len(shapely.get_parts(layer.geometry)) == 1
+    # shapely as the reference: the same strokes buffered at high resolution
+    ref = shapely.union_all([shapely.LineString([(0, k * 0.2), (10, k * 0.2)]).buffer(0.125, quad_segs=64)
+                             for k in range(51)])
+    assert layer.geometry.area == pytest.approx(ref.area, abs=ref.exterior.length * 1e-3)  # 1 um chords
+    assert layer.geometry.area > 10 * 10.25  # solid: no gaps between the strokes
+
+
+def test_net_names_are_unescaped(tmp_path):
+    body = "%TO.N,/HDMI\\u002C LCD/VDD33*%\n%ADD10C,0.2*%\nD10*\nX0Y0D02*\nX1000000Y0D01*"
+    assert one_layer(tmp_path, body).segment_net == ["/HDMI, LCD/VDD33"]
+
+
+def test_zip_input_and_ignored_files(tmp_path):
+    buf = tmp_path / "board.zip"
+    with zipfile.ZipFile(buf, "w") as z:
+        z.writestr("gerbers/top.gbr", gerber(SQUARE))
+        z.writestr("__MACOSX/._top.gbr", "junk")
+        z.writestr(".DS_Store", "junk")
+        z.writestr("bom.csv", "ref,value")
+        z.writestr("notes.pdf", "%PDF-1.4")
+    b = importer.load_board(buf)
+    assert b.copper[0].file == "gerbers/top.gbr"
+    assert {i["file"] for i in b.ignored} == {"__MACOSX/._top.gbr", ".DS_Store", "bom.csv", "notes.pdf"}
+
+
+def test_hostile_zip_is_refused(tmp_path):
+    buf = tmp_path / "evil.zip"
+    with zipfile.ZipFile(buf, "w") as z:
+        z.writestr("../../outside.gbr", gerber(SQUARE))
+    with pytest.raises(InputError, match="unsafe member path"):
+        importer.load_board(buf)
+    assert not (tmp_path.parent / "outside.gbr").exists()
+
+
+def test_malformed_gerber_names_file_and_line(tmp_path):
+    (tmp_path / "bad.gbr").write_text("%TF.FileFunction,Copper,L1,Top*%\n%FSLAX46Y46*%\n%MOMM*%\n%ADD10C,0.2*%\nD10*\nX0Y0D02*\nG37*\nM02*\n")
+    with pytest.raises(InputError) as e:
+        importer.load_board(tmp_path)
+    assert e.value.file == "bad.gbr" and e.value.line == 7
+    assert "\n" not in str(e.value)
+
+
+def test_job_file_disagreement_prefers_the_gerber(tmp_path):
+    (tmp_path / "a.gbr").write_text(gerber(SQUARE, attrs="%TF.FileFunction,Copper,L1,Top*%"))
+    (tmp_path / "b.gbr").write_text(gerber(SQUARE, attrs="%TF.FileFunction,Copper,L2,Bot*%"))
+    (tmp_path / "j.gbrjob").write_text('{"Header": {}, "FilesAttributes": [{"Path": "b.gbr", "FileFunction": '
+                                       '"Copper,L5,Inr"}]}')
+    b = importer.load_board(tmp_path)
+    assert b.copper[1].file == "b.gbr"
+    assert any("job file says 'Copper,L5,Inr'" in a for a in b.assumptions)
+
+
+def _two_layer_with_drill(tmp_path, drill_text):
+    pads = "%ADD10C,1.000000*%\nD10*\nX10000000Y10000000D03*\nX30000000Y20000000D03*"
+    (tmp_path / "t.gbr").write_text(gerber(pads, attrs="%TF.FileFunction,Copper,L1,Top*%"))
+    (tmp_path / "b.gbr").write_text(gerber(pads, attrs="%TF.FileFunction,Copper,L2,Bot*%"))
+    (tmp_path / "holes.drl").write_text(drill_text)
+    return importer.load_board(tmp_path)
+
+
+def test_drill_with_silent_header_is_inferred(tmp_path):
+    # no format in the header: coordinates as 3.5 mm without suppression; inference puts holes on the pads
+    b = _two_layer_with_drill(tmp_path, "M48\nMETRIC\nT1C0.400\n%\nT1\nX01000000Y01000000\nX03000000Y02000000\nM30\n")
+    holes = b.drills[0].holes
+    assert holes[:, :2].ravel().tolist() == pytest.approx([10, 10, 30, 20])
+    assert any("inferred" in a for a in b.assumptions)
+
+
+def test_excellon_slot_g85(tmp_path):
+    # REFERENCE 10 #35: X1Y1G85X3Y1 with a 1 mm tool -> slot (1,1)-(3,1), width 1
+    b = _two_layer_with_drill(tmp_path, "M48\nMETRIC\nT01C1.000\n%\nT01\nX10.000Y10.000\nX1.000Y1.000G85X3.000Y1.000\nM30\n")
+    slot = b.drills[0].slots[0]
+    assert slot.tolist() == pytest.approx([1, 1, 3, 1, 1])
+
+
+def test_inch_drill_converted_to_mm(tmp_path):
+    b = _two_layer_with_drill(tmp_path, "M48\nINCH,TZ\nT1C0.0157\n%\nT1\nX0.3937Y0.3937\nX1.1811Y0.7874\nM30\n")
+    assert b.drills[0].holes[:, :2].ravel().tolist() == pytest.approx([10, 10, 30, 20], abs=1e-3)
+    assert b.drills[0].holes[0, 2] == pytest.approx(0.3988, abs=1e-3)

@@ -1,0 +1,130 @@
+"""Formulas against the worked numbers of published sources and independent references."""
+
+import math
+
+import pytest
+from returngap import physics as ph
+
+
+def rel(a, b):
+    return abs(a - b) / abs(b)
+
+
+def test_microstrip_fraction_within():
+    # filament law J ~ 1/(1+(x/h)^2): Johnson & Graham, High-Speed Digital Design 1993 (REFERENCE 10 #1)
+    assert ph.microstrip_fraction_within(1) == pytest.approx(0.5000, abs=1e-4)
+    assert ph.microstrip_fraction_within(3) == pytest.approx(0.7952, abs=1e-4)
+    assert ph.microstrip_fraction_within(10) == pytest.approx(0.9365, abs=1e-4)
+    assert ph.microstrip_k_for_fraction(0.9) == pytest.approx(6.3138, abs=1e-3)
+
+
+def test_stripline_fraction_and_share():
+    # centred stripline, two-plate line charge (REFERENCE 10 #2, #3)
+    assert ph.stripline_centred_fraction_within(1) == pytest.approx(0.7390, abs=1e-4)
+    assert ph.stripline_centred_fraction_within(2) == pytest.approx(0.9450, abs=1e-4)
+    assert ph.stripline_plane_share(0.1, 0.9) == pytest.approx(0.900, abs=1e-6)
+
+
+def test_stripline_density_integral_consistent():
+    # integral over all x equals the plane's share; both planes together give the centred fraction
+    assert ph.stripline_fraction_between(-1e3, 1e3, 0.1, 0.9) == pytest.approx(0.9, abs=1e-9)
+    both = 2 * ph.stripline_fraction_between(-0.5, 0.5, 0.5, 0.5)
+    assert both == pytest.approx(ph.stripline_centred_fraction_within(1.0), abs=1e-9)
+    x = ph.stripline_halfwidth_for_fraction(0.9, 0.2, 0.6)
+    assert ph.stripline_fraction_between(-x, x, 0.2, 0.6) == pytest.approx(0.9 * 0.75, rel=1e-9)
+
+
+def test_finite_width_density():
+    # Holloway & Kuester uniform-strip form: total is I; reduces to the filament law for w << h
+    assert ph.microstrip_fraction_between(-1e5, 1e5, 0.4, 0.2) == pytest.approx(1.0, abs=1e-4)
+    assert ph.microstrip_fraction_between(-0.6, 0.6, 1e-4, 0.2) == pytest.approx(ph.microstrip_fraction_within(3),
+                                                                                abs=1e-6)
+    # check value J(0)*h/I = 0.25 for w = 2h (REFERENCE 1.2): slope of the cumulative share at 0
+    d = 1e-6
+    assert ph.microstrip_fraction_between(-d, d, 0.4, 0.2) / (2 * d) * 0.2 == pytest.approx(0.25, rel=1e-4)
+
+
+@pytest.mark.parametrize("w,h,er,t,z0,ee", [
+    (3.913, 1.27, 2.2, 0, 50.02, 1.881),      # REFERENCE 10 #9, Pozar geometry
+    (0.2, 0.2, 4.3, 0, 71.751, 3.1045),       # #11
+    (3.0, 1.6, 4.5, 0, 50.108, 3.3933),       # #12
+    (3.0, 1.6, 4.5, 0.035, 49.664, 3.3679),   # #12, with thickness
+    (1.0, 1.0, 9.8, 0, 49.289, 6.579),        # #13 alumina
+    (1.0, 1.0, 1.0, 0, 126.424, 1.0),         # #14 air
+])
+def test_hammerstad_jensen(w, h, er, t, z0, ee):
+    # Hammerstad & Jensen 1980
+    z, e = ph.microstrip_z0_eeff(w, h, er, t)
+    assert rel(z, z0) < 5e-4
+    assert rel(e, ee) < 5e-4
+
+
+def test_microstrip_against_scikit_rf():
+    # scikit-rf MLine (Hammerstad-Jensen model, quasi-static) as an independent implementation
+    skrf = pytest.importorskip("skrf")
+    from skrf.media import MLine
+    freq = skrf.Frequency(1, 1, 1, unit="MHz")
+    for w, h, t, er in [(0.3, 0.2, 35e-3, 4.5), (3.0, 1.6, 35e-3, 4.5), (0.12, 0.1, 18e-3, 3.8)]:
+        m = MLine(frequency=freq, w=w * 1e-3, h=h * 1e-3, t=t * 1e-3, ep_r=er, tand=0, model="hammerstadjensen",
+                  disp="none", diel="frequencyinvariant", compatibility_mode="qucs")
+        z, e = ph.microstrip_z0_eeff(w, h, er, t)
+        assert rel(z, float(abs(m.zl_eff))) < 1e-3
+        assert rel(e, float(abs(m.ep_reff))) < 1e-3
+
+
+def test_line_inductance_both_ways():
+    # L' = Z0*sqrt(eeff)/c equals Z0(er=1)/c (REFERENCE 10 #20): 0.4217 nH/mm
+    z, e = ph.microstrip_z0_eeff(0.2, 0.2, 4.3)
+    za, _ = ph.microstrip_z0_eeff(0.2, 0.2, 1.0)
+    assert ph.line_inductance_nH_per_mm(z, e) == pytest.approx(0.4217, abs=1e-4)
+    assert ph.line_inductance_nH_per_mm(za, 1.0) == pytest.approx(ph.line_inductance_nH_per_mm(z, e), rel=1e-6)
+
+
+def test_stripline_cohn():
+    # Cohn 1954 exact form; REFERENCE 10 #19 (w/b = 0.35, er 4.3 -> 58.12 ohm), #10 (Pozar 3.5)
+    assert ph.stripline_z0(0.35, 1.0, 4.3) == pytest.approx(58.12, abs=0.01)
+    assert ph.stripline_z0(2.656, 3.2, 2.2) == pytest.approx(50.0, abs=0.3)
+
+
+def test_ellipk_against_scipy():
+    special = pytest.importorskip("scipy.special")
+    for k in (0.01, 0.3, 0.7, 0.99):
+        assert ph.ellipk(k) == pytest.approx(float(special.ellipk(k * k)), rel=1e-12)
+
+
+def test_hsdd_slot():
+    # Johnson & Graham sec. 5.3 (from memory), REFERENCE 10 #4, #5
+    assert ph.hsdd_slot_inductance_nH(25.4, 0.254) == pytest.approx(23.03, abs=0.01)
+    assert ph.hsdd_slot_inductance_nH(50.8, 0.2032) == pytest.approx(55.21, abs=0.01)
+    assert ph.hsdd_slot_inductance_nH(0.1, 0.2) == 0.0
+
+
+def test_stub_model_and_babinet():
+    # stub model low-frequency limit (Zs/v) * L/4 for a centred crossing (REFERENCE 10 #6):
+    # with Zs = 100 ohm, eps 4.7, 24 mm: 4.339 nH; here L' = Zs*sqrt(eps)/c
+    lp = 100 * math.sqrt(4.7) / ph.C_MM_PER_NS
+    assert lp * 24 / 4 == pytest.approx(4.339, rel=1e-3)
+    # CPS stub, w_e = D/2 (REFERENCE 2.3 table): 24 mm x 1 mm -> 2.57 nH; Babinet 4.13 nH (#7: 4.125)
+    assert ph.slot_stub_inductance_nH(12, 12, 1.0) == pytest.approx(2.57, abs=0.01)
+    assert ph.babinet_slot_inductance_nH(24, 1.0) == pytest.approx(4.125, rel=1e-3)
+    assert ph.slot_stub_inductance_nH(25.4, 25.4, 5.0) == pytest.approx(6.60, abs=0.01)
+    # Babinet and CPS within a factor 2 of each other (REFERENCE 10, consistency)
+    for d, s in [(24, 1), (25.4, 0.254), (50.8, 1)]:
+        a, b = ph.babinet_slot_inductance_nH(d, s), ph.slot_stub_inductance_nH(d / 2, d / 2, s)
+        assert 0.5 < a / b < 2.0
+
+
+def test_slot_resonance():
+    # half-wave c/(2 L sqrt(eps)) (REFERENCE 10 #26, #27)
+    assert ph.slot_resonance_GHz(24, 4.7) == pytest.approx(2.881, rel=1e-3)
+    assert ph.slot_resonance_GHz(24, 2.85) == pytest.approx(3.700, rel=1e-3)
+    assert ph.slot_resonance_GHz(24, 1.0) == pytest.approx(6.246, rel=1e-3)
+    assert ph.slot_resonance_GHz(24, 4.7, open_at_one_end=True) == pytest.approx(1.440, rel=1e-3)
+
+
+def test_knee_reflection_wavelength():
+    # knee 0.5/Tr (HSDD sec. 1.1), series-L reflection (REFERENCE 10 #29, #32), lambda/10 (#30, 6.2)
+    assert ph.knee_frequency_GHz(1.0) == pytest.approx(0.5)
+    assert ph.series_inductance_reflection(4.34, 50, 1.0) == pytest.approx(0.0434, rel=1e-3)
+    assert ph.wavelength_mm(1.0, 4.4) / 20 == pytest.approx(7.15, rel=1e-3)
+    assert ph.wavelength_mm(1.0, 4.4) / 10 == pytest.approx(14.29, rel=1e-3)
