@@ -57,8 +57,10 @@ def _island_index(layer_islands, tree, xy):
         return np.zeros(0, dtype=int)
     pts = shapely.points(xy)
     out = np.full(len(xy), -1, dtype=int)
-    hit = tree.query(pts, predicate="intersects")
-    out[hit[0]] = hit[1]
+    cand = tree.query(pts)  # bounding boxes, then exact tests on the prepared islands
+    if cand.shape[1]:
+        ok = shapely.intersects(layer_islands[cand[1]], pts[cand[0]])
+        out[cand[0][ok]] = cand[1][ok]
     miss = np.nonzero(out < 0)[0]
     if len(miss):
         near = tree.query_nearest(pts[miss], all_matches=False)
@@ -91,6 +93,7 @@ def build_nets(board, user_cfg=None):
     for li, layer in enumerate(board.copper):
         islands = np.array([p for p in shapely.get_parts(layer.geometry) if p.geom_type == "Polygon" and p.area > 0],
                            dtype=object)
+        shapely.prepare(islands)  # point-in-island tests below and in later stages
         tree = shapely.STRtree(islands)
         seg_isl = np.zeros(0, dtype=int)
         fl_isl = np.zeros(0, dtype=int)

@@ -10,10 +10,10 @@ the layer-change and plane-edge checks.
 """
 
 import hashlib
+import heapq
 import math
 from dataclasses import dataclass
 
-import networkx as nx
 import numpy as np
 import shapely
 
@@ -37,6 +37,7 @@ class ReferenceCopper:
     def __init__(self, layer_nets, plane_nets, outline):
         parts = [(p, n) for p, n in zip(layer_nets.islands, layer_nets.island_net) if n in plane_nets]
         self.islands = np.array([p for p, _ in parts], dtype=object)
+        shapely.prepare(self.islands)
         self.island_net = [n for _, n in parts]
         self.tree = shapely.STRtree(self.islands)
         copper = shapely.union_all(self.islands) if len(self.islands) else shapely.Polygon()
@@ -49,8 +50,10 @@ class ReferenceCopper:
         self.edge = edge
 
     def island_at(self, point):
-        hit = self.tree.query(point, predicate="intersects")
-        return int(hit[0]) if len(hit) else None
+        for i in self.tree.query(point):
+            if shapely.intersects(self.islands[i], point):
+                return int(i)
+        return None
 
 
 def reflex_vertices(poly):
@@ -68,24 +71,45 @@ def reflex_vertices(poly):
 
 
 def _shortest(nodes, test):
-    """Dijkstra over the visibility graph of nodes (0 = start, 1 = end) inside `test`."""
+    """A* from node 0 to node 1 over the visibility graph of `nodes` inside `test`.
+
+    Visibility is tested lazily, one vectorised batch per expanded node, so the cost is
+    (expanded nodes) x (nodes) rather than all pairs."""
     n = len(nodes)
-    ii, jj = np.triu_indices(n, 1)
-    lines = shapely.linestrings(np.stack([nodes[ii], nodes[jj]], axis=1))
-    ok = shapely.covers(test, lines)
-    d = np.hypot(nodes[ii, 0] - nodes[jj, 0], nodes[ii, 1] - nodes[jj, 1])
-    g = nx.Graph()
-    g.add_weighted_edges_from(zip(ii[ok].tolist(), jj[ok].tolist(), d[ok].tolist()))
-    if 0 not in g or 1 not in g:
-        return None
-    try:
-        length, path = nx.single_source_dijkstra(g, 0, 1)
-    except nx.NetworkXNoPath:
-        return None
-    return float(length), [tuple(map(float, nodes[k])) for k in path]
+    h = np.hypot(nodes[:, 0] - nodes[1, 0], nodes[:, 1] - nodes[1, 1])
+    best = np.full(n, np.inf)
+    best[0] = 0.0
+    parent = np.full(n, -1)
+    closed = np.zeros(n, dtype=bool)
+    heap = [(h[0], 0)]
+    while heap:
+        _, u = heapq.heappop(heap)
+        if closed[u]:
+            continue
+        if u == 1:
+            path = [1]
+            while path[-1] != 0:
+                path.append(int(parent[path[-1]]))
+            return float(best[1]), [tuple(map(float, nodes[k])) for k in reversed(path)]
+        closed[u] = True
+        cand = np.nonzero(~closed)[0]
+        d = np.hypot(nodes[cand, 0] - nodes[u, 0], nodes[cand, 1] - nodes[u, 1])
+        better = best[u] + d < best[cand]
+        cand, d = cand[better], d[better]
+        if not len(cand):
+            continue
+        segs = shapely.linestrings(np.stack([np.repeat(nodes[u][None, :], len(cand), axis=0), nodes[cand]], axis=1))
+        ok = shapely.covers(test, segs)
+        for v, dv in zip(cand[ok], d[ok]):
+            nd = best[u] + dv
+            if nd < best[v]:
+                best[v] = nd
+                parent[v] = u
+                heapq.heappush(heap, (nd + h[v], int(v)))
+    return None
 
 
-def _convex_corners(geom, clearance=0.03, tol=0.02, limit=160):
+def _convex_corners(geom, clearance=0.03, tol=0.02, limit=64):
     """Outward corners of an obstacle, set `clearance` off it so they lie in free copper."""
     g = geom.buffer(clearance, quad_segs=4).simplify(tol, preserve_topology=True)
     out = []
@@ -111,7 +135,7 @@ def _near(geom, points, clearance=0.03, radius=1.0):
         return np.zeros((0, 2))
     d = np.min(np.hypot(ring[:, None, 0] - points[None, :, 0], ring[:, None, 1] - points[None, :, 1]), axis=1)
     sel = ring[d < radius]
-    return sel[:: max(1, len(sel) // 80)]
+    return sel[:: max(1, len(sel) // 24)]
 
 
 def geodesic(island, a, b, focus, max_nodes=200):
@@ -134,7 +158,8 @@ def geodesic(island, a, b, focus, max_nodes=200):
         if not parts:
             return None
         free = parts[0]
-    test = free.buffer(0.005)  # tolerate chords grazing the gap edge by 5 um
+    # fewer vertices make the many visibility tests cheap; the net effect lets chords graze edges by ~5 um
+    test = free.simplify(0.004, preserve_topology=True).buffer(0.005, quad_segs=2)
     shapely.prepare(test)
     if not test.covers(pb):
         return None
@@ -263,31 +288,28 @@ def detect_gap_crossings(board, nets, refs, chains, settings):
             ln = nets.layers[ref_layer]
             if fp.is_empty:
                 continue
-            # the reference net: the plane net with most copper under the footprint
-            cand = ln.tree.query(fp, predicate="intersects")
-            overlap = {}
-            for i in cand:
-                net = ln.island_net[i]
-                if net in nets.plane_nets:
-                    overlap[net] = overlap.get(net, 0.0) + ln.islands[i].intersection(fp).area
-            if not overlap:
+            # the reference net: the plane net under most of the centre line
+            ref_net = _majority_net(ln, nets.plane_nets, ch.line)
+            if ref_net is None:
                 continue
-            ref_net = max(overlap.items(), key=lambda kv: (kv[1], kv[0]))[0]
             rc = copper_cache.get(ref_layer)
             if rc is None:
                 rc = copper_cache[ref_layer] = ReferenceCopper(ln, nets.plane_nets, board.outline)
             if not rc.voids:
                 continue
             line = ch.line
+            box = fp.bounds
             for vi in rc.void_tree.query(fp, predicate="intersects"):
                 void = rc.voids[int(vi)]
-                gap = fp.intersection(void.geom)
+                # clip first: the void outside all plane copper can be as large as the board
+                local = shapely.clip_by_rect(void.geom, box[0] - 0.1, box[1] - 0.1, box[2] + 0.1, box[3] + 0.1)
+                gap = fp.intersection(local)
                 if gap.area < 1e-4:
                     continue
                 if void.enclosed and ch.net in own_hole_pts and \
                         shapely.intersects(void.geom, own_hole_pts[ch.net]).any():
                     continue  # the antipad of the track's own via belongs to its layer change
-                crossing = line.intersection(void.geom)
+                crossing = line.intersection(local)
                 pieces = []
                 for part in shapely.get_parts(crossing):
                     if part.geom_type != "LineString" or part.length <= 0:
@@ -309,7 +331,7 @@ def detect_gap_crossings(board, nets, refs, chains, settings):
                 if not pieces and void.enclosed:
                     events.append(("graze", None, None))
                 for ev, s0, s1 in events:
-                    f = _finding(board, ch, ref, rc, void, gap, line, hw, ev, s0, s1, reach, settings, ref_net)
+                    f = _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, settings, ref_net)
                     if f is None:
                         continue
                     key = (f["net"], f["layer"], f["reference_layer"], void.index, round(f["x_mm"], 1), round(f["y_mm"], 1))
@@ -320,37 +342,67 @@ def detect_gap_crossings(board, nets, refs, chains, settings):
     return findings
 
 
-def _finding(board, ch, ref, rc, void, gap, line, hw, ev, s0, s1, reach, settings, ref_net):
+def _local_geodesic(island, pa, pb, void_geom, hw):
+    """Geodesic around the gap, searched in a growing window so that large voids stay cheap."""
+    vx0, vy0, vx1, vy1 = void_geom.bounds
+    r = max(5.0, 4 * hw)
+    cx, cy = (pa.x + pb.x) / 2, (pa.y + pb.y) / 2
+    while True:
+        box = (cx - r, cy - r, cx + r, cy + r)
+        whole = box[0] <= vx0 and box[1] <= vy0 and box[2] >= vx1 and box[3] >= vy1
+        focus = void_geom if whole else shapely.clip_by_rect(void_geom, *box)
+        g = geodesic(island, (pa.x, pa.y), (pb.x, pb.y), focus)
+        if g is not None or whole:
+            return g
+        r *= 3
+
+
+def _majority_net(ln, plane_nets, line, samples=17):
+    """Plane net under most sample points of a centre line (None when no plane copper is under it)."""
+    pts = shapely.line_interpolate_point(line, np.linspace(0, 1, samples), normalized=True)
+    cand = ln.tree.query(pts)
+    if not cand.shape[1]:
+        return None
+    ok = shapely.intersects(ln.islands[cand[1]], pts[cand[0]])
+    tally = {}
+    for i in cand[1][ok]:
+        net = ln.island_net[i]
+        if net in plane_nets:
+            tally[net] = tally.get(net, 0) + 1
+    return max(tally.items(), key=lambda kv: (kv[1], kv[0]))[0] if tally else None
+
+
+def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, settings, ref_net):
     w = ch.width_mm
     if ev == "cross":
         mid_s = (s0 + s1) / 2
         pa = line.interpolate(max(0.0, s0 - STEP_OFF_MM))
         pb = line.interpolate(min(line.length, s1 + STEP_OFF_MM))
         ia, ib = rc.island_at(pa), rc.island_at(pb)
-        share, _ = interrupted_share(line, s0 - hw, s1 + hw, hw, w, ref, void.geom)
+        share, _ = interrupted_share(line, s0 - hw, s1 + hw, hw, w, ref, local)
         path_line = line
     else:
         # graze: measure along the filament just inside the void's nearest edge
-        near_line, near_void = shapely.shortest_line(line, void.geom).coords
+        near_line, near_void = shapely.shortest_line(line, local).coords
         mid_s = line.project(shapely.Point(near_line))
-        d = line.distance(void.geom)
-        near = void.geom.intersection(line.buffer(hw, cap_style="flat"))
+        d = line.distance(local)
+        near = local.intersection(line.buffer(hw, cap_style="flat"))
         span = [line.project(shapely.Point(c)) for c in near.exterior.coords] if near.geom_type == "Polygon" else \
             [line.project(shapely.Point(c)) for c in shapely.get_coordinates(near)]
         s_lo, s_hi = (min(span), max(span)) if span else (mid_s, mid_s)
-        share, _ = interrupted_share(line, s_lo, s_hi, hw, w, ref, void.geom)
+        share, _ = interrupted_share(line, s_lo, s_hi, hw, w, ref, local)
         path_line = None
         for side in (1, -1):
             off = line.offset_curve(side * (d + 0.02))
             if off.is_empty or off.geom_type != "LineString":
                 continue
-            if off.distance(void.geom) < 1e-6:
+            if off.distance(local) < 1e-6:
                 path_line = off
                 break
         ia = ib = None
         pa = pb = None
         if path_line is not None:
-            cr = [p for p in shapely.get_parts(path_line.intersection(void.geom)) if p.geom_type == "LineString"]
+            cr = [p for p in shapely.get_parts(path_line.intersection(local)) if p.geom_type == "LineString"]
             if cr:
                 ss = sorted(path_line.project(shapely.Point(c)) for p in cr for c in (p.coords[0], p.coords[-1]))
                 if ss[0] > STEP_OFF_MM and ss[-1] < path_line.length - STEP_OFF_MM:
@@ -367,7 +419,7 @@ def _finding(board, ch, ref, rc, void, gap, line, hw, ev, s0, s1, reach, setting
     detour, path = None, None
     split = ev == "cross" and (ia is None or ib is None or ia != ib)
     if not split and pa is not None and ia is not None and ia == ib:
-        g = geodesic(rc.islands[ia], (pa.x, pa.y), (pb.x, pb.y), void.geom)
+        g = _local_geodesic(rc.islands[ia], pa, pb, void.geom, hw)
         if g is not None:
             detour = max(0.0, g[0] - pa.distance(pb))
             path = g[1]

@@ -152,7 +152,7 @@ def chains(board, nets, refs, settings):
                 ch = Chain(net, layer.name, w, line)
                 for ref in refs[layer.name]:
                     hw = footprint_halfwidth(w, ref, settings.current_fraction)
-                    fp = shapely.buffer(line, hw, cap_style="flat", join_style="round")
+                    fp = shapely.buffer(line, hw, quad_segs=4, cap_style="flat", join_style="round")
                     ch.footprints[ref.layer] = (fp.intersection(board.outline), hw)
                 out.append(ch)
     return out

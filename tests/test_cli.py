@@ -1,0 +1,95 @@
+"""The command line as a user runs it: exit codes, one-line errors, reports that validate."""
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import jsonschema
+import pytest
+from click.testing import CliRunner
+
+from conftest import ROOT
+from returngap import report
+from returngap.cli import main
+
+DEMO = ROOT / "examples" / "demo-board"
+
+
+def run(*args):
+    return CliRunner().invoke(main, [str(a) for a in args], catch_exceptions=False)
+
+
+def test_check_demo_json_validates_and_fails_on_error(tmp_path):
+    out = tmp_path / "f.json"
+    r = run("check", DEMO, "--stackup", DEMO / "stackup.toml", "--json", out)
+    assert r.exit_code == 1  # the demo has deliberate splits (errors)
+    rep = json.loads(out.read_text())
+    jsonschema.validate(rep, report.schema())
+    assert rep["format"] == "returngap-findings" and rep["version"] == 1
+    kinds = {(f["net"], f["gap_type"]) for f in rep["findings"]}
+    # the four deliberate problems of examples/make_demo_board.py
+    assert {("SPI_SCK", "slot"), ("RMII_TXD0", "split"), ("RMII_TXD1", "split"), ("ADC_MCLK", "slot"),
+            ("SD_CMD", "void")} <= kinds
+    assert not any(f["net"].startswith("DB") or f["net"].startswith("MODEM") for f in rep["findings"])
+    assert "summary" in rep and rep["summary"]["error"] >= 2
+    assert "estimate" in rep["disclaimer"].lower() or "estimates" in rep["disclaimer"].lower()
+
+
+def test_fail_on_never_and_warning(tmp_path):
+    assert run("check", DEMO, "--fail-on", "never").exit_code == 0
+    assert run("check", DEMO, "--nets", "SD_*", "--fail-on", "warning").exit_code == 0  # an info only
+    assert run("check", DEMO, "--nets", "SPI_*", "--fail-on", "warning").exit_code == 1
+
+
+def test_rise_time_and_max_freq_are_exclusive():
+    r = run("check", DEMO, "--rise-time", "1", "--max-freq", "2")
+    assert r.exit_code == 2
+
+
+def test_bad_input_is_one_line_without_traceback(tmp_path):
+    bad = tmp_path / "b"
+    bad.mkdir()
+    (bad / "top.gbr").write_text("%TF.FileFunction,Copper,L1,Top*%\n%FSLAX46Y46*%\n%MOMM*%\nG37*\nM02*\n")
+    p = subprocess.run([sys.executable, "-m", "returngap.cli", "check", str(bad)], capture_output=True, text=True)
+    assert p.returncode == 2
+    assert p.stdout == ""
+    lines = p.stderr.strip().splitlines()
+    assert len(lines) == 1 and "top.gbr:4" in lines[0] and "Traceback" not in p.stderr
+
+
+def test_missing_board_is_exit_2():
+    r = CliRunner().invoke(main, ["check", "/no/such/board"])
+    assert r.exit_code == 2
+
+
+def test_same_input_gives_identical_json(tmp_path):
+    a, b = tmp_path / "a.json", tmp_path / "b.json"
+    run("check", DEMO, "--json", a, "--fail-on", "never")
+    run("check", DEMO, "--json", b, "--fail-on", "never")
+    assert a.read_bytes() == b.read_bytes()
+
+
+def test_layers_json(tmp_path):
+    r = run("layers", DEMO, "--json")
+    rep = json.loads(r.output)
+    assert [c["name"] for c in rep["copper_layers"]] == ["L1", "L2", "L3", "L4"]
+    assert [c["side"] for c in rep["copper_layers"]] == ["top", "inner", "inner", "bottom"]
+    assert rep["drills"][0]["from_layer"] == "L1" and rep["drills"][0]["to_layer"] == "L4"
+    assert [d["thickness_mm"] for d in rep["dielectrics"]] == [0.18, 1.13, 0.18]
+    assert rep["copper_layers"][1]["copper_area_mm2"] > 0.9 * 79.4 * 49.4
+    assert {"file": "stackup.toml", "reason": "not Gerber, Excellon, job file or IPC-D-356"} in rep["ignored"]
+
+
+def test_demo_board_is_what_the_generator_writes(tmp_path):
+    subprocess.run([sys.executable, str(ROOT / "examples" / "make_demo_board.py"), str(tmp_path)], check=True,
+                   capture_output=True)
+    made = sorted(p.name for p in tmp_path.iterdir())
+    assert made == sorted(p.name for p in DEMO.iterdir())
+    for name in made:
+        assert (tmp_path / name).read_bytes() == (DEMO / name).read_bytes(), name
+
+
+def test_out_dir_gets_findings(tmp_path):
+    run("check", DEMO, "--out", tmp_path / "o", "--fail-on", "never")
+    assert json.loads((tmp_path / "o" / "findings.json").read_text())["findings"]
