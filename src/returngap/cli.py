@@ -107,7 +107,12 @@ def check(ctx, board, stackup_file, rise_ns, max_ghz, net_globs, json_file, out_
         if json_file:
             _write(json_file, text)
         if out_dir:
-            _write(Path(out_dir) / "findings.json", text)
+            from . import render
+            out = Path(out_dir)
+            _write(out / "findings.json", text)
+            render.overview_png(result, rep, out / "overview.png")
+            for i, f in enumerate(rep["findings"], 1):
+                render.finding_png(result, f, i, out / f"finding-{f['id']}.png")
         click.echo(report.findings_table(rep, limit))
         click.echo(report.summary_line(rep))
         bad = FAIL_LEVELS[fail_on]

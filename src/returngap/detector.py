@@ -251,8 +251,8 @@ def _tangent(line, s):
 def slot_geometry(void, mid, tangent, reach, aspect_limit):
     """gap length and width, the crossing's distances to the two ends, and which end is open."""
     perp = (-tangent[1], tangent[0])
-    if void.enclosed:
-        rect = void.geom.minimum_rotated_rectangle
+    rect = void.geom.minimum_rotated_rectangle
+    if void.enclosed and void.geom.area >= 0.6 * rect.area:  # slot- or hole-like: its own rectangle
         c = np.asarray(rect.exterior.coords)[:4]
         e1, e2 = c[1] - c[0], c[2] - c[1]
         if np.hypot(*e1) < np.hypot(*e2):
@@ -265,6 +265,12 @@ def slot_geometry(void, mid, tangent, reach, aspect_limit):
         elongated = width > 0 and length / width >= aspect_limit
         return dict(length=length, width=width, l1=l1, l2=l2, open_ends=0, elongated=elongated)
     l1, l2, end1, end2 = _extent_across(void.geom, mid, perp, reach)
+    if l1 + l2 <= 0:  # the cut missed (the crossing runs along the gap): size it by its local outline
+        near = void.geom.intersection(shapely.Point(mid).buffer(max(reach / 20, 1.0)))
+        if not near.is_empty:
+            c = np.asarray(near.minimum_rotated_rectangle.exterior.coords)[:4]
+            l1 = l2 = max(np.hypot(*(c[1] - c[0])), np.hypot(*(c[2] - c[1]))) / 2
+            end1 = end2 = mid
     return dict(length=l1 + l2, width=None, l1=l1, l2=l2, end1=end1, end2=end2, elongated=True, open_ends=None)
 
 
@@ -433,7 +439,7 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         gap_type = "slot" if geo["elongated"] else "void"
     else:
         gap_type = "slot"  # a notch cut in from the plane's edge
-    width = geo["width"] if geo["width"] is not None else (s1 - s0 if ev == "cross" else 0.0)
+    width = geo["width"] if geo["width"] is not None and not split else (s1 - s0 if ev == "cross" else 0.0)
     open_one_end = False
     if not void.enclosed and gap_type == "slot":
         open_one_end = True
