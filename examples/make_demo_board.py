@@ -34,7 +34,7 @@ def build():
     b.tracks.append((1, "SPI_SCK", [(52.0, 35.0), (72.0, 35.0), (74.0, 37.0)], 0.15))
     # 4. keep-out void for a mounting boss, 5 mm across
     b.cutouts.append((2, circle(20.0, 41.0, 2.5)))
-    b.tracks.append((1, "SD_CMD", [(6.0, 38.0), (34.0, 38.0)], 0.15))
+    b.tracks.append((1, "SD_CMD", [(6.0, 38.2), (34.0, 38.2)], 0.15))
     # 3. a fence of vias on another net whose antipads merge into a slot
     for k in range(8):
         b.vias.append(Via(70.0, 4.0 + 1.0 * k, "+1V8", drill=0.25, pad=0.45, antipad=1.1))

@@ -1,5 +1,6 @@
 """The user's stackup file (TOML, our own schema; see README) -> a checked dict."""
 
+import re
 import tomllib
 
 from .errors import InputError
@@ -27,7 +28,8 @@ def load_stackup_file(path):
     except OSError as e:
         raise InputError(path, f"cannot read ({e.strerror})")
     except tomllib.TOMLDecodeError as e:
-        line = getattr(e, "lineno", None)
+        m = re.search(r"at line (\d+)", str(e))
+        line = getattr(e, "lineno", None) or (int(m.group(1)) if m else None)
         raise InputError(path, f"not valid TOML ({str(e).split(' (at')[0]})", line)
     unknown = set(data) - KNOWN_TOP
     if unknown:

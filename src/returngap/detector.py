@@ -431,6 +431,8 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
             path = g[1]
     if ev == "graze" and detour is None:
         detour = 0.0
+    if ev == "cross" and detour is not None and detour < settings.min_detour_mm:
+        return None
     if ev == "cross" and detour is None and not split:
         split = True  # no path found inside the plane island: treat as a split
     if split:

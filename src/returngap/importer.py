@@ -18,7 +18,6 @@ from gerbonara import ExcellonFile, GerberFile
 from gerbonara import graphic_objects as go
 from gerbonara.apertures import CircleAperture
 from gerbonara.cam import FileSettings
-from gerbonara.ipc356 import Netlist
 from gerbonara.layers import _best_match
 from gerbonara.utils import MM, Inch
 
@@ -461,22 +460,37 @@ def build_drill(fab, d, role, n_layers, text, fmt):
                      hole_is_via=via_flags, identified_by=role.source, number_format=fmt), tool_plating
 
 
+IPC_UNITS = {"CUST 0": 0.0001 * 25.4, "CUST 1": 0.001, "CUST 2": 0.0001 * 25.4, "SI": 0.001}
+
+
 def parse_netlist(fab):
-    """IPC-D-356 test records -> NetPoints in mm."""
+    """IPC-D-356(A) test records (op codes 3xx) -> NetPoints in mm; fixed columns as KiCad and
+    Allegro write them: net 4-17, refdes 21-26, '-' 27, pin 28-31, 'M' 32 (mid-point / via)."""
     try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            nl = Netlist.open(fab.path)
-    except Exception as e:
-        raise InputError(fab.name, f"cannot read as IPC-D-356 ({type(e).__name__}: {str(e)[:120]})")
+        text = fab.path.read_bytes().decode("latin-1")
+    except OSError as e:
+        raise InputError(fab.name, f"cannot read ({e.strerror})")
+    scale = IPC_UNITS["CUST 0"]
     pts = []
-    for r in nl.test_records:
-        if r.x is None or r.y is None or not r.net_name or r.net_name in ("N/C",):
+    for lineno, raw in enumerate(text.splitlines(), 1):
+        line = raw.rstrip("\r")
+        if line.startswith("P  UNITS"):
+            unit = " ".join(line[8:].split())
+            scale = next((v for k, v in IPC_UNITS.items() if unit.startswith(k)), None)
+            if scale is None:
+                raise InputError(fab.name, f"unknown IPC-D-356 units {unit!r}", lineno)
             continue
-        k = 25.4 if r.unit == Inch else 1.0
-        pts.append(NetPoint(net=unescape_net(r.net_name), x=r.x * k, y=r.y * k, refdes=r.ref_des,
-                            pin=str(r.pin_num) if r.pin_num is not None else None, is_via=bool(r.is_via),
-                            layers=None))
+        if not re.match(r"3[0-9]{2}", line[:3]):
+            continue
+        net = line[3:17].strip()
+        m = re.search(r"X([+-]?\d+)Y([+-]?\d+)", line[40:])
+        if not net or net == "N/C" or not m:
+            continue
+        refdes = line[20:26].strip() or None
+        pin = line[27:31].strip() if len(line) > 27 and line[26:27] == "-" else None
+        is_via = refdes == "VIA" or line[31:32] == "M"
+        pts.append(NetPoint(net=unescape_net(net), x=int(m.group(1)) * scale, y=int(m.group(2)) * scale,
+                            refdes=refdes, pin=pin or None, is_via=is_via, layers=None))
     return pts
 
 

@@ -29,7 +29,8 @@ class Settings:
     max_freq_GHz: float | None = None  # when given, overrides the rise time: T_r = 0.5 / f
     current_fraction: float = 0.90     # share of the return current the footprint holds (REFERENCE sec. 1.4)
     reflection_budget: float = 0.10    # 10 % reflection noise (Bogatin, from memory)
-    min_interrupted_fraction: float = 0.05  # smaller interruptions are not reported (common practice, no source)
+    min_interrupted_fraction: float = 0.10  # smaller interruptions are not reported (common practice, no source)
+    min_detour_mm: float = 1.0         # crossings with a shorter detour (and no split) are not reported (same)
     min_gap_length_mm: float = 1.0     # single via antipads under a track are not reported (common practice, no source)
     slot_aspect_ratio: float = 3.0     # elongated beyond this: a slot, else a void (common practice, no source)
     plane_min_fraction: float = 0.20   # a layer whose plane-net copper covers this share of the board is a reference
@@ -47,7 +48,7 @@ class Settings:
         return {
             "rise_time_ns": round(self.rise_ns, 6), "knee_frequency_GHz": round(self.knee_GHz, 6),
             "current_fraction": self.current_fraction, "reflection_budget": self.reflection_budget,
-            "min_interrupted_fraction": self.min_interrupted_fraction,
+            "min_interrupted_fraction": self.min_interrupted_fraction, "min_detour_mm": self.min_detour_mm,
             "min_gap_length_mm": self.min_gap_length_mm, "slot_aspect_ratio": self.slot_aspect_ratio,
             "plane_min_fraction": self.plane_min_fraction, "nets": list(self.nets),
         }

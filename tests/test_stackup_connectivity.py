@@ -1,0 +1,104 @@
+"""Stackup sources and net building, against values that follow from the files."""
+
+import json
+import math
+
+import pytest
+
+from boards import slot_board
+from returngap import config, connectivity, importer, stackup
+from returngap.errors import InputError
+from returngap.model import Board
+from returngap.pipeline import load
+
+
+def _board(n):
+    b = Board("x", "x", copper=[None] * n, drills=[], outline=None)
+    b.job = {}
+    return b
+
+
+def test_job_stackup_with_strings_nan_and_split_dielectric():
+    # KiCad-style quirks (REFERENCE 9.2): numbers as strings, "NaN" er, one dielectric split in two
+    job = {"MaterialStackup": [
+        {"Type": "Copper", "Thickness": "0.035"},
+        {"Type": "Dielectric", "Name": "F.Cu/In1.Cu (1/2)", "Thickness": "0.1", "DielectricConstant": "4.0"},
+        {"Type": "Dielectric", "Name": "F.Cu/In1.Cu (2/2)", "Thickness": 0.1, "DielectricConstant": 5.0},
+        {"Type": "Copper", "Thickness": 0.035},
+        {"Type": "Dielectric", "Name": "core", "Thickness": 1.2, "DielectricConstant": "NaN"},
+        {"Type": "Copper"}]}
+    notes = []
+    st = stackup.from_job(job, 3, notes)
+    assert [d.thickness_mm for d in st.dielectrics] == pytest.approx([0.2, 1.2])
+    # series capacitors: 0.2 / (0.1/4 + 0.1/5) = 4.444
+    assert st.dielectrics[0].er == pytest.approx(0.2 / (0.1 / 4 + 0.1 / 5))
+    assert st.dielectrics[1].er == stackup.DEFAULT_ER and any("no permittivity" in n for n in notes)
+    assert st.height_mm("L1", "L3") == pytest.approx(0.2 + 1.2 + 0.035)
+
+
+def test_user_stackup_file(tmp_path):
+    p = tmp_path / "s.toml"
+    p.write_text('[[dielectric]]\nbetween = ["L1", "L2"]\nthickness_mm = 0.3\ner = 3.9\n')
+    cfg = config.load_stackup_file(p)
+    st = stackup.build_stackup(_board(2), cfg)
+    assert (st.source, st.dielectrics[0].thickness_mm, st.dielectrics[0].er) == ("stackup file", 0.3, 3.9)
+
+
+def test_bad_stackup_file_is_one_line(tmp_path):
+    p = tmp_path / "s.toml"
+    p.write_text("er = 'four'\n")
+    with pytest.raises(InputError, match="er must be a number"):
+        config.load_stackup_file(p)
+    p.write_text("[[dielectric]\n")
+    with pytest.raises(InputError) as e:
+        config.load_stackup_file(p)
+    assert e.value.line == 1
+
+
+def test_default_stackup_is_stated():
+    b = _board(4)
+    st = stackup.build_stackup(b, {})
+    assert [round(d.thickness_mm, 3) for d in st.dielectrics] == [0.2, 1.06, 0.2]
+    assert any("no stackup given" in a for a in b.assumptions)
+
+
+def test_nets_join_through_vias_and_take_names(tmp_path):
+    b, cfg = load(slot_board(tmp_path, solid=True, own_via=True))
+    nets = connectivity.build_nets(b, cfg)
+    # CLK on L1 and on L4 are one net through its via; GND planes on L2 and L3 are ground
+    assert "CLK" in nets.layers["L4"].segment_net
+    assert nets.net_class["GND"] == "ground" and nets.net_class["CLK"] == "signal"
+
+
+def test_unnamed_nets_and_the_ground_rule(tmp_path):
+    # strip every .N attribute: names are generated, and the net with most copper becomes ground
+    folder = slot_board(tmp_path, solid=True)
+    for f in folder.glob("*.gbr"):
+        f.write_text("\n".join(l for l in f.read_text().splitlines() if not l.startswith("%TO.N")))
+    b, cfg = load(folder)
+    nets = connectivity.build_nets(b, cfg)
+    names = set(nets.net_class)
+    assert all(n.startswith("UNNAMED_") for n in names)
+    gnd = [n for n, c in nets.net_class.items() if c == "ground"]
+    assert len(gnd) == 1 and any("taken as ground" in a for a in b.assumptions)
+    again = connectivity.build_nets(load(folder)[0], cfg)
+    assert sorted(again.net_class.items()) == sorted(nets.net_class.items())  # stable names
+
+
+def test_net_classes_from_names():
+    cls = connectivity.classify(["GND", "AGND", "/power/+3V3", "VDD_CORE", "1V8", "Board_0-GND", "CLK", "SDA"], {})
+    assert cls == {"GND": "ground", "AGND": "ground", "/power/+3V3": "power", "VDD_CORE": "power", "1V8": "power",
+                   "Board_0-GND": "ground", "CLK": "signal", "SDA": "signal"}
+
+
+def test_ipc356_records(tmp_path):
+    # REFERENCE 10 #33, #34 (KiCad-written IPC-D-356A lines)
+    text = ("C  IPC-D-356A test\nP  JOB   x\nP  UNITS CUST 0\n"
+            "317/N023            D1    -1    D0394PA00X+035309Y-027829X0669Y0669R000S0\n"
+            "317NET-(D381-A)     VIA        MD0079PA00X+036506Y-028140X0138Y0000R000S3\n999\n")
+    p = tmp_path / "n.ipc"
+    p.write_text(text)
+    pts = importer.parse_netlist(type("F", (), {"name": "n.ipc", "path": p})())
+    assert pts[0].net == "/N023" and pts[0].refdes == "D1" and pts[0].pin == "1"
+    assert (pts[0].x, pts[0].y) == pytest.approx((3.5309 * 25.4, -2.7829 * 25.4))
+    assert pts[1].is_via and pts[1].net == "NET-(D381-A)"
