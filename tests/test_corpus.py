@@ -123,3 +123,21 @@ def test_copper_agrees_with_pygerber(loaded, slug, layer):
         ours[r0:r0 + 512] = shapely.contains_xy(c.geometry, gx, gy)
     blobs = ndimage.binary_opening(ours != img, structure=np.ones((5, 5)))
     assert not blobs.any(), f"{blobs.sum()} px disagree in blobs 5 px wide or more"
+
+
+SLOW = pytest.mark.skipif(not __import__("os").environ.get("RETURNGAP_SLOW"),
+                          reason="full corpus check is slow; run `make corpus` (RETURNGAP_SLOW=1)")
+QUICK = ["poe-gpib-adapter", "vesc-4.12"]
+
+
+@pytest.mark.parametrize("slug", sorted(BOARDS))
+def test_check_runs_to_completion(slug):
+    if slug not in QUICK and not __import__("os").environ.get("RETURNGAP_SLOW"):
+        pytest.skip("full corpus check is slow; run `make corpus` (RETURNGAP_SLOW=1)")
+    path, stack, _ = BOARDS[slug]
+    r = pipeline.run_check(corpus_board(path), stack)
+    assert r.chains
+    for f in r.findings:
+        assert f["severity"] in ("error", "warning", "info")
+        assert f["gap_length_mm"] >= 0 and 0 <= f["interrupted_fraction"] <= 1
+        assert (f["detour_mm"] is None) == (f["gap_type"] == "split")

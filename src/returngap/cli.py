@@ -75,6 +75,34 @@ def layers(ctx, board, stackup_file, as_json):
     _run(ctx, go)
 
 
+def _progress(items, label, quiet):
+    """A bar on a terminal; silent when piped, in CI or with --quiet."""
+    show = not quiet and sys.stderr.isatty() and not os.environ.get("CI")
+    if not show:
+        return items
+    from tqdm import tqdm
+    return tqdm(items, desc=label, unit="", leave=False, file=sys.stderr)
+
+
+def write_outputs(result, rep, out_dir, fail_on, quiet=True):
+    """Everything `check --out` writes: JSON, CSV, JUnit, overview and per-finding PNGs, report.html."""
+    from . import htmlpage, render
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    for old in out.glob("finding-*.png"):  # pictures of an earlier run would mislead
+        old.unlink()
+    _write(out / "findings.json", report.to_json(rep))
+    _write(out / "findings.csv", report.to_csv(rep))
+    _write(out / "junit.xml", report.to_junit(rep, fail_on))
+    render.overview_png(result, rep, out / "overview.png")
+    images = {}
+    for i, f in enumerate(_progress(rep["findings"], "pictures", quiet), 1):
+        p = out / f"finding-{f['id']}.png"
+        render.finding_png(result, f, i, p)
+        images[f["id"]] = p
+    _write(out / "report.html", htmlpage.page(rep, images, out / "overview.png"))
+
+
 @main.command()
 @click.argument("board", nargs=-1, required=True, type=click.Path())
 @click.option("--stackup", "stackup_file", type=click.Path(), help="Stackup / layer-mapping TOML file.")
@@ -83,17 +111,26 @@ def layers(ctx, board, stackup_file, as_json):
               help="Highest frequency of interest, GHz (instead of --rise-time).")
 @click.option("--nets", "net_globs", multiple=True, help="Only nets matching this glob (repeatable).")
 @click.option("--json", "json_file", type=click.Path(), help="Write the findings report (JSON) here.")
-@click.option("--out", "out_dir", type=click.Path(), help="Write all reports into this folder.")
+@click.option("--out", "out_dir", type=click.Path(), help="Write all reports and pictures into this folder.")
+@click.option("--waivers", "waiver_file", type=click.Path(), help="TOML file of accepted findings.")
+@click.option("--baseline", "baseline_file", type=click.Path(), help="findings.json of an earlier revision.")
+@click.option("--baseline-tolerance", type=click.FloatRange(min=0), default=2.0, show_default=True,
+              help="How far (mm) a finding may move and still match the baseline.")
 @click.option("--fail-on", type=click.Choice(["error", "warning", "never"]), default="error", show_default=True)
+@click.option("--new-only", is_flag=True, help="With --baseline: only new findings count for --fail-on.")
 @click.option("--limit", type=click.IntRange(min=1), default=40, show_default=True, help="Rows in the printed table.")
+@click.option("--quiet", "-q", is_flag=True, help="Print only the summary line.")
 @click.pass_context
-def check(ctx, board, stackup_file, rise_ns, max_ghz, net_globs, json_file, out_dir, fail_on, limit):
+def check(ctx, board, stackup_file, rise_ns, max_ghz, net_globs, json_file, out_dir, waiver_file, baseline_file,
+          baseline_tolerance, fail_on, new_only, limit, quiet):
     """Find where return current must detour around slots, splits and voids."""
-    from . import pipeline
+    from . import pipeline, review
     from .projector import Settings
 
     if rise_ns and max_ghz:
         raise click.UsageError("give --rise-time or --max-freq, not both")
+    if new_only and not baseline_file:
+        raise click.UsageError("--new-only needs --baseline")
     settings = Settings(nets=tuple(net_globs))
     if rise_ns:
         settings.rise_time_ns = rise_ns
@@ -101,22 +138,27 @@ def check(ctx, board, stackup_file, rise_ns, max_ghz, net_globs, json_file, out_
         settings.max_freq_GHz = max_ghz
 
     def go():
+        waivers = review.load_waivers(waiver_file) if waiver_file else []
+        baseline = review.load_baseline(baseline_file) if baseline_file else None
         result = pipeline.run_check(list(board), stackup_file, settings)
         rep = report.findings_report(result)
-        text = report.to_json(rep)
+        if waiver_file:
+            review.apply_waivers(rep, waivers)
+        if baseline is not None:
+            review.compare(rep, baseline, baseline_tolerance)
         if json_file:
-            _write(json_file, text)
+            _write(json_file, report.to_json(rep))
         if out_dir:
-            from . import render
-            out = Path(out_dir)
-            _write(out / "findings.json", text)
-            render.overview_png(result, rep, out / "overview.png")
-            for i, f in enumerate(rep["findings"], 1):
-                render.finding_png(result, f, i, out / f"finding-{f['id']}.png")
-        click.echo(report.findings_table(rep, limit))
+            write_outputs(result, rep, out_dir, fail_on, quiet)
+        if not quiet:
+            click.echo(report.findings_table(rep, limit))
+            for w in (rep.get("waivers") or {}).get("stale", []):
+                click.echo(f"stale waiver #{w['waiver']} ({w.get('by')}): matches no finding", err=True)
         click.echo(report.summary_line(rep))
         bad = FAIL_LEVELS[fail_on]
-        return 1 if any(f["severity"] in bad for f in rep["findings"]) else 0
+        counted = [f for f in rep["findings"] if f["severity"] in bad and not f.get("waiver")
+                   and (not new_only or f.get("status") == "new")]
+        return 1 if counted else 0
     sys.exit(_run(ctx, go))
 
 

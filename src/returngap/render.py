@@ -158,13 +158,18 @@ def finding_png(result, finding, number, path):
         p = np.asarray(path_pts)
         ax.plot(p[:, 0], p[:, 1], color=DETOUR, lw=2.2, ls="--", zorder=6, label="detour path in the plane")
     ax.plot(x, y, "o", ms=14, mfc="none", mec=MARK[finding["severity"]], mew=2.5, zorder=7)
+    ax.plot(x, y, "o", ms=5, mfc=MARK[finding["severity"]], mec="none", zorder=8)
     ax.set_title(f"#{number} {finding['severity'].upper()}  {finding['net']} on {finding['layer']} over "
                  f"{finding['reference_net']} on {ref_layer}: {finding['gap_type']} ({finding['kind']})", fontsize=10)
     _scale_bar(ax, x0, x1, y0, y1)
     fig.text(0.01, 0.01, caption, fontsize=9, family="monospace", va="bottom")
     fig.tight_layout(rect=(0, 0.07, 1, 1))
+    fig.canvas.draw()
+    px, py = ax.transData.transform((x, y))
+    height = fig.get_size_inches()[1] * fig.dpi
     fig.savefig(path, dpi=100)
     plt.close(fig)
+    return float(px), float(height - py)  # where the finding sits in the picture, pixels from top-left
 
 
 def _caption(f):

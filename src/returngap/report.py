@@ -95,6 +95,7 @@ def findings_report(result):
         "references": refs,
         "assumptions": list(board.assumptions),
         "summary": {"findings": len(findings), **counts, "tracks_checked": len(result.chains)},
+        "nets_checked": sorted({c.net for c in result.chains}),
         "findings": findings,
     }
 
@@ -154,3 +155,58 @@ def layers_text(rep):
         out.append("assumptions:")
         out += [f"  - {a}" for a in rep["assumptions"]]
     return "\n".join(out)
+
+
+CSV_FIELDS = ["id", "kind", "gap_type", "severity", "status", "waived", "net", "layer", "reference_layer",
+              "reference_net", "x_mm", "y_mm", "gap_length_mm", "gap_width_mm", "detour_mm", "interrupted_fraction",
+              "added_inductance_nH", "added_inductance_low_nH", "added_inductance_high_nH", "inductance_method",
+              "resonance_GHz", "message"]
+
+
+def to_csv(report):
+    """One row per finding; numbers as in the JSON, empty cells for null."""
+    import csv
+    import io
+    buf = io.StringIO()
+    w = csv.DictWriter(buf, fieldnames=CSV_FIELDS, lineterminator="\n", extrasaction="ignore")
+    w.writeheader()
+    for f in report["findings"]:
+        row = dict(f)
+        lo, hi = f.get("added_inductance_range_nH") or (None, None)
+        row["added_inductance_low_nH"], row["added_inductance_high_nH"] = lo, hi
+        row["waived"] = "yes" if f.get("waiver") else ""
+        row["status"] = f.get("status", "")
+        w.writerow({k: ("" if row.get(k) is None else row.get(k)) for k in CSV_FIELDS})
+    return buf.getvalue()
+
+
+def to_junit(report, fail_on="error"):
+    """JUnit XML: one test case per check kind and net; failures carry the finding messages."""
+    from xml.sax.saxutils import quoteattr, escape
+    bad = {"error": {"error"}, "warning": {"error", "warning"}, "never": set()}[fail_on]
+    cases = {}
+    for f in report["findings"]:
+        cases.setdefault((f["kind"], f["net"]), []).append(f)
+    nets_checked = report.get("nets_checked") or sorted({k[1] for k in cases})
+    for net in nets_checked:
+        cases.setdefault(("gap-crossing", net), [])
+    failures = 0
+    body = []
+    for (kind, net), fs in sorted(cases.items()):
+        failing = [f for f in fs if f["severity"] in bad and not f.get("waiver")]
+        name = quoteattr(f"{kind} {net}")
+        cls = quoteattr(f"returngap.{report['board']['name']}.{kind}")
+        if failing:
+            failures += 1
+            msg = quoteattr(f"{len(failing)} finding(s): " + "; ".join(f["message"] for f in failing)[:2000])
+            text = escape("\n".join(f"[{f['severity']}] {f['id']} {f['message']}" for f in fs))
+            body.append(f'  <testcase name={name} classname={cls}><failure message={msg} type="{kind}">{text}'
+                        f'</failure></testcase>')
+        else:
+            out = escape("\n".join(f"[{f['severity']}] {f['id']} {f['message']}" for f in fs))
+            body.append(f"  <testcase name={name} classname={cls}>" + (f"<system-out>{out}</system-out>" if fs else "")
+                        + "</testcase>")
+    head = (f'<?xml version="1.0" encoding="UTF-8"?>\n<testsuites name="returngap">\n'
+            f' <testsuite name={quoteattr("returngap " + report["board"]["name"])} tests="{len(body)}" '
+            f'failures="{failures}" errors="0" skipped="0">')
+    return "\n".join([head] + [" " + b for b in body] + [" </testsuite>", "</testsuites>", ""])
