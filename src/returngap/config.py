@@ -19,18 +19,23 @@ def _number(path, where, value, low, high):
     return v
 
 
-def load_stackup_file(path):
-    if path is None:
-        return {}
+def read_toml(path):
+    """A TOML file as a dict; unreadable or invalid files raise InputError with the line."""
     try:
         with open(path, "rb") as f:
-            data = tomllib.load(f)
+            return tomllib.load(f)
     except OSError as e:
         raise InputError(path, f"cannot read ({e.strerror})")
     except tomllib.TOMLDecodeError as e:
         m = re.search(r"at line (\d+)", str(e))
         line = getattr(e, "lineno", None) or (int(m.group(1)) if m else None)
         raise InputError(path, f"not valid TOML ({str(e).split(' (at')[0]})", line)
+
+
+def load_stackup_file(path):
+    if path is None:
+        return {}
+    data = read_toml(path)
     unknown = set(data) - KNOWN_TOP
     if unknown:
         raise InputError(path, f"unknown key(s): {', '.join(sorted(unknown))}")

@@ -4,8 +4,7 @@ import datetime
 import fnmatch
 import json
 import math
-import tomllib
-
+from .config import read_toml
 from .errors import InputError
 
 WAIVER_KEYS = {"id", "kind", "net", "layer", "reference_layer", "gap_type", "near_mm", "radius_mm", "by", "reason",
@@ -14,13 +13,7 @@ WAIVER_KEYS = {"id", "kind", "net", "layer", "reference_layer", "gap_type", "nea
 
 def load_waivers(path):
     """[[waiver]] tables: an id, or a match on kind / net (glob) / layers / location; who, why and when."""
-    try:
-        with open(path, "rb") as f:
-            data = tomllib.load(f)
-    except OSError as e:
-        raise InputError(path, f"cannot read ({e.strerror})")
-    except tomllib.TOMLDecodeError as e:
-        raise InputError(path, f"not valid TOML ({str(e).split(' (at')[0]})")
+    data = read_toml(path)
     items = data.get("waiver", [])
     if not isinstance(items, list):
         raise InputError(path, "waivers must be [[waiver]] tables")
