@@ -141,3 +141,13 @@ def test_check_runs_to_completion(slug):
         assert f["severity"] in ("error", "warning", "info")
         assert f["gap_length_mm"] >= 0 and 0 <= f["interrupted_fraction"] <= 1
         assert (f["detour_mm"] is None) == (f["gap_type"] == "split")
+
+
+def test_inferred_drill_format_matches_the_netlist(loaded):
+    # the Allegro drill file states no format; its holes must sit on the IPC-D-356 via records
+    b = loaded("parallella-buddy-rev1")
+    vias = np.array([(p.x, p.y) for p in b.netlist if p.is_via])
+    holes = np.vstack([d.holes[:, :2] for d in b.drills])
+    tree = shapely.STRtree(shapely.points(holes))
+    d = tree.query_nearest(shapely.points(vias), return_distance=True)[1]
+    assert len(vias) > 1000 and np.mean(d < 0.01) > 0.95

@@ -425,7 +425,7 @@ def parse_drill(fab, text, copper_region, notes):
         raise InputError(fab.name, f"cannot read as Excellon ({reason.split('.')[0][:150]})", line)
     if best_desc:
         notes.append(f"{fab.name}: drill number format not stated or inconsistent; inferred {best_desc} "
-                     f"({best_score:.0%} of holes land on copper)")
+                     f"({best_score:.0%} of holes land on outer-layer copper)")
     return best, best_desc or ""
 
 
@@ -540,7 +540,9 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
         board.job_file = job_name
         board.outline_file = outline_file
         n = len(layers)
-        region = outline.buffer(1.0) if not outline.is_empty else None
+        # holes of a correctly read drill file land on the pads of the outer layers
+        region = shapely.union(layers[0].geometry, layers[-1].geometry)
+        shapely.prepare(region)
         for name, role in roles.items():
             if role.kind == "drill":
                 f = by_name[name]
