@@ -47,17 +47,35 @@ def build():
     for k in range(12):
         y = 14.0 + 0.5 * k
         net = f"DB{k}"
-        b.tracks.append((1, net, [(4.0, y), (30.0, y), (34.0, y + 4.0), (40.0, y + 4.0)], 0.12))
-        b.vias.append(Via(40.0 + 0.9 * (k % 2), y + 4.0, net, drill=0.25, pad=0.45, antipad=0.8))
-        b.tracks.append((4, net, [(40.0 + 0.9 * (k % 2), y + 4.0), (42.0, y + 4.0)], 0.12))
+        xv = 40.0 + 0.9 * (k % 2)
+        b.tracks.append((1, net, [(4.0, y), (30.0, y), (34.0, y + 4.0), (xv, y + 4.0)], 0.12))
+        b.vias.append(Via(xv, y + 4.0, net, drill=0.25, pad=0.45, antipad=0.8))
+        b.tracks.append((4, net, [(xv, y + 4.0), (42.0, y + 4.0)], 0.12))
+    # decoupling capacitors bridging GND (L2) and +3V3 (L3) next to the bus vias: the bus's return
+    # crosses between the two planes through them
+    for ref, y in (("C12", 17.0), ("C13", 24.5)):
+        b.pads.append((1, 43.5, y, 0.6, 0.5, "GND", (ref, "1")))
+        b.pads.append((1, 43.5, y + 1.0, 0.6, 0.5, "+3V3", (ref, "2")))
+        b.vias.append(Via(43.5, y - 0.6, "GND"))
+        b.vias.append(Via(43.5, y + 1.6, "+3V3"))
+        b.tracks.append((1, "GND", [(43.5, y), (43.5, y - 0.6)], 0.3))
+        b.tracks.append((1, "+3V3", [(43.5, y + 1.0), (43.5, y + 1.6)], 0.3))
     for k, net in enumerate(("I2C_SCL", "I2C_SDA", "TEMP_1W", "BARO_INT")):
         b.tracks.append((1, net, [(5.0, 4.0 + k), (40.0, 4.0 + k)], 0.15))
     for k, net in enumerate(("MODEM_TX", "MODEM_RX", "MODEM_RTS")):
         b.tracks.append((4, net, [(50.0, 30.0 + k), (76.0, 30.0 + k)], 0.15))
-    # ground stitching around the edge
-    for x in range(5, 80, 10):
-        b.vias.append(Via(float(x), 1.5, "GND"))
-        b.vias.append(Via(float(x), 48.5, "GND"))
+    # ground stitching: a 6 mm grid, kept clear of tracks, pads and other vias
+    import shapely
+    keep_out = shapely.union_all([shapely.LineString(pts).buffer(w / 2 + 0.5) for _, _, pts, w in b.tracks]
+                                 + [shapely.Point(v.x, v.y).buffer(1.2) for v in b.vias]
+                                 + [shapely.Polygon(p).buffer(0.6) for _, p in b.cutouts]
+                                 + [shapely.box(44.6, 0, 45.8, 50)])
+    for x in range(3, 80, 6):
+        for y in range(3, 50, 6):
+            if not keep_out.intersects(shapely.Point(x, y)):
+                b.vias.append(Via(float(x), float(y), "GND" if x < 44 or y % 12 == 3 else "GND"))
+    for x, y in ((10.0, 26.0), (30.0, 44.0), (50.0, 44.0), (74.0, 20.0)):  # +3V3 / +1V8 feed vias
+        b.vias.append(Via(x, y, "+3V3" if x < 45 else "+1V8"))
     return b
 
 

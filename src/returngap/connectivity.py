@@ -33,6 +33,7 @@ class LayerNets:
     tree: shapely.STRtree
     segment_net: list                 # net name per track segment
     flash_net: list
+    segment_fill: np.ndarray = None   # True where a segment belongs to a stroke-filled pour
 
     def net_copper(self, net):
         parts = [p for p, n in zip(self.islands, self.island_net) if n == net]
@@ -66,6 +67,22 @@ def _island_index(layer_islands, tree, xy):
         near = tree.query_nearest(pts[miss], all_matches=False)
         out[miss[near[0]]] = near[1]
     return out
+
+
+FILL_OVERLAP = 1.6  # strokes covering an island this many times over are a pour, not tracks
+
+
+def _fill_segments(layer, islands, seg_isl):
+    """Segments of islands drawn as overlapping strokes (Eagle-style pours): their stroke area adds
+    up to far more than the island's own area, which single tracks never do."""
+    s = layer.segments
+    if not len(s) or not len(islands):
+        return np.zeros(len(s), dtype=bool)
+    stroke = np.hypot(s[:, 2] - s[:, 0], s[:, 3] - s[:, 1]) * s[:, 4]
+    per_island = np.bincount(seg_isl, weights=stroke, minlength=len(islands))
+    area = shapely.area(islands)
+    fill_island = (per_island > FILL_OVERLAP * area) & (area > 2.0)
+    return fill_island[seg_isl]
 
 
 def classify(names, user_cfg):
@@ -186,7 +203,8 @@ def build_nets(board, user_cfg=None):
             if p.area >= PLANE_AREA_FRACTION * board_area:
                 big.add(n)
         layers[layer.name] = LayerNets(layer.name, islands, inet, tree,
-                                       [inet[i] for i in seg_isl], [inet[i] for i in fl_isl])
+                                       [inet[i] for i in seg_isl], [inet[i] for i in fl_isl],
+                                       _fill_segments(layer, islands, seg_isl))
     net_class = classify(sorted(set(node_net.values())), user_cfg)
     notes = []
     if not any(c == "ground" for c in net_class.values()) and area_by_net:

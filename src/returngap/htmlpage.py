@@ -41,6 +41,10 @@ def _img(path):
     return "data:image/png;base64," + base64.b64encode(data).decode("ascii")
 
 
+def _pct(v):
+    return None if v is None else 100 * v
+
+
 def _num(v, fmt):
     return "" if v is None else format(v, fmt)
 
@@ -81,7 +85,7 @@ def page(report, images, overview=None):
             f"<td>{e(f['layer'])}</td><td>{e(f.get('reference_layer') or '')}</td>"
             f"<td class='n'>{f['x_mm']:.2f}</td><td class='n'>{f['y_mm']:.2f}</td>"
             f"<td class='n'>{_num(f.get('detour_mm'), '.2f')}</td>"
-            f"<td class='n'>{_num(100 * f['interrupted_fraction'], '.0f')}</td>"
+            f"<td class='n'>{_num(_pct(f.get('interrupted_fraction')), '.0f')}</td>"
             f"<td class='n'>{_num(f.get('added_inductance_nH'), '.2f')}</td>"
             f"<td class='n'>{_num(f.get('resonance_GHz'), '.2f')}</td><td>{e(status)}</td></tr>")
     parts.append("</tbody></table>")

@@ -215,3 +215,42 @@ def series_inductance_reflection(inductance_nH, z0_ohm, rise_time_ns):
 def wavelength_mm(freq_GHz, eeff):
     """Wavelength on the board: c / (f * sqrt(eeff))."""
     return C_MM_PER_NS / (freq_GHz * math.sqrt(eeff))
+
+
+# --- vias, edges, islands ------------------------------------------------------------------
+
+def via_pair_inductance_nH(length_mm, spacing_mm, radius_mm):
+    """Loop inductance of a signal via and its return via: (mu0*h/pi) * acosh(s/(2r)), the two-wire
+    line over the length the return travels between the planes (Paul, Inductance: Loop and
+    Partial, 2010; Ramo-Whinnery-Van Duzer; from memory)."""
+    if spacing_mm <= 2 * radius_mm:
+        return 0.0
+    return MU0_NH_PER_MM * length_mm / math.pi * math.acosh(spacing_mm / (2.0 * radius_mm))
+
+
+def microstrip_fraction_beyond_edge(distance_mm, h_mm):
+    """Share of a microstrip's return current that the infinite-plane law puts beyond a plane edge
+    at this distance from the trace centre: 1/2 - atan(d/h)/pi (derived from the 1/(1+(x/h)^2) law;
+    first-order only, the true half-plane current crowds at the edge)."""
+    return 0.5 - math.atan2(distance_mm, h_mm) / math.pi
+
+
+def patch_resonance_GHz(length_mm, width_mm, h_mm, er, tied_at_one_end=False):
+    """Resonance of a copper island over a plane, as a microstrip patch: eps_reff and the fringing
+    extension dL after Hammerstad 1975 (Balanis, Antenna Theory, 3rd ed., sec. 14.2; from memory).
+    Half that frequency when the island is tied to the plane at one end."""
+    e = (er + 1) / 2 + (er - 1) / 2 * (1 + 12 * h_mm / width_mm) ** -0.5
+    dl = 0.412 * h_mm * (e + 0.3) * (width_mm / h_mm + 0.264) / ((e - 0.258) * (width_mm / h_mm + 0.8))
+    f = C_MM_PER_NS / (2 * (length_mm + 2 * dl) * math.sqrt(e))
+    return f / 2 if tied_at_one_end else f
+
+
+def two_branch_shares(r1_ohm, r2_ohm, l1_nH, l2_nH):
+    """Current division between two parallel return branches: at DC by resistance (Ohm's law),
+    at high frequency by inductance. Returns (DC share of branch 1, HF share of branch 1)."""
+    return r2_ohm / (r1_ohm + r2_ohm), l2_nH / (l1_nH + l2_nH)
+
+
+def copper_resistance_ohm(length_mm, width_mm, thickness_mm, resistivity_ohm_m=1.68e-8):
+    """DC resistance of a copper strip: rho * l / (w * t) (copper 1.68e-8 ohm m, handbook value)."""
+    return resistivity_ohm_m * (length_mm * 1e-3) / (width_mm * 1e-3 * thickness_mm * 1e-3)

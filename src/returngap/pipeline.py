@@ -2,7 +2,7 @@
 
 from dataclasses import dataclass
 
-from . import config, connectivity, detector, importer, projector, stackup
+from . import config, connectivity, detector, hazards, importer, projector, stackup
 
 
 @dataclass
@@ -30,4 +30,5 @@ def run_check(sources, stackup_file=None, settings=None):
     refs, planes = projector.references(board, nets, settings)
     chains = projector.chains(board, nets, refs, settings)
     findings = detector.detect_gap_crossings(board, nets, refs, chains, settings)
+    findings += hazards.detect_all(board, nets, refs, chains, settings)
     return CheckResult(board, nets, refs, planes, chains, findings, settings)

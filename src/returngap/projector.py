@@ -139,8 +139,9 @@ def chains(board, nets, refs, settings):
             continue
         ln = nets.layers[layer.name]
         groups = defaultdict(list)
-        for seg, net, fn in zip(layer.segments, ln.segment_net, layer.segment_function):
-            if not nets.is_signal(net) or fn in NON_TRACK_FUNCTIONS or seg[4] <= 0 or not wanted(net, settings):
+        fill = ln.segment_fill if ln.segment_fill is not None else np.zeros(len(layer.segments), dtype=bool)
+        for seg, net, fn, filled in zip(layer.segments, ln.segment_net, layer.segment_function, fill):
+            if filled or not nets.is_signal(net) or fn in NON_TRACK_FUNCTIONS or seg[4] <= 0 or not wanted(net, settings):
                 continue
             if seg[0] == seg[2] and seg[1] == seg[3]:
                 continue

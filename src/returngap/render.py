@@ -117,9 +117,14 @@ def overview_png(result, report, path):
 
 def finding_png(result, finding, number, path):
     """Zoomed view of one finding: plane, gap, track, return footprint, detour path and the numbers."""
-    ref_layer = finding["reference_layer"]
+    ref_layer = finding.get("reference_layer") or finding["layer"]
     x, y = finding["x_mm"], finding["y_mm"]
     path_pts = finding.get("detour_path_mm") or []
+    for a, b in (("return_x_mm", "return_y_mm"),):
+        if finding.get(a) is not None:
+            path_pts = [[x, y], [finding[a], finding[b]]]
+    if finding.get("from_via_mm"):
+        path_pts = [finding["from_via_mm"], finding["to_via_mm"]]
     pts = np.asarray(path_pts + [[x, y]], dtype=float)
     r = 3.0 if path_pts else max(3.0, min(0.6 * (finding.get("gap_length_mm") or 0), 15.0))
     x0, y0 = pts.min(axis=0) - r
@@ -135,7 +140,7 @@ def finding_png(result, finding, number, path):
     fig, ax = _figure(x0, y0, x1, y1, caption_lines=2)
     window = shapely.box(x0, y0, x1, y1)
     _fill(ax, window.intersection(result.board.outline), "white", edge="#444444", lw=0.8, z=0)
-    plane, other = _plane_geoms(result, ref_layer, finding["reference_net"])
+    plane, other = _plane_geoms(result, ref_layer, finding.get("reference_net"))
     plane, other = plane.intersection(window), other.intersection(window)
     _fill(ax, other, OTHER_NET, PLANE_EDGE, 0.3, z=1)
     _fill(ax, plane, PLANE, PLANE_EDGE, 0.3, z=1)
@@ -156,11 +161,13 @@ def finding_png(result, finding, number, path):
                 solid_capstyle="round")
     if path_pts:
         p = np.asarray(path_pts)
-        ax.plot(p[:, 0], p[:, 1], color=DETOUR, lw=2.2, ls="--", zorder=6, label="detour path in the plane")
+        ax.plot(p[:, 0], p[:, 1], color=DETOUR, lw=2.2, ls="--", zorder=6, label="return path")
     ax.plot(x, y, "o", ms=14, mfc="none", mec=MARK[finding["severity"]], mew=2.5, zorder=7)
     ax.plot(x, y, "o", ms=5, mfc=MARK[finding["severity"]], mec="none", zorder=8)
-    ax.set_title(f"#{number} {finding['severity'].upper()}  {finding['net']} on {finding['layer']} over "
-                 f"{finding['reference_net']} on {ref_layer}: {finding['gap_type']} ({finding['kind']})", fontsize=10)
+    what = f"{finding['gap_type']} ({finding['kind']})" if finding.get("gap_type") else finding["kind"]
+    over = f" over {finding['reference_net']} on {ref_layer}" if finding.get("reference_net") else ""
+    ax.set_title(f"#{number} {finding['severity'].upper()}  {finding['net']} on {finding['layer']}{over}: {what}",
+                 fontsize=10)
     _scale_bar(ax, x0, x1, y0, y1)
     fig.text(0.01, 0.01, caption, fontsize=9, family="monospace", va="bottom")
     fig.tight_layout(rect=(0, 0.07, 1, 1))
@@ -173,6 +180,16 @@ def finding_png(result, finding, number, path):
 
 
 def _caption(f):
+    if f["kind"] != "gap-crossing":
+        words = f["message"].split()
+        lines, cur = [], ""
+        for w in words:
+            if len(cur) + len(w) > 120:
+                lines.append(cur)
+                cur = ""
+            cur += (" " if cur else "") + w
+        lines.append(cur)
+        return "\n".join(lines[:2]) + f"   id {f['id']}   estimates, not measurements"
     det = "none in plane (split)" if f.get("detour_mm") is None else f"{f['detour_mm']:.2f} mm"
     lo, hi = f.get("added_inductance_range_nH") or (0, 0)
     res = f.get("resonance_GHz")

@@ -1,0 +1,356 @@
+"""Return-path risks beyond gap crossings: layer changes at vias, plane edges, floating copper,
+stitching-via spacing. Each is its own finding kind with the common fields where they apply.
+"""
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import shapely
+
+from . import physics
+from .detector import _majority_net, stable_id
+
+DEFAULT_PART_LOOP_NH = 1.0  # mounted two-terminal capacitor loop, typically 0.5-1.5 nH (from memory)
+
+
+@dataclass
+class HazardSettings:
+    """Defaults cite a source or say 'common practice, no source'."""
+
+    edge_distance_h: float = 3.0        # report tracks closer than 3 h to their plane edge (CVEL asks >= 1 h)
+    edge_min_run_mm: float = 1.0        # shorter runs are ignored (common practice, no source)
+    floating_min_area_mm2: float = 1.0  # smaller islands are ignored (common practice, no source)
+    floating_coupling_mm: float = 1.0   # an island this close to a track couples to it (common practice, no source)
+    stitch_fraction: float = 0.1        # lambda/10 (lambda/20 stricter); REFERENCE 6.3, common practice
+    stitch_min_pour_mm2: float = 20.0   # pours smaller than this are not checked (common practice, no source)
+
+
+def _finding(kind, severity, net, layer, x, y, message, **extra):
+    f = {"id": stable_id(kind, layer, extra.get("reference_layer"), net, f"{x:.1f}", f"{y:.1f}"),
+         "kind": kind, "gap_type": None, "severity": severity, "net": net, "layer": layer,
+         "reference_layer": extra.pop("reference_layer", None), "reference_net": extra.pop("reference_net", None),
+         "x_mm": float(x), "y_mm": float(y), "message": message}
+    f.update(extra)
+    return f
+
+
+def _grade(reflection, budget):
+    return "error" if reflection >= budget else ("warning" if reflection >= budget / 2 else "info")
+
+
+def _z0(board, layer, width, ref):
+    t = board.stackup.copper_thickness_mm.get(layer, 0.035)
+    if ref.other_h_mm is None:
+        return physics.microstrip_z0_eeff(width, ref.h_mm, ref.er, t)[0]
+    return physics.stripline_z0(width, ref.h_mm + ref.other_h_mm, ref.er)
+
+
+def _plated_holes(board, nets):
+    """(x, y, radius, net, from, to) of every plated round hole whose net is known."""
+    out = []
+    for d in board.drills:
+        if not d.plated:
+            continue
+        for k, h in enumerate(d.holes):
+            net = nets.hole_net.get((d.file, k))
+            if net:
+                out.append((h[0], h[1], h[2] / 2, net, d.from_layer, d.to_layer))
+    return out
+
+
+def _plane_net_near(ln, plane_nets, x, y, reach=2.0):
+    """Plane net of the nearest plane copper to a point (a via sits in its own antipad)."""
+    p = shapely.Point(x, y)
+    best = None
+    for i in ln.tree.query(p.buffer(reach)):
+        if ln.island_net[i] not in plane_nets:
+            continue
+        d = ln.islands[i].distance(p)
+        if best is None or d < best[0]:
+            best = (d, ln.island_net[i])
+    return best[1] if best else None
+
+
+def _parts_bridging(board, nets, net_a, net_b):
+    """Centres of two-terminal parts with one pad on each net (from .P attributes or the netlist)."""
+    pads = {}
+    for layer in board.copper:
+        ln = nets.layers[layer.name]
+        for (x, y, _), part, net in zip(layer.flashes, layer.flash_part, ln.flash_net):
+            if part:
+                pads.setdefault(part[0], {})[part[1]] = (x, y, net)
+    for p in board.netlist:
+        if p.refdes and p.pin and not p.is_via:
+            pads.setdefault(p.refdes, {})[p.pin] = (p.x, p.y, p.net)
+    known = bool(pads)
+    out = []
+    for ref, pins in pads.items():
+        if len(pins) != 2:
+            continue
+        (xa, ya, na), (xb, yb, nb) = pins.values()
+        if {na, nb} == {net_a, net_b}:
+            out.append((ref, (xa + xb) / 2, (ya + yb) / 2))
+    return out, known
+
+
+def reference_changes(board, nets, refs, settings):
+    """Signal vias whose two track layers return in different planes."""
+    findings = []
+    holes = _plated_holes(board, nets)
+    if not holes:
+        return findings
+    hx = np.array([h[0] for h in holes])
+    hy = np.array([h[1] for h in holes])
+    # track ends per (layer, net)
+    ends = {}
+    for layer in board.copper:
+        ln = nets.layers[layer.name]
+        for s, net in zip(layer.segments, ln.segment_net):
+            if nets.is_signal(net):
+                ends.setdefault((layer.name, net), []).extend([(s[0], s[1], s[4]), (s[2], s[3], s[4])])
+    ends = {k: np.array(v) for k, v in ends.items()}
+    layer_names = [l.name for l in board.copper]
+    for x, y, r, net, a, b in holes:
+        if not nets.is_signal(net):
+            continue
+        used = []
+        for ln_name in layer_names[a - 1:b]:
+            e = ends.get((ln_name, net))
+            if e is not None and len(e) and np.min(np.hypot(e[:, 0] - x, e[:, 1] - y) - e[:, 2] / 2) <= r + 0.3:
+                width = float(e[np.argmin(np.hypot(e[:, 0] - x, e[:, 1] - y)), 2])
+                used.append((ln_name, width))
+        if len(used) < 2:
+            continue
+        (la, wa), (lb, wb) = used[0], used[-1]
+        ra = min(refs.get(la, []), key=lambda q: q.h_mm, default=None)
+        rb = min(refs.get(lb, []), key=lambda q: q.h_mm, default=None)
+        if ra is None or rb is None or ra.layer == rb.layer:
+            continue
+        na = _plane_net_near(nets.layers[ra.layer], nets.plane_nets, x, y)
+        nb = _plane_net_near(nets.layers[rb.layer], nets.plane_nets, x, y)
+        if na is None or nb is None:
+            continue
+        h = board.stackup.height_mm(ra.layer, rb.layer)
+        z0 = _z0(board, la, wa, ra)
+        rv = max(r, 0.05)
+        common = dict(reference_layer=ra.layer, reference_net=na, other_reference_layer=rb.layer,
+                      other_reference_net=nb, to_layer=lb, plane_spacing_mm=h, z0_ohm=z0)
+        if na == nb:
+            cand = [(math.hypot(hx[i] - x, hy[i] - y), i) for i in range(len(holes))
+                    if holes[i][3] == na and holes[i][4] <= min(int(ra.layer[1:]), int(rb.layer[1:]))
+                    and holes[i][5] >= max(int(ra.layer[1:]), int(rb.layer[1:]))]
+            if not cand:
+                findings.append(_finding("reference-change", "error", net, la, x, y,
+                                         f"{net} changes from {la} to {lb} at ({x:.2f}, {y:.2f}) mm; its return must move "
+                                         f"from {ra.layer} to {rb.layer} ({na}) but no stitching via joins them",
+                                         distance_mm=None, added_inductance_nH=None, **common))
+                continue
+            s, i = min(cand)
+            ind = physics.via_pair_inductance_nH(h, s, rv)
+            refl = physics.series_inductance_reflection(ind, z0, settings.rise_ns)
+            sev = _grade(refl, settings.reflection_budget)
+            if sev == "info" and refl < settings.reflection_budget / 4:
+                continue
+            findings.append(_finding(
+                "reference-change", sev, net, la, x, y,
+                f"{net} changes from {la} to {lb} at ({x:.2f}, {y:.2f}) mm; nearest {na} stitching via joining "
+                f"{ra.layer} and {rb.layer} is {s:.2f} mm away: about {ind:.2f} nH of via-pair loop, "
+                f"~{refl:.0%} reflection at {settings.rise_ns:g} ns",
+                distance_mm=s, return_x_mm=float(hx[i]), return_y_mm=float(hy[i]), added_inductance_nH=ind,
+                added_inductance_range_nH=[ind, ind], inductance_method="via-pair two-wire line",
+                reflection_fraction=refl, **common))
+        else:
+            parts, known = _parts_bridging(board, nets, na, nb)
+            if not parts:
+                why = "no two-terminal part bridges them" if known else "the data has no part information to tell"
+                findings.append(_finding(
+                    "reference-change", "error" if known else "warning", net, la, x, y,
+                    f"{net} changes from {la} to {lb} at ({x:.2f}, {y:.2f}) mm; its return moves from {na} on "
+                    f"{ra.layer} to {nb} on {rb.layer}: {why}", distance_mm=None, added_inductance_nH=None, **common))
+                continue
+            d, ref_des, px, py = min((math.hypot(px - x, py - y), rd, px, py) for rd, px, py in parts)
+            spread = physics.via_pair_inductance_nH(h, max(d, 2.5 * rv), rv)
+            lo, hi = spread + 0.5, spread + 1.5
+            ind = spread + DEFAULT_PART_LOOP_NH
+            refl = physics.series_inductance_reflection(ind, z0, settings.rise_ns)
+            sev = _grade(refl, settings.reflection_budget)
+            findings.append(_finding(
+                "reference-change", sev, net, la, x, y,
+                f"{net} changes from {la} to {lb} at ({x:.2f}, {y:.2f}) mm; its return moves from {na} to {nb} "
+                f"through {ref_des}, {d:.2f} mm away: about {ind:.2f} nH ({lo:.2f}-{hi:.2f}), ~{refl:.0%} reflection",
+                distance_mm=d, bridge_part=ref_des, return_x_mm=px, return_y_mm=py, added_inductance_nH=ind,
+                added_inductance_range_nH=[lo, hi], inductance_method="via-pair spread + mounted part loop",
+                reflection_fraction=refl, **common))
+    return findings
+
+
+def edge_runs(board, nets, refs, chains, settings, hs):
+    """Tracks whose return footprint runs along the edge of their reference plane's copper, or off it
+    at a track end. (A track crossing a gap between plane islands is a gap crossing, not an edge run.)"""
+    findings = []
+    edges = {}
+    for ch in chains:
+        ref = min(refs.get(ch.layer, []), key=lambda q: q.h_mm, default=None)
+        if ref is None:
+            continue
+        ln = nets.layers[ref.layer]
+        net = _majority_net(ln, nets.plane_nets, ch.line)
+        if net is None:
+            continue
+        if ref.layer not in edges:
+            copper = shapely.union_all([p for p, n in zip(ln.islands, ln.island_net) if n in nets.plane_nets])
+            outer = shapely.union_all([shapely.Polygon(p.exterior) for p in shapely.get_parts(copper)])
+            shapely.prepare(outer)
+            edges[ref.layer] = (outer, outer.boundary)
+        outer, edge = edges[ref.layer]
+        limit = hs.edge_distance_h * ref.h_mm
+        step = max(0.05, min(0.25, ref.h_mm / 2))
+        n = max(2, int(ch.line.length / step) + 1)
+        s = np.linspace(0, ch.line.length, n)
+        pts = shapely.line_interpolate_point(ch.line, s)
+        d = shapely.distance(pts, edge)
+        inside = shapely.intersects(outer, pts)
+        cls = np.where(~inside, 2, np.where(d < limit, 1, 0))
+        change = np.flatnonzero(np.diff(cls)) + 1
+        for a, b in zip(np.concatenate([[0], change]), np.concatenate([change, [n]])):
+            c = cls[a]
+            if c == 0:
+                continue
+            if c == 2 and a != 0 and b != n:
+                continue  # off the plane between two stretches on it: a gap crossing
+            length = float(s[b - 1] - s[a])
+            if length < hs.edge_min_run_mm:
+                continue
+            k = a + int(np.argmin(d[a:b])) if c == 1 else (b - 1 if a == 0 else a)
+            signed = float(d[k]) if c == 1 else -float(np.max(d[a:b]))
+            share = physics.microstrip_fraction_beyond_edge(signed, ref.h_mm) if ref.other_h_mm is None else \
+                physics.stripline_fraction_between(signed, 1e3 * ref.h_mm, ref.h_mm, ref.other_h_mm) / ref.share
+            sev = "error" if c == 2 else ("warning" if signed < ref.h_mm else "info")
+            p = pts[k]
+            where = "runs off" if c == 2 else "runs along"
+            findings.append(_finding(
+                "edge-run", sev, ch.net, ch.layer, p.x, p.y,
+                f"{ch.net} on {ch.layer} {where} the edge of the plane copper on {ref.layer} for {length:.1f} mm, "
+                f"{'as far as' if c == 2 else 'closest'} {abs(signed):.2f} mm ({signed / ref.h_mm:.1f} h): about "
+                f"{share:.0%} of its return current on that plane lies beyond the edge",
+                reference_layer=ref.layer, reference_net=net, run_length_mm=length, edge_distance_mm=signed,
+                edge_distance_h=signed / ref.h_mm, beyond_edge_fraction=float(min(1.0, share)), height_mm=ref.h_mm))
+    return findings
+
+
+def floating_copper(board, nets, refs, chains, settings, hs):
+    """Copper islands tied to nothing (no hole, no pad in them) within coupling distance of a signal track."""
+    findings = []
+    all_holes = [(h[0], h[1]) for d in board.drills for h in d.holes]
+    hole_tree = shapely.STRtree(shapely.points(np.array(all_holes).reshape(-1, 2)))
+    names = [l.name for l in board.copper]
+    for li, layer in enumerate(board.copper):
+        ln = nets.layers[layer.name]
+        pad_tree = shapely.STRtree(shapely.points(layer.flashes[:, :2].reshape(-1, 2)))
+        tracks = [c for c in chains if abs(names.index(c.layer) - li) <= 1]
+        if not tracks:
+            continue
+        ttree = shapely.STRtree(np.array([c.line for c in tracks], dtype=object))
+        track_nets = {c.net for c in chains if c.layer == layer.name}
+        for isl, net in zip(ln.islands, ln.island_net):
+            if isl.area < hs.floating_min_area_mm2 or net in track_nets:
+                continue
+            if len(hole_tree.query(isl, predicate="intersects")) or len(pad_tree.query(isl, predicate="intersects")):
+                continue
+            near = ttree.query(isl, predicate="dwithin", distance=hs.floating_coupling_mm)
+            if not len(near):
+                continue
+            track = tracks[int(min(near, key=lambda i: tracks[i].line.distance(isl)))]
+            rref = refs.get(layer.name) or refs.get(track.layer)
+            ref = min(rref, key=lambda q: q.h_mm) if rref else None
+            h = ref.h_mm if ref else 0.2
+            er = ref.er if ref else 4.3
+            c = np.asarray(isl.minimum_rotated_rectangle.exterior.coords)[:4]
+            a, b = float(np.hypot(*(c[1] - c[0]))), float(np.hypot(*(c[2] - c[1])))
+            length, width = max(a, b), max(min(a, b), 0.05)
+            f_res = physics.patch_resonance_GHz(length, width, h, er)
+            lam = physics.wavelength_mm(settings.knee_GHz, er)
+            vias = max(2, math.ceil(isl.exterior.length / (lam / 20)))
+            sev = "warning" if f_res <= 3 * settings.knee_GHz else "info"
+            p = isl.representative_point()
+            findings.append(_finding(
+                "floating-copper", sev, track.net, layer.name, p.x, p.y,
+                f"unconnected copper island of {isl.area:.1f} mm2 on {layer.name} within "
+                f"{hs.floating_coupling_mm:g} mm of {track.net}: patch resonance near {f_res:.2f} GHz; "
+                f"stitch it with about {vias} vias (lambda/20 at {settings.knee_GHz:g} GHz) or remove it",
+                island_net=net, area_mm2=float(isl.area), island_length_mm=length, island_width_mm=width,
+                resonance_GHz=f_res, stitching_vias_needed=vias, height_mm=h))
+    return findings
+
+
+def stitching_spacing(board, nets, refs, chains, settings, hs):
+    """Largest gap between neighbouring ground vias of a pour or plane, next to signal tracks, against lambda/10."""
+    findings = []
+    holes = _plated_holes(board, nets)
+    n_layers = len(board.copper)
+    for layer in board.copper:
+        ln = nets.layers[layer.name]
+        users = [c for c in chains if c.layer == layer.name or layer.name in c.footprints]
+        if not users:
+            continue
+        utree = shapely.STRtree(np.array([c.line for c in users], dtype=object))
+        i = int(layer.name[1:])
+        er = board.stackup.er_between(layer.name, f"L{i + 1}" if i < n_layers else f"L{i - 1}")
+        eeff = (er + 1) / 2 if layer.side in ("top", "bottom") else er
+        limit = hs.stitch_fraction * physics.wavelength_mm(settings.knee_GHz, eeff)
+        for isl, net in zip(ln.islands, ln.island_net):
+            if nets.net_class.get(net) != "ground" or isl.area < hs.stitch_min_pour_mm2:
+                continue
+            grown = isl.buffer(0.05)
+            shapely.prepare(grown)
+            pts = np.array([(x, y) for x, y, r, n, a, b in holes if n == net and a <= i <= b]).reshape(-1, 2)
+            if len(pts):
+                pts = pts[shapely.contains_xy(grown, pts[:, 0], pts[:, 1])]
+            if len(pts) < 2:
+                continue
+            edges = [(g, a, b) for g, a, b in _mst_edges(pts) if g > limit]
+            # only gaps that tracks run past: the gap's middle within a few mm of a track using this copper
+            edges = [e for e in edges if len(utree.query(shapely.Point(*(pts[e[1]] + pts[e[2]]) / 2),
+                                                         predicate="dwithin", distance=max(3.0, e[0] / 4)))]
+            if not edges:
+                continue
+            gap, a, b = max(edges)
+            mx, my = (pts[a] + pts[b]) / 2
+            sev = "warning" if gap <= 2 * limit else "error"
+            findings.append(_finding(
+                "stitching-spacing", sev, net, layer.name, mx, my,
+                f"{net} copper on {layer.name}: neighbouring stitching vias {gap:.1f} mm apart next to signal "
+                f"tracks, more than lambda/{round(1 / hs.stitch_fraction)} = {limit:.1f} mm at "
+                f"{settings.knee_GHz:g} GHz (eps_eff {eeff:.2f})", via_spacing_mm=gap, spacing_limit_mm=limit,
+                er_eff=eeff, via_count=int(len(pts)), from_via_mm=[float(pts[a][0]), float(pts[a][1])],
+                to_via_mm=[float(pts[b][0]), float(pts[b][1])]))
+    return findings
+
+
+def _mst_edges(pts):
+    """Edges (length, i, j) of the Euclidean minimum spanning tree (Prim, vectorised rows)."""
+    n = len(pts)
+    p = pts.astype(np.float64)
+    in_tree = np.zeros(n, dtype=bool)
+    in_tree[0] = True
+    best = np.hypot(p[:, 0] - p[0, 0], p[:, 1] - p[0, 1])
+    parent = np.zeros(n, dtype=int)
+    out = []
+    for _ in range(n - 1):
+        masked = np.where(in_tree, np.inf, best)
+        j = int(np.argmin(masked))
+        out.append((float(masked[j]), int(parent[j]), j))
+        in_tree[j] = True
+        dj = np.hypot(p[:, 0] - p[j, 0], p[:, 1] - p[j, 1])
+        closer = dj < best
+        parent[closer] = j
+        best = np.minimum(best, dj)
+    return out
+
+
+def detect_all(board, nets, refs, chains, settings, hs=None):
+    hs = hs or HazardSettings()
+    return (reference_changes(board, nets, refs, settings) + edge_runs(board, nets, refs, chains, settings, hs)
+            + floating_copper(board, nets, refs, chains, settings, hs)
+            + stitching_spacing(board, nets, refs, chains, settings, hs))
