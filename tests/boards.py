@@ -40,3 +40,30 @@ def stripline_board(folder, h1=0.2, h2=0.6):
     b.vias.append(Via(5, 5, "GND"))
     b.write(folder)
     return folder
+
+
+def hazard_board(folder, stitch_dx=3.0, edge_gap=0.5, island=True, stitch_pitch=None, er=4.3):
+    """For the other risk kinds (all distances from geometry):
+    - SIG_A on L1 (over GND L2, h = 0.2) drops through a via at (20, 20) to L4 (over GND L3);
+      the nearest GND stitching via is stitch_dx mm away (straight up).
+    - SIG_B on L1 runs with its centre line edge_gap mm inside the top edge of the L2 plane (y = 30).
+    - a 20 x 5 mm unconnected copper island on L1 beside SIG_C.
+    - with stitch_pitch: a GND pour on L1 whose stitching vias are stitch_pitch mm apart, next to SIG_D."""
+    b = SynthBoard("h", 80, 40, n_layers=4, dielectrics=[(H, er), (1.0, er), (H, er)])
+    b.planes.append((2, "GND", rect(0, 0, 80, 30)))
+    b.planes.append((3, "GND", rect(0, 0, 80, 40)))
+    b.tracks.append((1, "SIG_A", [(5, 20), (20, 20)], 0.2))
+    b.vias.append(Via(20, 20, "SIG_A"))
+    b.tracks.append((4, "SIG_A", [(20, 20), (35, 20)], 0.2))
+    b.vias.append(Via(20, 20 + stitch_dx, "GND"))
+    b.tracks.append((1, "SIG_B", [(40, 30 - edge_gap), (70, 30 - edge_gap)], 0.1))
+    if island:
+        b.planes.append((1, "ISLAND", rect(45, 5, 65, 10)))
+        b.tracks.append((1, "SIG_C", [(40, 11), (70, 11)], 0.2))
+    if stitch_pitch:
+        b.planes.append((1, "GND", rect(2, 2, 36, 8)))
+        for k in range(int(32 / stitch_pitch) + 1):
+            b.vias.append(Via(4 + k * stitch_pitch, 3, "GND"))
+        b.tracks.append((1, "SIG_D", [(2, 9), (36, 9)], 0.2))
+    b.write(folder)
+    return folder

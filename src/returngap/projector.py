@@ -31,7 +31,7 @@ class Settings:
     reflection_budget: float = 0.10    # 10 % reflection noise (Bogatin, from memory)
     min_interrupted_fraction: float = 0.10  # smaller interruptions are not reported (common practice, no source)
     min_detour_mm: float = 1.0         # crossings with a shorter detour (and no split) are not reported (same)
-    min_gap_length_mm: float = 1.0     # single via antipads under a track are not reported (common practice, no source)
+    min_gap_length_mm: float = 2.0     # single via antipads beside or under a track are not reported (common practice, no source)
     slot_aspect_ratio: float = 3.0     # elongated beyond this: a slot, else a void (common practice, no source)
     plane_min_fraction: float = 0.20   # a layer whose plane-net copper covers this share of the board is a reference
     nets: tuple = ()                   # glob patterns; empty = every signal net
