@@ -11,7 +11,7 @@ from returngap.projector import Settings
 
 
 def gaps(folder, **kw):
-    return run_check(folder, settings=Settings(**kw)).findings
+    return [f for f in run_check(folder, settings=Settings(**kw)).findings if f["kind"] == "gap-crossing"]
 
 
 def test_centred_slot_detour_is_slot_length(tmp_path):
@@ -81,7 +81,7 @@ def test_own_via_antipad_is_left_to_the_layer_change(tmp_path):
 
 def test_stripline_share(tmp_path):
     r = run_check(stripline_board(tmp_path, h1=0.2, h2=0.6))
-    f = [x for x in r.findings if x["reference_layer"] == "L2"]
+    f = [x for x in r.findings if x["reference_layer"] == "L2" and x["kind"] == "gap-crossing"]
     assert len(f) == 1
     # nearer plane carries h2/b of the return (REFERENCE 1.3): 0.75; the footprint holds 90 % of that
     assert f[0]["plane_share"] == pytest.approx(0.75)
@@ -89,7 +89,7 @@ def test_stripline_share(tmp_path):
     assert f[0]["interrupted_fraction"] == pytest.approx(physics.stripline_fraction_between(-hw, hw, 0.2, 0.6), rel=0.02)
     assert 0.75 * 0.9 <= f[0]["interrupted_fraction"] <= 0.75
     assert f[0]["line_type"] == "stripline"
-    assert not [x for x in r.findings if x["reference_layer"] == "L4"]
+    assert not [x for x in r.findings if x["reference_layer"] == "L4" and x["kind"] == "gap-crossing"]
 
 
 def test_finding_ids_are_stable(tmp_path):
