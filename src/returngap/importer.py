@@ -206,8 +206,51 @@ def number_copper(roles):
     return copper
 
 
+FS_RE = re.compile(r"%FS[LTD]?[AI]?X(\d)(\d)Y(\d)(\d)")
+MAX_EXTENT_MM = 5000.0  # nothing on a board lies 5 m from the origin
+
+
+def _line_of(text, pos):
+    return text.count("\n", 0, pos) + 1
+
+
+def lint_gerber(fab, text, notes):
+    """Checks gerbonara does not make: format, unit switches, unclosed regions. Errors or stated recoveries."""
+    m = FS_RE.search(text)
+    if m:
+        xi, xd, yi, yd = map(int, m.groups())
+        if not (1 <= xi <= 7 and 1 <= xd <= 7 and 1 <= yi <= 7 and 1 <= yd <= 7):
+            raise InputError(fab.name, f"coordinate format {xi}.{xd} / {yi}.{yd} is outside what the Gerber format "
+                                       "allows (at most 7 integer and 7 decimal digits)", _line_of(text, m.start()))
+    units = [(u.group(1), u.start()) for u in re.finditer(r"%MO(MM|IN)\*%", text)]
+    if len({u for u, _ in units}) > 1:
+        raise InputError(fab.name, "changes units in the middle of the file (%MO given twice with different units)",
+                         _line_of(text, units[1][1]))
+    opens = [g.start() for g in re.finditer(r"G36\*", text)]
+    closes = len(re.findall(r"G37\*", text))
+    if len(opens) > closes:
+        notes.append(f"{fab.name}: a region opened at line {_line_of(text, opens[-1])} is never closed (no G37); "
+                     "it is left out")
+    if m:
+        digits = max(xi + xd, yi + yd)
+        long = re.search(r"[XY][+-]?(\d{%d,})" % (digits + 1), text)
+        if long:
+            notes.append(f"{fab.name}: coordinates carry more digits than %FS declares (line "
+                         f"{_line_of(text, long.start())}); read with the declared decimals")
+
+
+def check_extent(fab, layer):
+    if layer.geometry.is_empty:
+        return
+    x0, y0, x1, y1 = layer.geometry.bounds
+    if max(abs(x0), abs(y0), abs(x1), abs(y1)) > MAX_EXTENT_MM:
+        raise InputError(fab.name, f"coordinates reach {max(abs(x0), abs(y0), abs(x1), abs(y1)) / 1000:.0f} m from "
+                                   "the origin; the number format or the data is wrong")
+
+
 def parse_gerber(fab, text, notes):
     """gerbonara parse with every failure turned into one line naming file and line."""
+    lint_gerber(fab, text, notes)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
@@ -268,6 +311,9 @@ def build_layer(fab, g, role, outline, tol):
             round_lines.clear()
 
     for obj in g.objects:
+        if not isinstance(obj, go.Region) and getattr(obj, "aperture", None) is None:
+            layer.skipped_objects += 1  # drawn before any aperture was selected
+            continue
         dark = bool(obj.polarity_dark)
         if not runs or runs[-1][0] != dark:
             if runs:
@@ -308,7 +354,10 @@ def build_layer(fab, g, role, outline, tol):
                 p = (getattr(obj, "attrs", None) or {}).get(".P") if isinstance(getattr(obj, "attrs", None), dict) else None
                 fl_part.append((p[0], p[1] if len(p) > 1 else "") if p else None)
         elif isinstance(obj, go.Region):
-            poly = shapes.polygon_from_points(shapes.ring_points(obj.outline, obj.arc_centers or [], tol, k))
+            ring = shapes.ring_points(obj.outline, obj.arc_centers or [], tol, k)
+            poly = shapes.polygon_from_points(ring)
+            if len(ring) > 3 and not shapely.Polygon(ring).is_valid and not _only_touches(ring):
+                layer.repaired_regions += 1
             runs[-1][1].append(poly)
             if dark and not poly.is_empty:
                 layer.regions.append((poly, net, None))
@@ -329,6 +378,13 @@ def build_layer(fab, g, role, outline, tol):
     layer.flashes = np.array(flashes, dtype=float).reshape(-1, 3)
     layer.flash_net, layer.flash_function, layer.flash_part = fl_net, fl_fn, fl_part
     return layer
+
+
+def _only_touches(ring):
+    """A cut-in region touches itself along a seam ("Ring Self-intersection" in GEOS terms); that is
+    allowed and not worth a note. Edges that cross ("Self-intersection") are."""
+    reason = shapely.is_valid_reason(shapely.Polygon(ring))
+    return not reason.startswith("Self-intersection")
 
 
 def outline_polygon(g, tol):
@@ -437,9 +493,13 @@ def build_drill(fab, d, role, n_layers, text, fmt):
     via_diams = {}
     for m in VIA_TOOL_RE.finditer(text):
         via_diams[round(float(m.group(3)), 4)] = "ViaDrill" in m.group(1)
+    skipped = 0
     for o in d.objects:
         k = 25.4 if o.unit == Inch else 1.0
-        dia = o.aperture.unit.convert_to(MM, o.aperture.diameter) if getattr(o, "aperture", None) else 0.0
+        if getattr(o, "aperture", None) is None or getattr(o.aperture, "diameter", None) is None:
+            skipped += 1
+            continue
+        dia = o.aperture.unit.convert_to(MM, o.aperture.diameter)
         native = round(o.aperture.diameter, 4) if getattr(o, "aperture", None) else None
         tool_plating.append(getattr(o.aperture, "plated", None))
         if isinstance(o, go.Flash):
@@ -457,7 +517,7 @@ def build_drill(fab, d, role, n_layers, text, fmt):
         span = (int(m.group(1)), int(m.group(2)))
     return DrillFile(file=fab.name, plated=plated, from_layer=span[0], to_layer=min(span[1], n_layers),
                      holes=np.array(holes, dtype=float).reshape(-1, 3), slots=np.array(slots, dtype=float).reshape(-1, 5),
-                     hole_is_via=via_flags, identified_by=role.source, number_format=fmt), tool_plating
+                     hole_is_via=via_flags, identified_by=role.source, number_format=fmt, skipped=skipped), tool_plating
 
 
 IPC_UNITS = {"CUST 0": 0.0001 * 25.4, "CUST 1": 0.001, "CUST 2": 0.0001 * 25.4, "SI": 0.001}
@@ -494,6 +554,17 @@ def parse_netlist(fab):
     return pts
 
 
+def _guarded(name, fn, *args):
+    """Geometry building on data gerbonara accepted: an unexpected failure still names the file."""
+    try:
+        return fn(*args)
+    except InputError:
+        raise
+    except (ValueError, TypeError, AttributeError, IndexError, KeyError, ZeroDivisionError, OverflowError,
+            shapely.errors.GEOSException) as e:
+        raise InputError(name, f"cannot build its geometry ({type(e).__name__}: {str(e)[:120]})")
+
+
 def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_MM):
     """Read a board (folder, zip or file list) into the board model."""
     with BoardFiles(sources) as bf:
@@ -525,7 +596,15 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
         provisional = outline
         layers = []
         for name, role in copper_roles:
-            layers.append(build_layer(by_name[name], parsed[name], role, provisional or shapely.Polygon(), chord_tol_mm))
+            layers.append(_guarded(name, build_layer, by_name[name], parsed[name], role,
+                                   provisional or shapely.Polygon(), chord_tol_mm))
+            check_extent(by_name[name], layers[-1])
+            if layers[-1].skipped_objects:
+                notes.append(f"{name}: {layers[-1].skipped_objects} object(s) drawn before any aperture was "
+                             "selected were left out")
+            if layers[-1].repaired_regions:
+                notes.append(f"{name}: {layers[-1].repaired_regions} self-intersecting region(s) repaired "
+                             "(split into valid parts)")
             if role.polarity == "negative" and provisional is None:
                 raise InputError(name, "negative-polarity copper needs a board profile file")
         all_copper = shapely.union_all([l.geometry for l in layers])
@@ -547,7 +626,9 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
             if role.kind == "drill":
                 f = by_name[name]
                 d, fmt = parse_drill(f, texts[name], region, notes)
-                drill, tool_plating = build_drill(f, d, role, n, texts[name], fmt)
+                drill, tool_plating = _guarded(name, build_drill, f, d, role, n, texts[name], fmt)
+                if drill.skipped:
+                    notes.append(f"{name}: {drill.skipped} hole(s) given before any tool was selected were left out")
                 if drill.plated is None:
                     known = {p for p in tool_plating if p is not None}
                     if len(known) > 1:

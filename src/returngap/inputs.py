@@ -112,7 +112,22 @@ def sniff(path):
         return "excellon"
     if re.search(r"^G04 .*\*\s*$", text, re.M) and re.search(r"D0?[123]\*", text):
         return "gerber"
+    if re.search(r"^T\d+\s*$", text, re.M) and re.search(r"^X[+-]?[\d.]+Y[+-]?[\d.]+\s*$", text, re.M):
+        return "excellon-headerless"
     return None
+
+
+def why_not(path):
+    """Why a file is not fabrication data, in a few words."""
+    try:
+        head = open(path, "rb").read(4096)
+    except OSError as e:
+        return f"cannot read ({e.strerror})"
+    if not head.strip():
+        return "empty file"
+    if b"\x00" in head:
+        return "binary data, not Gerber or Excellon"
+    return "not Gerber, Excellon, job file or IPC-D-356"
 
 
 class BoardFiles:
@@ -145,6 +160,8 @@ class BoardFiles:
                     raise InputError(s, "no such file")
                 self._consider(s, s.name)
         if not self.fab:
+            if len(self.ignored) == 1:
+                raise InputError(self.ignored[0]["file"], self.ignored[0]["reason"])
             raise InputError(self.source, "no Gerber or Excellon files found")
 
     def _scan_dir(self, root):
@@ -167,8 +184,10 @@ class BoardFiles:
             self.ignored.append({"file": rel, "reason": f"not fabrication data ({path.suffix.lower()})"})
             return
         kind = sniff(path)
+        if kind == "excellon-headerless":
+            raise InputError(rel, "drill file has no M48 header: its units, number format and tool sizes are unknown")
         if kind is None:
-            self.ignored.append({"file": rel, "reason": "not Gerber, Excellon, job file or IPC-D-356"})
+            self.ignored.append({"file": rel, "reason": why_not(path)})
             return
         self.fab.append(FabFile(rel, path, kind))
 

@@ -28,6 +28,8 @@ class CopperLayer:
     flash_part: list = field(default_factory=list)        # (refdes, pin) or None
     # dark regions: (polygon, net, function)
     regions: list = field(default_factory=list)
+    repaired_regions: int = 0
+    skipped_objects: int = 0
 
     @property
     def index(self):
@@ -52,6 +54,7 @@ class DrillFile:
     hole_is_via: list = field(default_factory=list)   # True / False / None per hole
     identified_by: str = ""
     number_format: str = ""
+    skipped: int = 0
 
     @property
     def hole_count(self):

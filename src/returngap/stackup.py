@@ -41,12 +41,14 @@ def from_job(job, n_layers, notes):
             pending = []
             coppers.append(it)
             t = _num(it.get("Thickness"))
-            if t:
+            if t and 0.0 < t < 1.0:
                 copper_t[f"L{len(coppers)}"] = t
         elif typ == "dielectric" and coppers:
             t = _num(it.get("Thickness"))
             er = _num(it.get("DielectricConstant"))
-            if t is None:
+            if er is not None and not 1.0 <= er <= 50.0:
+                er = None
+            if t is None or not 0.0 < t <= 20.0:
                 notes.append(f"job file: dielectric {it.get('Name', '?')} has no thickness; stackup from the job file not used")
                 return None
             if er is None:
@@ -55,6 +57,9 @@ def from_job(job, n_layers, notes):
             pending.append((t, er))
     if len(coppers) != n_layers or len(diels) != n_layers - 1:
         notes.append(f"job file: MaterialStackup lists {len(coppers)} copper layers, the Gerbers {n_layers}; not used")
+        return None
+    if any(not parts for parts in diels):
+        notes.append("job file: a copper layer pair has no dielectric between them; stackup from the job file not used")
         return None
     dielectrics = []
     for i, parts in enumerate(diels):
@@ -97,11 +102,11 @@ def default(n_layers, board_mm, er, cu, notes):
     core = board_mm - cu * n_layers
     if n_layers == 1:
         return Stackup([], copper_t, board_mm, "default")
-    if n_layers >= 4:
-        inner = (core - 2 * DEFAULT_OUTER_PREPREG_MM) / (n_layers - 3)
+    inner = (core - 2 * DEFAULT_OUTER_PREPREG_MM) / (n_layers - 3) if n_layers >= 4 else 0.0
+    if n_layers >= 4 and inner >= 0.05:
         th = [DEFAULT_OUTER_PREPREG_MM] + [inner] * (n_layers - 3) + [DEFAULT_OUTER_PREPREG_MM]
     else:
-        th = [core / (n_layers - 1)] * (n_layers - 1)
+        th = [max(core, 0.05 * (n_layers - 1)) / (n_layers - 1)] * (n_layers - 1)
     dielectrics = [Dielectric((f"L{i + 1}", f"L{i + 2}"), t, er, "default") for i, t in enumerate(th)]
     notes.append(f"no stackup given: assumed {board_mm} mm board, {n_layers} layers, "
                  f"dielectrics {', '.join(f'{t:.3f}' for t in th)} mm top to bottom, er = {er}, copper {cu * 1000:.0f} um")
@@ -119,6 +124,8 @@ def build_stackup(board, cfg=None):
         if board_mm is None:
             gs = board.job.get("GeneralSpecs", {}) if isinstance(getattr(board, "job", None), dict) else {}
             board_mm = _num(gs.get("BoardThickness")) if isinstance(gs, dict) else None
+            if board_mm is not None and not 0.1 <= board_mm <= 20.0:
+                board_mm = None
         st = default(n, board_mm or DEFAULT_BOARD_MM, cfg.get("er", DEFAULT_ER),
                      cfg.get("copper_thickness_mm", DEFAULT_COPPER_MM), notes)
     for note in notes:
