@@ -3,7 +3,7 @@ PYTHON ?= $(shell for p in python3.12 $$(ls -d /root/.pyenv/versions/3.12*/bin/p
 VENV := .venv
 BIN := $(VENV)/bin
 
-.PHONY: venv demo test bench corpus clean
+.PHONY: venv demo test bench corpus fuzz clean
 
 $(BIN)/returngap: pyproject.toml
 	@test -n "$(PYTHON)" || { echo "error: Python 3.12 or newer not found (set PYTHON=...)"; exit 2; }
@@ -23,6 +23,9 @@ test: venv
 
 corpus: venv
 	RETURNGAP_SLOW=1 $(BIN)/python -m pytest tests/test_corpus.py -k check_runs --durations=0
+
+fuzz: venv
+	FUZZ_N=50000 FUZZ_CORPUS_N=2000 $(BIN)/python -m pytest tests/test_bad_inputs.py -k "mutated"
 
 bench: venv
 	@echo "bench: not yet (benchmark issue open)"

@@ -138,3 +138,30 @@ def test_arbitrary_bytes_next_to_a_good_layer(tmp_path_factory, blob, name):
     _seed_board(folder)
     (folder / name).write_bytes(blob)
     assert _run_bounded(folder) in ("report", "error")
+
+
+def test_mutated_corpus_copper_file(tmp_path):
+    """A real copper layer (KiCad X2 output), mutated: a report or a clear error, every time."""
+    from conftest import corpus_board
+    src = corpus_board("poe-gpib-adapter") / "PoE_Ethernet_GPIB_Adapter-In1_Cu.gbr"
+    data = src.read_bytes()
+    rng = random.Random(7)
+    for i in range(int(os.environ.get("FUZZ_CORPUS_N", "60"))):
+        p = tmp_path / f"m{i}.gbr"
+        p.write_bytes(mutate(data, rng))
+        try:
+            importer.load_board([p])
+        except InputError:
+            pass
+        p.unlink()
+
+
+def test_csv_is_deterministic(tmp_path):
+    from click.testing import CliRunner
+    from conftest import ROOT
+    from returngap.cli import main
+    for k in ("a", "b"):
+        CliRunner().invoke(main, ["check", str(ROOT / "examples" / "demo-board"), "--out", str(tmp_path / k),
+                                  "--fail-on", "never", "-q"])
+    for name in ("findings.json", "findings.csv", "junit.xml"):
+        assert (tmp_path / "a" / name).read_bytes() == (tmp_path / "b" / name).read_bytes(), name
