@@ -9,7 +9,7 @@ $(BIN)/returngap: pyproject.toml
 	@test -n "$(PYTHON)" || { echo "error: Python 3.12 or newer not found (set PYTHON=...)"; exit 2; }
 	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install -q --upgrade pip
-	$(BIN)/python -m pip install -q -e '.[test]'
+	$(BIN)/python -m pip install -q -e '.[test,dask]'
 	@touch $(BIN)/returngap
 
 venv: $(BIN)/returngap

@@ -4,6 +4,7 @@ Exit status: 0 clean, 1 findings at or above --fail-on, 2 bad input or usage.
 """
 
 import os
+import shutil
 import sys
 import traceback
 import warnings
@@ -159,6 +160,63 @@ def check(ctx, board, stackup_file, rise_ns, max_ghz, net_globs, json_file, out_
         counted = [f for f in rep["findings"] if f["severity"] in bad and not f.get("waiver")
                    and (not new_only or f.get("status") == "new")]
         return 1 if counted else 0
+    sys.exit(_run(ctx, go))
+
+
+@main.command()
+@click.argument("sources", nargs=-1, required=True, type=click.Path())
+@click.option("--out", "out_dir", required=True, type=click.Path(), help="Output folder (nothing is written elsewhere).")
+@click.option("--jobs", type=click.IntRange(min=1, max=64), default=2, show_default=True, help="Boards at a time.")
+@click.option("--stackup-dir", type=click.Path(file_okay=False), help="Folder of <board name>.toml stackup files.")
+@click.option("--rise-time", "rise_ns", type=click.FloatRange(min=1e-4, max=1e3), help="10-90 % rise time, ns.")
+@click.option("--max-freq", "max_ghz", type=click.FloatRange(min=1e-4, max=1e3), help="Highest frequency, GHz.")
+@click.option("--fail-on", type=click.Choice(["error", "warning", "never"]), default="error", show_default=True)
+@click.option("--time-limit", "time_limit_s", type=click.FloatRange(min=1), default=900, show_default=True,
+              help="Seconds per board.")
+@click.option("--memory-limit", "memory_limit_mb", type=click.IntRange(min=256), default=4096, show_default=True,
+              help="MB of address space per board worker.")
+@click.option("--force", is_flag=True, help="Redo boards whose input and settings are unchanged.")
+@click.option("--scheduler", help="Address of a Dask distributed scheduler (optional extra 'dask').")
+@click.option("--quiet", "-q", is_flag=True, help="Print only the summary line.")
+@click.pass_context
+def audit(ctx, sources, out_dir, jobs, stackup_dir, rise_ns, max_ghz, fail_on, time_limit_s, memory_limit_mb, force,
+          scheduler, quiet):
+    """Audit many board archives or folders: one report folder per board and a batch summary."""
+    from . import audit as batch
+    from .projector import Settings
+
+    if rise_ns and max_ghz:
+        raise click.UsageError("give --rise-time or --max-freq, not both")
+    settings = Settings()
+    if rise_ns:
+        settings.rise_time_ns = rise_ns
+    s = {"rise_time_ns": settings.rise_time_ns, "max_freq_GHz": max_ghz}
+
+    def go():
+        out = Path(out_dir)
+        out.mkdir(parents=True, exist_ok=True)
+        tasks = batch.make_tasks(sources, out, s, stackup_dir, fail_on, force, time_limit_s, memory_limit_mb)
+        if not tasks:
+            raise InputError(", ".join(sources), "no board archives or fabrication folders found")
+        bar = None
+        if not quiet and sys.stderr.isatty() and not os.environ.get("CI"):
+            from tqdm import tqdm
+            bar = tqdm(total=len(tasks), desc="boards", file=sys.stderr, leave=False)
+        rows = batch.run_tasks(tasks, jobs, scheduler, progress=(lambda r: bar.update(1)) if bar else None)
+        if bar:
+            bar.close()
+        data = batch.write_summary(out, rows)
+        shutil.rmtree(out / ".work", ignore_errors=True)
+        if not quiet:
+            for r in rows:
+                extra = r.get("reason") or r.get("worst") or ""
+                click.echo(f"{r['status']:8} {r['board']:40} E{r['error']} W{r['warning']} I{r['info']} "
+                           f"{'(unchanged) ' if r.get('skipped') else ''}{extra[:90]}")
+        t = data["totals"]
+        done = sum(1 for r in rows if not r.get("skipped"))
+        click.echo(f"returngap audit: {len(rows)} board(s): {t['ok']} ok, {t['findings']} with findings, "
+                   f"{t['failed']} failed; {done} run, {len(rows) - done} unchanged; summary in {out / 'summary.html'}")
+        return 1 if t["findings"] or t["failed"] else 0
     sys.exit(_run(ctx, go))
 
 

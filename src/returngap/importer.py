@@ -565,9 +565,9 @@ def _guarded(name, fn, *args):
         raise InputError(name, f"cannot build its geometry ({type(e).__name__}: {str(e)[:120]})")
 
 
-def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_MM):
+def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_MM, scratch=None):
     """Read a board (folder, zip or file list) into the board model."""
-    with BoardFiles(sources) as bf:
+    with BoardFiles(sources, scratch) as bf:
         texts = {f.name: read_text(f) for f in bf.fab if f.kind in ("gerber", "excellon", "job")}
         notes = []
         job, job_name = {}, None

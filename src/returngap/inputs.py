@@ -133,7 +133,8 @@ def why_not(path):
 class BoardFiles:
     """The fabrication files of one board, and what was ignored; owns any temporary folder."""
 
-    def __init__(self, sources):
+    def __init__(self, sources, scratch=None):
+        """scratch: folder for unpacking archives (a private temporary folder inside it)."""
         self._tmp = None
         self.fab = []
         self.ignored = []
@@ -149,9 +150,13 @@ class BoardFiles:
             self.source = str(sources[0])
             if not sources[0].is_file():
                 raise InputError(sources[0], "no such file")
-            self._tmp = tempfile.mkdtemp(prefix="returngap-")
-            unpack_zip(sources[0], self._tmp)
-            self._scan_dir(Path(self._tmp))
+            self._tmp = tempfile.mkdtemp(prefix="returngap-", dir=scratch)
+            try:
+                unpack_zip(sources[0], self._tmp)
+                self._scan_dir(Path(self._tmp))
+            except BaseException:
+                self.close()
+                raise
         else:
             self.name = sources[0].resolve().parent.name
             self.source = ", ".join(str(s) for s in sources)
@@ -160,6 +165,7 @@ class BoardFiles:
                     raise InputError(s, "no such file")
                 self._consider(s, s.name)
         if not self.fab:
+            self.close()
             if len(self.ignored) == 1:
                 raise InputError(self.ignored[0]["file"], self.ignored[0]["reason"])
             raise InputError(self.source, "no Gerber or Excellon files found")
