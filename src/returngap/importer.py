@@ -332,8 +332,10 @@ def build_layer(fab, g, role, outline, tol):
             if isinstance(obj.aperture, CircleAperture) and w > 0:
                 if pts[0] == pts[-1] and len(pts) == 2:
                     runs[-1][1].append(shapely.Point(pts[0]).buffer(w / 2, quad_segs=shapes.quad_segs_for(w / 2, tol)))
+                elif round_lines and round_lines[-1][1] == w / 2 and round_lines[-1][0][-1] == pts[0]:
+                    round_lines[-1][0].extend(pts[1:])  # a continuing stroke: one polyline, one buffer
                 else:
-                    round_lines.append((pts, w / 2))
+                    round_lines.append((list(pts), w / 2))
             else:
                 runs[-1][1].append(shapes.stroke_shape(pts, obj.aperture, aps, tol))
             if dark:
