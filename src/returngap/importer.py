@@ -609,9 +609,9 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
                              "(split into valid parts)")
             if role.polarity == "negative" and provisional is None:
                 raise InputError(name, "negative-polarity copper needs a board profile file")
-        all_copper = shapely.union_all([l.geometry for l in layers])
         if outline is None:
-            hull = all_copper.convex_hull if not all_copper.is_empty else shapely.Polygon()
+            pts = shapely.get_coordinates(np.array([l.geometry.convex_hull for l in layers], dtype=object))
+            hull = shapely.MultiPoint(pts).convex_hull if len(pts) >= 3 else shapely.Polygon()
             outline = hull
             notes.append("no usable board profile file" + (f" ({outline_file} has no closed outline)" if outline_file else "")
                          + "; board outline taken as the convex hull of all copper")
