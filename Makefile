@@ -28,7 +28,7 @@ fuzz: venv
 	FUZZ_N=50000 FUZZ_CORPUS_N=2000 $(BIN)/python -m pytest tests/test_bad_inputs.py -k "mutated"
 
 bench: venv
-	@echo "bench: not yet (benchmark issue open)"
+	$(BIN)/python benchmarks/run.py
 
 clean:
 	rm -rf $(VENV) out

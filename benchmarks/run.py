@@ -1,0 +1,104 @@
+"""make bench: gerbonara's parse of the same files (the floor) against the full check, side by side.
+
+Each measurement runs in its own process; reported per case: both times, their ratio, peak memory
+of the check, and the fitted scaling exponent of the check time against segment count.
+"""
+
+import json
+import math
+import os
+import resource
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+ROOT = HERE.parent
+CORPUS = ROOT.parent / "shared" / "corpus"
+CORPUS_CASES = {"poe-gpib-adapter": None, "vesc-4.12": None, "ulx3s-v3.1.1": None, "mch2022-badge": None}
+
+PARSE = """
+import sys, warnings, time
+warnings.simplefilter("ignore")
+from pathlib import Path
+from gerbonara import GerberFile, ExcellonFile
+from returngap.inputs import BoardFiles
+t = time.perf_counter()
+with BoardFiles(sys.argv[1]) as bf:
+    for f in bf.fab:
+        text = f.path.read_text(encoding="latin-1")
+        if f.kind == "gerber":
+            GerberFile.from_string(text, filename=f.name)
+        elif f.kind == "excellon":
+            try:
+                ExcellonFile.from_string(text, filename=f.name)
+            except Exception:
+                pass
+print(time.perf_counter() - t)
+"""
+
+CHECK = """
+import sys, time, warnings
+warnings.simplefilter("ignore")
+t = time.perf_counter()
+from returngap.pipeline import run_check
+r = run_check(sys.argv[1], sys.argv[2] if len(sys.argv) > 2 and sys.argv[2] else None)
+segs = sum(len(l.segments) for l in r.board.copper)
+print(time.perf_counter() - t, segs, len(r.findings))
+"""
+
+
+def run(code, *args):
+    t0 = time.perf_counter()
+    p = subprocess.run([sys.executable, "-c", code, *map(str, args)], capture_output=True, text=True)
+    wall = time.perf_counter() - t0
+    if p.returncode != 0:
+        raise RuntimeError(p.stderr[-500:])
+    ru = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return p.stdout.split(), wall, ru.ru_maxrss / 1024
+
+
+def main():
+    sizes = [int(x) for x in os.environ.get("BENCH_SIZES", "2500,10000,40000").split(",")]
+    tmp = Path(tempfile.mkdtemp(prefix="returngap-bench-"))
+    subprocess.run([sys.executable, str(HERE / "make_boards.py"), str(tmp), *map(str, sizes)], check=True,
+                   capture_output=True)
+    cases = [(f"synthetic {n}", tmp / f"seg{n}", None, n) for n in sizes]
+    for slug, stack in CORPUS_CASES.items():
+        if (CORPUS / slug).exists():
+            cases.append((slug, CORPUS / slug, stack, None))
+    rows = []
+    print(f"{'case':26} {'segments':>9} {'parse s':>8} {'check s':>8} {'ratio':>6} {'check MiB':>9} {'findings':>8}")
+    for name, path, stack, _ in cases:
+        (tp,), _, _ = run(PARSE, path)
+        (tc, segs, nf), _, _ = run(CHECK, path, stack or "")
+        # peak memory of the check alone: a fresh measurement with /usr/bin/time-like accounting
+        p = subprocess.run([sys.executable, "-c", "import resource,subprocess,sys;"
+                            "subprocess.run([sys.executable,'-c',sys.argv[1],sys.argv[2],sys.argv[3]]);"
+                            "print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)", CHECK, str(path),
+                            stack or ""], capture_output=True, text=True)
+        mem = int(p.stdout.split()[-1]) / 1024
+        tp, tc = float(tp), float(tc)
+        rows.append({"case": name, "segments": int(segs), "parse_s": tp, "check_s": tc, "ratio": tc / tp,
+                     "check_peak_MiB": mem, "findings": int(nf)})
+        r = rows[-1]
+        print(f"{name:26} {r['segments']:>9} {tp:>8.2f} {tc:>8.2f} {r['ratio']:>6.1f} {mem:>9.0f} {r['findings']:>8}")
+    synth = [r for r in rows if r["case"].startswith("synthetic")]
+    if len(synth) >= 2:
+        xs = [math.log(r["segments"]) for r in synth]
+        ys = [math.log(r["check_s"]) for r in synth]
+        mx, my = sum(xs) / len(xs), sum(ys) / len(ys)
+        exponent = sum((x - mx) * (y - my) for x, y in zip(xs, ys)) / sum((x - mx) ** 2 for x in xs)
+    else:
+        exponent = float("nan")
+    ratios = sorted(r["ratio"] for r in rows)
+    median = ratios[len(ratios) // 2] if len(ratios) % 2 else (ratios[len(ratios) // 2 - 1] + ratios[len(ratios) // 2]) / 2
+    (ROOT / "out").mkdir(exist_ok=True)
+    (ROOT / "out" / "bench.json").write_text(json.dumps({"rows": rows, "exponent": exponent}, indent=1))
+    print(f"bench: ratio_check_to_parse={median:.2f} exponent={exponent:.2f}")
+
+
+if __name__ == "__main__":
+    main()
