@@ -95,3 +95,22 @@ def test_resonance_below_knee_raises_severity(tmp_path):
     g = lambda fs: [x for x in fs if x["kind"] == "gap-crossing"][0]
     order = {"info": 0, "warning": 1, "error": 2}
     assert order[g(fast)["severity"]] > order[g(slow)["severity"]]
+
+
+def test_return_split_two_branches(tmp_path):
+    # slot D = 20 crossed so that the far way round is twice the near one:
+    # near end 20/3 away, far end 40/3 away; equal widths -> the short branch carries 2/3 at DC (Ohm's law)
+    from boards import slot_board
+    D = 20.0
+    s = 0.5
+    near = (D - s / 2) / 3  # so that 2 * far + s = 2 * (2 * near + s)
+    f = kinds(slot_board(tmp_path, D=D, s=s, offset=D / 2 - near), "return-split")
+    assert len(f) == 1
+    near, far = f[0]["branch_lengths_mm"]
+    assert far / near == pytest.approx(2.0, rel=0.02)
+    assert f[0]["dc_share_near"] == pytest.approx(far / (near + far), rel=1e-9)
+    assert f[0]["dc_share_near"] == pytest.approx(2 / 3, rel=0.02)
+    # inductance grows faster than length (l ln l): at high frequency even more goes the near way
+    assert f[0]["hf_share_near"] > f[0]["dc_share_near"]
+    # Rosa / Grover partial inductance (REFERENCE 10 #21 without the internal term): l = 10, r = 0.1 -> 8.617 nH
+    assert physics.wire_partial_inductance_nH(10, 0.1) == pytest.approx(8.617, rel=1e-3)

@@ -497,6 +497,7 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         "reflection_fraction": refl, "z0_ohm": z0, "trace_width_mm": w, "height_mm": ref.h_mm,
         "line_type": ref.kind, "plane_share": ref.share, "crossing": ev,
         "detour_path_mm": [[round(a, 4), round(b, 4)] for a, b in path] if path else None,
+        "slot_ends_mm": [l_closed, l_open] if void.enclosed and gap_type == "slot" else None,
         "message": msg,
     }
 

@@ -254,3 +254,13 @@ def two_branch_shares(r1_ohm, r2_ohm, l1_nH, l2_nH):
 def copper_resistance_ohm(length_mm, width_mm, thickness_mm, resistivity_ohm_m=1.68e-8):
     """DC resistance of a copper strip: rho * l / (w * t) (copper 1.68e-8 ohm m, handbook value)."""
     return resistivity_ohm_m * (length_mm * 1e-3) / (width_mm * 1e-3 * thickness_mm * 1e-3)
+
+
+def wire_partial_inductance_nH(length_mm, radius_mm):
+    """Partial self-inductance of a straight conductor, high-frequency form (no internal term):
+    (mu0/2pi) * [l*ln((l + sqrt(l^2 + r^2))/r) - sqrt(l^2 + r^2) + r] (Rosa 1908; Grover 1946)."""
+    l, r = length_mm, radius_mm
+    if l <= 0 or r <= 0:
+        return 0.0
+    q = math.sqrt(l * l + r * r)
+    return MU0_NH_PER_MM / (2 * math.pi) * (l * math.log((l + q) / r) - q + r)

@@ -30,5 +30,5 @@ def run_check(sources, stackup_file=None, settings=None, scratch=None):
     refs, planes = projector.references(board, nets, settings)
     chains = projector.chains(board, nets, refs, settings)
     findings = detector.detect_gap_crossings(board, nets, refs, chains, settings)
-    findings += hazards.detect_all(board, nets, refs, chains, settings)
+    findings += hazards.detect_all(board, nets, refs, chains, settings, gap_findings=findings)
     return CheckResult(board, nets, refs, planes, chains, findings, settings)
