@@ -54,7 +54,8 @@ def discover(sources):
             dirnames.sort()
             if looks_like_fab_set(d):
                 found.append(d)
-                dirnames[:] = []  # a fabrication set's subfolders belong to it
+                dirnames[:] = []  # a fabrication set's subfolders and archives belong to it
+                continue
             for fn in sorted(filenames):
                 if fn.lower().endswith(".zip") and not (d / fn).is_symlink():
                     found.append(d / fn)
