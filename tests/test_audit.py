@@ -163,3 +163,17 @@ def test_time_limit_marks_the_board_failed(tmp_path):
     p = _audit(tmp_path / "in", "--out", tmp_path / "out", "--time-limit", "1")
     data, rows = _rows(tmp_path / "out")
     assert rows["slow"]["status"] == "failed" and "time limit" in rows["slow"]["reason"]
+
+
+def test_discovery_of_gerber_and_drill_sibling_folders(tmp_path):
+    # some exports put Gerbers in one folder and drills in a sibling: that parent is one board
+    from returngap.audit import discover
+    board = slot_board(tmp_path / "seed")
+    root = tmp_path / "tree" / "rev-c"
+    (root / "Gerber").mkdir(parents=True)
+    (root / "NC Drill").mkdir()
+    for p in board.iterdir():
+        (root / ("NC Drill" if p.suffix == ".drl" else "Gerber") / p.name).write_bytes(p.read_bytes())
+    (tmp_path / "tree" / "notes.md").write_text("%FSLAX46Y46*% is how a Gerber file starts\n")
+    found = discover([tmp_path / "tree"])
+    assert [p for _, p in found] == [root]

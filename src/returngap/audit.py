@@ -21,7 +21,7 @@ from concurrent.futures import ThreadPoolExecutor, as_completed
 from pathlib import Path
 
 from . import __version__
-from .inputs import sniff
+from .inputs import is_fab_candidate, sniff
 
 FORMAT = "returngap-audit"
 
@@ -34,9 +34,28 @@ def _slug(text):
 def looks_like_fab_set(folder):
     """A folder holding at least one Gerber file of its own (not only in subfolders)."""
     try:
-        return any(p.is_file() and not p.is_symlink() and sniff(p) == "gerber" for p in folder.iterdir())
+        return _has_kind(folder, "gerber")
     except OSError:
         return False
+
+
+def _has_kind(folder, kind):
+    try:
+        return any(p.is_file() and not p.is_symlink() and is_fab_candidate(p) and sniff(p) == kind
+                   for p in folder.iterdir())
+    except OSError:
+        return False
+
+
+def looks_like_split_set(folder):
+    """Gerbers in one subfolder and drills in a sibling (as some EDA exports write them): one board."""
+    try:
+        subs = [c for c in folder.iterdir() if c.is_dir() and not c.is_symlink()]
+    except OSError:
+        return False
+    gerber_only = [c for c in subs if _has_kind(c, "gerber") and not _has_kind(c, "excellon")]
+    drill_only = [c for c in subs if _has_kind(c, "excellon") and not _has_kind(c, "gerber")]
+    return 2 <= len(subs) <= 4 and len(gerber_only) == 1 and len(drill_only) == 1
 
 
 def discover(sources):
@@ -52,7 +71,7 @@ def discover(sources):
         for dirpath, dirnames, filenames in os.walk(src, followlinks=False):
             d = Path(dirpath)
             dirnames.sort()
-            if looks_like_fab_set(d):
+            if looks_like_fab_set(d) or looks_like_split_set(d):
                 found.append(d)
                 dirnames[:] = []  # a fabrication set's subfolders and archives belong to it
                 continue

@@ -88,6 +88,13 @@ def unpack_zip(archive, dest):
     return dest
 
 
+def is_fab_candidate(path):
+    """Not ignored by name (metadata, documents) before its content is looked at."""
+    name = path.name.lower()
+    return not (name in JUNK_NAMES or name.startswith("._") or
+                (path.suffix.lower() in NON_FAB_SUFFIXES and path.suffix.lower() != ".gbrjob"))
+
+
 def sniff(path):
     """Which fabrication format a file holds, from its content; None when it is none of them."""
     try:
@@ -105,7 +112,8 @@ def sniff(path):
         return "job"
     if re.search(r"^P\s+UNITS\s+CUST|^P\s+JOB\b", text, re.M) and re.search(r"^3[0-9]{2}", text, re.M):
         return "ipc356"
-    if re.search(r"%FS[LT]?[AI]?X\d\dY\d\d", text) or re.search(r"%MO(MM|IN)\*%", text):
+    if re.search(r"^\s*(?:G0?4[^\n]*\*\s*)?%FS[LTD]?[AI]?X\d\dY\d\d", text, re.M) or \
+            re.search(r"^\s*%MO(MM|IN)\*%", text, re.M):
         return "gerber"
     if re.search(r"^\s*M48\s*$", text, re.M) or (re.search(r"^(METRIC|INCH)\b", text, re.M)
                                                  and re.search(r"^T\d+C[\d.]+", text, re.M)):
