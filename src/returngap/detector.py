@@ -18,6 +18,7 @@ import numpy as np
 import shapely
 
 from . import physics
+from .projector import line_z0
 
 EPS = 1e-6
 STEP_OFF_MM = 0.01     # how far beyond a gap's edge the detour path starts and ends
@@ -295,7 +296,7 @@ def detect_gap_crossings(board, nets, refs, chains, settings):
             if fp.is_empty:
                 continue
             # the reference net: the plane net under most of the centre line
-            ref_net = _majority_net(ln, nets.plane_nets, ch.line)
+            ref_net = majority_net(ln, nets.plane_nets, ch.line)
             if ref_net is None:
                 continue
             rc = copper_cache.get(ref_layer)
@@ -363,7 +364,7 @@ def _local_geodesic(island, pa, pb, void_geom, hw):
         r *= 3
 
 
-def _majority_net(ln, plane_nets, line, samples=17):
+def majority_net(ln, plane_nets, line, samples=17):
     """Plane net under most sample points of a centre line (None when no plane copper is under it)."""
     pts = shapely.line_interpolate_point(line, np.linspace(0, 1, samples), normalized=True)
     cand = ln.tree.query(pts)
@@ -459,10 +460,10 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
     vals = [v for v in (l_hsdd, l_stub) if v > 0]
     est = math.sqrt(l_hsdd * l_stub) if len(vals) == 2 else (vals[0] if vals else 0.0)
     lo, hi = (min(vals), max(vals)) if vals else (0.0, 0.0)
-    z0 = _z0(ch, ref, board)
+    z0 = line_z0(board, ch.layer, ch.width_mm, ref)
     refl = physics.series_inductance_reflection(est, z0, settings.rise_ns)
     f_res = physics.slot_resonance_GHz(slot_len, ref.plane_er_eff, open_at_one_end=open_one_end)
-    f_res_low = physics.slot_resonance_GHz(slot_len, max(ref.plane_er_eff, _buried_er(ref)), open_at_one_end=open_one_end)
+    f_res_low = physics.slot_resonance_GHz(slot_len, ref.plane_er_full, open_at_one_end=open_one_end)
     if split:
         severity = "error"
     elif refl >= settings.reflection_budget:
@@ -500,15 +501,3 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         "slot_ends_mm": [l_closed, l_open] if void.enclosed and gap_type == "slot" else None,
         "message": msg,
     }
-
-
-def _buried_er(ref):
-    # lower resonance bound on an outer plane: the full substrate permittivity
-    return 2 * ref.plane_er_eff - 1 if ref.plane_is_outer else ref.plane_er_eff
-
-
-def _z0(ch, ref, board):
-    t = board.stackup.copper_thickness_mm.get(ch.layer, 0.035)
-    if ref.other_h_mm is None:
-        return physics.microstrip_z0_eeff(ch.width_mm, ref.h_mm, ref.er, t)[0]
-    return physics.stripline_z0(ch.width_mm, ref.h_mm + ref.other_h_mm, ref.er)

@@ -9,7 +9,8 @@ import numpy as np
 import shapely
 
 from . import physics
-from .detector import _majority_net, stable_id
+from .detector import majority_net, stable_id
+from .projector import line_z0
 
 DEFAULT_PART_LOOP_NH = 1.0  # mounted two-terminal capacitor loop, typically 0.5-1.5 nH (from memory)
 
@@ -38,13 +39,6 @@ def _finding(kind, severity, net, layer, x, y, message, **extra):
 
 def _grade(reflection, budget):
     return "error" if reflection >= budget else ("warning" if reflection >= budget / 2 else "info")
-
-
-def _z0(board, layer, width, ref):
-    t = board.stackup.copper_thickness_mm.get(layer, 0.035)
-    if ref.other_h_mm is None:
-        return physics.microstrip_z0_eeff(width, ref.h_mm, ref.er, t)[0]
-    return physics.stripline_z0(width, ref.h_mm + ref.other_h_mm, ref.er)
 
 
 def _plated_holes(board, nets):
@@ -133,7 +127,7 @@ def reference_changes(board, nets, refs, settings):
         if na is None or nb is None:
             continue
         h = board.stackup.height_mm(ra.layer, rb.layer)
-        z0 = _z0(board, la, wa, ra)
+        z0 = line_z0(board, la, wa, ra)
         rv = max(r, 0.05)
         common = dict(reference_layer=ra.layer, reference_net=na, other_reference_layer=rb.layer,
                       other_reference_net=nb, to_layer=lb, plane_spacing_mm=h, z0_ohm=z0)
@@ -196,7 +190,7 @@ def edge_runs(board, nets, refs, chains, settings, hs):
         if ref is None:
             continue
         ln = nets.layers[ref.layer]
-        net = _majority_net(ln, nets.plane_nets, ch.line)
+        net = majority_net(ln, nets.plane_nets, ch.line)
         if net is None:
             continue
         if ref.layer not in edges:

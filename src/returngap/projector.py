@@ -63,7 +63,7 @@ class Reference:
     er: float                   # dielectric between signal and plane
     plane_is_outer: bool
     plane_er_eff: float         # for slot resonance: er buried, (er+1)/2 on an outer layer
-    plane_er_low: float         # lower bound of the slot's effective permittivity
+    plane_er_full: float        # the substrate's own er: the conservative (lowest-frequency) bound
 
     @property
     def kind(self):
@@ -115,10 +115,17 @@ def references(board, nets, settings):
             outer = r in (names[0], names[-1])
             er_plane = _er_around(st, r, len(names))
             refs.append(Reference(r, h, oh, share, st.er_between(name, r), outer,
-                                  (er_plane + 1) / 2 if outer else er_plane,
-                                  (er_plane + 1) / 2 if outer else er_plane))
+                                  (er_plane + 1) / 2 if outer else er_plane, er_plane))
         out[name] = refs
     return out, planes
+
+
+def line_z0(board, layer, width_mm, ref):
+    """Impedance of a track over its reference: Hammerstad-Jensen microstrip or Cohn stripline."""
+    t = board.stackup.copper_thickness_mm.get(layer, 0.035)
+    if ref.other_h_mm is None:
+        return physics.microstrip_z0_eeff(width_mm, ref.h_mm, ref.er, t)[0]
+    return physics.stripline_z0(width_mm, ref.h_mm + ref.other_h_mm, ref.er)
 
 
 def footprint_halfwidth(width_mm, ref, fraction):
