@@ -128,3 +128,10 @@ def test_knee_reflection_wavelength():
     assert ph.series_inductance_reflection(4.34, 50, 1.0) == pytest.approx(0.0434, rel=1e-3)
     assert ph.wavelength_mm(1.0, 4.4) / 20 == pytest.approx(7.15, rel=1e-3)
     assert ph.wavelength_mm(1.0, 4.4) / 10 == pytest.approx(14.29, rel=1e-3)
+
+
+def test_wide_stripline_tends_to_parallel_plates():
+    # very wide centred strip: two parallel-plate lines of spacing b/2 in parallel, eta0*b/(4*w*sqrt(er))
+    for w in (20.0, 50.0, 500.0):
+        z = ph.stripline_z0(w, 1.0, 4.3)
+        assert z == pytest.approx(ph.ETA0_OHM * 1.0 / (4 * w * math.sqrt(4.3)), rel=0.03)

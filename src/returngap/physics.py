@@ -113,25 +113,34 @@ def microstrip_z0_eeff(width_mm, h_mm, er, t_mm=0.0):
     return z0, eeff
 
 
+def _agm(a, b):
+    for _ in range(80):
+        a, b = (a + b) / 2.0, math.sqrt(a * b)
+        if abs(a - b) <= 1e-15 * a:
+            break
+    return a
+
+
+def ellipk_c(kc):
+    """K(k) from the complementary modulus kc = sqrt(1 - k^2): pi / (2 * AGM(1, kc)). Given kc directly,
+    it stays accurate where k is within rounding of 1."""
+    return math.inf if kc <= 0 else math.pi / (2.0 * _agm(1.0, kc))
+
+
 def ellipk(k):
     """Complete elliptic integral of the first kind K(k) (modulus k), by the arithmetic-geometric mean."""
-    a, b = 1.0, math.sqrt(max(0.0, 1.0 - k * k))
-    if b == 0:
-        return math.inf
-    for _ in range(60):
-        a, b = (a + b) / 2.0, math.sqrt(a * b)
-        if abs(a - b) < 1e-15 * a:
-            break
-    return math.pi / (2.0 * a)
+    return ellipk_c(math.sqrt(max(0.0, 1.0 - k * k)))
 
 
 def stripline_z0(width_mm, b_mm, er):
     """Centred zero-thickness stripline impedance, exact by conformal mapping:
     Z0 = (30*pi/sqrt(er)) * K(k)/K(k'), k = sech(pi*w/2b). Cohn, IRE Trans. MTT 2, 1954."""
     x = math.pi * width_mm / (2.0 * b_mm)
-    k = 1.0 / math.cosh(x)
-    kp = math.tanh(x)
-    return 30.0 * math.pi / math.sqrt(er) * ellipk(k) / ellipk(kp)
+    sech = 1.0 / math.cosh(x) if x < 700 else 0.0
+    # K(k) / K(k') with k = sech x, k' = tanh x; each from its complement (tanh x, sech x) for accuracy
+    if sech == 0.0:
+        return 30.0 * math.pi / math.sqrt(er) * (math.pi / 2) / (x + math.log(2.0))  # wide-strip limit
+    return 30.0 * math.pi / math.sqrt(er) * ellipk_c(math.tanh(x)) / ellipk_c(sech)
 
 
 def line_inductance_nH_per_mm(z0_ohm, eeff):
@@ -209,7 +218,7 @@ def rise_time_for_knee_ns(freq_GHz):
 def series_inductance_reflection(inductance_nH, z0_ohm, rise_time_ns):
     """Reflected fraction of a step from a series inductance: L / (2*Z0*T_r), valid while
     L/(2 Z0) << T_r (derived; Bogatin, Signal and Power Integrity - Simplified, from memory)."""
-    return inductance_nH / (2.0 * z0_ohm * rise_time_ns)
+    return inductance_nH / (2.0 * max(z0_ohm, 1e-3) * rise_time_ns)
 
 
 def wavelength_mm(freq_GHz, eeff):
