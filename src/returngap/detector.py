@@ -160,7 +160,8 @@ def geodesic(island, a, b, focus, max_nodes=200):
             return None
         free = parts[0]
     # fewer vertices make the many visibility tests cheap; the net effect lets chords graze edges by ~5 um
-    test = free.simplify(0.004, preserve_topology=True).buffer(0.005, quad_segs=2)
+    test = free.buffer(0.005, quad_segs=1) if len(shapely.get_coordinates(free)) < 4000 else \
+        free.simplify(0.003, preserve_topology=True).buffer(0.005, quad_segs=1)
     shapely.prepare(test)
     if not test.covers(pb):
         return None
