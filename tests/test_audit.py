@@ -160,7 +160,7 @@ def test_dask_path_gives_the_same_summary(batch, tmp_path):
 
 def test_time_limit_marks_the_board_failed(tmp_path):
     board = slot_board(tmp_path / "in" / "slow")
-    p = _audit(tmp_path / "in", "--out", tmp_path / "out", "--time-limit", "1")
+    p = _audit(tmp_path / "in", "--out", tmp_path / "out", "--time-limit", "0.2")
     data, rows = _rows(tmp_path / "out")
     assert rows["slow"]["status"] == "failed" and "time limit" in rows["slow"]["reason"]
 

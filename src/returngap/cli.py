@@ -171,7 +171,7 @@ def check(ctx, board, stackup_file, rise_ns, max_ghz, net_globs, json_file, out_
 @click.option("--rise-time", "rise_ns", type=click.FloatRange(min=1e-4, max=1e3), help="10-90 % rise time, ns.")
 @click.option("--max-freq", "max_ghz", type=click.FloatRange(min=1e-4, max=1e3), help="Highest frequency, GHz.")
 @click.option("--fail-on", type=click.Choice(["error", "warning", "never"]), default="error", show_default=True)
-@click.option("--time-limit", "time_limit_s", type=click.FloatRange(min=1), default=900, show_default=True,
+@click.option("--time-limit", "time_limit_s", type=click.FloatRange(min=0.1), default=900, show_default=True,
               help="Seconds per board.")
 @click.option("--memory-limit", "memory_limit_mb", type=click.IntRange(min=256), default=4096, show_default=True,
               help="MB of address space per board worker.")
