@@ -9,8 +9,6 @@ from pathlib import Path
 
 from .audit import base_row
 
-FAIL_LEVELS = {"error": {"error"}, "warning": {"error", "warning"}, "never": set()}
-
 
 def main(argv):
     task_file = Path(argv[1])
@@ -29,7 +27,7 @@ def main(argv):
         rep = report.findings_report(result)
         write_outputs(result, rep, here, task["fail_on"])
         counts = rep["summary"]
-        bad = FAIL_LEVELS[task["fail_on"]]
+        bad = report.FAIL_LEVELS[task["fail_on"]]
         status = "findings" if any(f["severity"] in bad for f in rep["findings"]) else "ok"
         row = base_row(task, status)
         row.update(error=counts["error"], warning=counts["warning"], info=counts["info"],

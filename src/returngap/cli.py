@@ -15,7 +15,6 @@ import click
 from . import __version__, report
 from .errors import InputError
 
-FAIL_LEVELS = {"error": {"error"}, "warning": {"error", "warning"}, "never": set()}
 
 
 def _run(ctx, fn):
@@ -156,7 +155,7 @@ def check(ctx, board, stackup_file, rise_ns, max_ghz, net_globs, json_file, out_
             for w in (rep.get("waivers") or {}).get("stale", []):
                 click.echo(f"stale waiver #{w['waiver']} ({w.get('by')}): matches no finding", err=True)
         click.echo(report.summary_line(rep))
-        bad = FAIL_LEVELS[fail_on]
+        bad = report.FAIL_LEVELS[fail_on]
         counted = [f for f in rep["findings"] if f["severity"] in bad and not f.get("waiver")
                    and (not new_only or f.get("status") == "new")]
         return 1 if counted else 0

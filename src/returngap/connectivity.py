@@ -51,6 +51,18 @@ class Nets:
     def is_signal(self, net):
         return self.net_class.get(net, "signal") == "signal"
 
+    def plated_holes(self, board):
+        """(x, y, radius, net, from, to) of every plated round hole whose net is known."""
+        out = []
+        for d in board.drills:
+            if not d.plated:
+                continue
+            for k, h in enumerate(d.holes):
+                net = self.hole_net.get((d.file, k))
+                if net:
+                    out.append((h[0], h[1], h[2] / 2, net, d.from_layer, d.to_layer))
+        return out
+
 
 def _island_index(layer_islands, tree, xy):
     """Island containing each point; nearest island for points that fall on no copper."""

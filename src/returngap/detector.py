@@ -265,7 +265,7 @@ def slot_geometry(void, mid, tangent, reach, aspect_limit):
         s = float((np.asarray(mid) - centre) @ axis)
         l1, l2 = max(0.0, length / 2 + s), max(0.0, length / 2 - s)
         elongated = width > 0 and length / width >= aspect_limit
-        return dict(length=length, width=width, l1=l1, l2=l2, open_ends=0, elongated=elongated)
+        return dict(length=length, width=width, l1=l1, l2=l2, elongated=elongated)
     l1, l2, end1, end2 = _extent_across(void.geom, mid, perp, reach)
     if l1 + l2 <= 0:  # the cut missed (the crossing runs along the gap): size it by its local outline
         near = void.geom.intersection(shapely.Point(mid).buffer(max(reach / 20, 1.0)))
@@ -273,7 +273,7 @@ def slot_geometry(void, mid, tangent, reach, aspect_limit):
             c = np.asarray(near.minimum_rotated_rectangle.exterior.coords)[:4]
             l1 = l2 = max(np.hypot(*(c[1] - c[0])), np.hypot(*(c[2] - c[1]))) / 2
             end1 = end2 = mid
-    return dict(length=l1 + l2, width=None, l1=l1, l2=l2, end1=end1, end2=end2, elongated=True, open_ends=None)
+    return dict(length=l1 + l2, width=None, l1=l1, l2=l2, end1=end1, end2=end2, elongated=True)
 
 
 def detect_gap_crossings(board, nets, refs, chains, settings):
@@ -282,11 +282,8 @@ def detect_gap_crossings(board, nets, refs, chains, settings):
     copper_cache = {}
     reach = math.hypot(*(np.subtract(board.outline.bounds[2:], board.outline.bounds[:2])))
     own_holes = {}
-    for drill in board.drills:
-        for k, h in enumerate(drill.holes):
-            net = nets.hole_net.get((drill.file, k))
-            if net:
-                own_holes.setdefault(net, []).append((h[0], h[1]))
+    for x, y, _r, net, _a, _b in nets.plated_holes(board):
+        own_holes.setdefault(net, []).append((x, y))
     own_hole_pts = {n: shapely.points(np.array(v)) for n, v in own_holes.items()}
     ref_by_layer = {(s, r.layer): r for s, rs in refs.items() for r in rs}
     seen = set()

@@ -41,19 +41,6 @@ def _grade(reflection, budget):
     return "error" if reflection >= budget else ("warning" if reflection >= budget / 2 else "info")
 
 
-def _plated_holes(board, nets):
-    """(x, y, radius, net, from, to) of every plated round hole whose net is known."""
-    out = []
-    for d in board.drills:
-        if not d.plated:
-            continue
-        for k, h in enumerate(d.holes):
-            net = nets.hole_net.get((d.file, k))
-            if net:
-                out.append((h[0], h[1], h[2] / 2, net, d.from_layer, d.to_layer))
-    return out
-
-
 def _plane_net_near(ln, plane_nets, x, y, reach=2.0):
     """Plane net of the nearest plane copper to a point (a via sits in its own antipad)."""
     p = shapely.Point(x, y)
@@ -92,7 +79,7 @@ def _parts_bridging(board, nets, net_a, net_b):
 def reference_changes(board, nets, refs, settings):
     """Signal vias whose two track layers return in different planes."""
     findings = []
-    holes = _plated_holes(board, nets)
+    holes = nets.plated_holes(board)
     if not holes:
         return findings
     hx = np.array([h[0] for h in holes])
@@ -282,7 +269,7 @@ def floating_copper(board, nets, refs, chains, settings, hs):
 def stitching_spacing(board, nets, refs, chains, settings, hs):
     """Largest gap between neighbouring ground vias of a pour or plane, next to signal tracks, against lambda/10."""
     findings = []
-    holes = _plated_holes(board, nets)
+    holes = nets.plated_holes(board)
     n_layers = len(board.copper)
     for layer in board.copper:
         ln = nets.layers[layer.name]

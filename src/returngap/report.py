@@ -12,6 +12,7 @@ from . import __version__
 DISCLAIMER = ("Estimates for engineering review, from closed-form models; they do not replace field "
               "solving, the board's own EMC test results or the applicable standards.")
 SEVERITY_ORDER = {"error": 0, "warning": 1, "info": 2}
+FAIL_LEVELS = {"error": {"error"}, "warning": {"error", "warning"}, "never": set()}  # --fail-on -> severities
 DECIMALS = 4
 
 
@@ -183,7 +184,7 @@ def to_csv(report):
 def to_junit(report, fail_on="error"):
     """JUnit XML: one test case per check kind and net; failures carry the finding messages."""
     from xml.sax.saxutils import quoteattr, escape
-    bad = {"error": {"error"}, "warning": {"error", "warning"}, "never": set()}[fail_on]
+    bad = FAIL_LEVELS[fail_on]
     cases = {}
     for f in report["findings"]:
         cases.setdefault((f["kind"], f["net"]), []).append(f)
