@@ -13,6 +13,8 @@ from dataclasses import dataclass, field
 import networkx as nx
 import numpy as np
 import shapely
+from scipy.sparse import coo_matrix
+from scipy.sparse.csgraph import connected_components
 
 GROUND_RE = re.compile(r"^(?:[ADPSCH]?GND\w*|GND\w*|VSS\w*|0V|EARTH|CHASSIS|GROUND\w*|\w*_GND|\w*GND)$", re.I)
 POWER_RE = re.compile(r"^(?:\+|-)?(?:V(?:CC|DD|EE|BUS|BAT|IN|IO|REF|CORE|SYS|PP|DDQ|TT)\w*|PWR\w*|POWER\w*|"
@@ -25,19 +27,77 @@ def leaf(name):
     return re.split(r"[/\\]", name)[-1].split("-")[-1].strip()
 
 
-@dataclass
 class LayerNets:
-    name: str
-    islands: np.ndarray               # shapely Polygons
-    island_net: list                  # net name per island
-    tree: shapely.STRtree
-    segment_net: list                 # net name per track segment
-    flash_net: list
-    segment_fill: np.ndarray = None   # True where a segment belongs to a stroke-filled pour
+    """The copper islands of one layer and their nets.
+
+    An island is a connected group of the layer's pieces (drawn shapes that touch or overlap); its
+    polygon is the union of its pieces, built only when a check asks for it (planes, pours, floating
+    copper), so signal tracks are never unioned."""
+
+    def __init__(self, name, pieces, piece_island, island_net, segment_net, flash_net, segment_fill, tree=None):
+        self.name = name
+        self.pieces = pieces
+        self.piece_island = piece_island
+        self.island_net = island_net
+        self.segment_net = segment_net
+        self.flash_net = flash_net
+        self.segment_fill = segment_fill
+        self.tree = tree if tree is not None else shapely.STRtree(pieces)
+        order = np.argsort(piece_island, kind="stable")
+        self._order = order
+        self._start = np.searchsorted(piece_island[order], np.arange(len(island_net) + 1))
+        self._poly = {}
+        self._union = {}
+        self.island_tied = np.zeros(len(island_net), dtype=bool)
+
+    @property
+    def n_islands(self):
+        return len(self.island_net)
+
+    def members(self, i):
+        return self._order[self._start[i]:self._start[i + 1]]
+
+    def island(self, i):
+        """Polygon (rarely a MultiPolygon, where pieces only touch at a point) of island i."""
+        poly = self._poly.get(i)
+        if poly is None:
+            m = self.members(i)
+            poly = self.pieces[m[0]] if len(m) == 1 else shapely.union_all(self.pieces[m])
+            if not poly.is_valid:
+                poly = shapely.make_valid(poly)
+            shapely.prepare(poly)
+            self._poly[i] = poly
+        return poly
+
+    def island_area(self, i):
+        return float(self.island(i).area)
+
+    def islands_of(self, nets):
+        """(index, polygon) of every island whose net is in `nets`."""
+        return [(i, self.island(i)) for i, n in enumerate(self.island_net) if n in nets]
+
+    def union_of(self, nets):
+        """All copper of the given nets on this layer, as one geometry (cached)."""
+        key = frozenset(nets)
+        if key not in self._union:
+            parts = [p for _, p in self.islands_of(key)]
+            self._union[key] = shapely.union_all(parts) if parts else shapely.Polygon()
+        return self._union[key]
+
+    def islands_at(self, pts, distance=0.0):
+        """Island index per point (-1 off copper); with distance > 0, within that distance of copper."""
+        out = np.full(len(pts), -1, dtype=int)
+        if not len(pts) or not len(self.pieces):
+            return out
+        if distance > 0:
+            q = self.tree.query(pts, predicate="dwithin", distance=distance)
+        else:
+            q = touching(self.tree, self.pieces, np.asarray(pts))
+        out[q[0]] = self.piece_island[q[1]]
+        return out
 
     def net_copper(self, net):
-        parts = [p for p, n in zip(self.islands, self.island_net) if n == net]
-        return shapely.union_all(parts) if parts else shapely.Polygon()
+        return self.union_of({net})
 
 
 @dataclass
@@ -64,36 +124,86 @@ class Nets:
         return out
 
 
-def _island_index(layer_islands, tree, xy):
+def touching(tree, pieces, geoms):
+    """(query index, piece index) of each geometry touching or overlapping a piece: bounding boxes
+    from the tree, then exact tests with the larger geometry of each pair prepared (a plane with
+    thousands of antipads is never re-scanned for each pad that sits on it)."""
+    q = tree.query(geoms)
+    if not q.shape[1]:
+        return q
+    return q[:, intersects_pairs(geoms[q[0]], pieces[q[1]])]
+
+
+def intersects_pairs(a, b):
+    """Elementwise intersects, evaluated from the side with more vertices (prepared there)."""
+    b_big = shapely.get_num_coordinates(b) >= shapely.get_num_coordinates(a)
+    ok = np.empty(len(a), dtype=bool)
+    ok[b_big] = shapely.intersects(b[b_big], a[b_big])
+    ok[~b_big] = shapely.intersects(a[~b_big], b[~b_big])
+    return ok
+
+
+def _island_index(piece_island, tree, xy):
     """Island containing each point; nearest island for points that fall on no copper."""
     if len(xy) == 0:
         return np.zeros(0, dtype=int)
     pts = shapely.points(xy)
     out = np.full(len(xy), -1, dtype=int)
-    cand = tree.query(pts)  # bounding boxes, then exact tests on the prepared islands
-    if cand.shape[1]:
-        ok = shapely.intersects(layer_islands[cand[1]], pts[cand[0]])
-        out[cand[0][ok]] = cand[1][ok]
+    cand = touching(tree, tree.geometries, pts)
+    out[cand[0]] = piece_island[cand[1]]
     miss = np.nonzero(out < 0)[0]
     if len(miss):
         near = tree.query_nearest(pts[miss], all_matches=False)
-        out[miss[near[0]]] = near[1]
+        out[miss[near[0]]] = piece_island[near[1]]
     return out
+
+
+def _components(pieces, tree):
+    """Island index per piece: connected components of the touch graph (C-speed, no Python loop)."""
+    n = len(pieces)
+    if not n:
+        return np.zeros(0, dtype=int), 0, np.zeros((2, 0), dtype=int)
+    pairs = tree.query(pieces)
+    pairs = pairs[:, pairs[0] < pairs[1]]
+    pairs = pairs[:, intersects_pairs(pieces[pairs[0]], pieces[pairs[1]])]
+    graph = coo_matrix((np.ones(pairs.shape[1], dtype=np.int8), (pairs[0], pairs[1])), shape=(n, n))
+    count, labels = connected_components(graph, directed=False)
+    # number islands by their first piece, so that names stay stable for the same files
+    first = np.full(count, n, dtype=int)
+    np.minimum.at(first, labels, np.arange(n))
+    rank = np.empty(count, dtype=int)
+    rank[np.argsort(first, kind="stable")] = np.arange(count)
+    return rank[labels], count, pairs
 
 
 FILL_OVERLAP = 1.6  # strokes covering an island this many times over are a pour, not tracks
 
 
-def _fill_segments(layer, islands, seg_isl):
+def _fill_segments(layer, ln, seg_isl, pairs):
     """Segments of islands drawn as overlapping strokes (Eagle-style pours): their stroke area adds
-    up to far more than the island's own area, which single tracks never do."""
+    up to far more than the island's own area, which single tracks never do. Only islands with
+    enough stroke area to qualify are unioned to find out."""
     s = layer.segments
-    if not len(s) or not len(islands):
+    if not len(s) or not ln.n_islands:
         return np.zeros(len(s), dtype=bool)
     stroke = np.hypot(s[:, 2] - s[:, 0], s[:, 3] - s[:, 1]) * s[:, 4]
-    per_island = np.bincount(seg_isl, weights=stroke, minlength=len(islands))
-    area = shapely.area(islands)
-    fill_island = (per_island > FILL_OVERLAP * area) & (area > 2.0)
+    per_island = np.bincount(seg_isl, weights=stroke, minlength=ln.n_islands)
+    count = np.bincount(seg_isl, minlength=ln.n_islands)
+    fill_island = np.zeros(ln.n_islands, dtype=bool)
+    cand = (per_island > FILL_OVERLAP * 2.0) & (count >= 8)
+    if cand.any():
+        # Bonferroni: union area >= sum of piece areas - sum of pairwise overlaps; islands whose bound
+        # already rules a pour out (single tracks: pieces overlap only at their ends) are not unioned
+        area = shapely.area(ln.pieces)
+        lower = np.bincount(ln.piece_island, weights=area, minlength=ln.n_islands)
+        a, b = pairs
+        keep = cand[ln.piece_island[a]]
+        a, b = a[keep], b[keep]
+        overlap = shapely.area(shapely.intersection(ln.pieces[a], ln.pieces[b]))
+        lower -= np.bincount(ln.piece_island[a], weights=overlap, minlength=ln.n_islands)
+        for i in np.nonzero(cand & (per_island > FILL_OVERLAP * lower))[0]:
+            isl_area = ln.island_area(int(i))
+            fill_island[i] = per_island[i] > FILL_OVERLAP * isl_area and isl_area > 2.0
     return fill_island[seg_isl]
 
 
@@ -120,18 +230,18 @@ def build_nets(board, user_cfg=None):
     per_layer = {}
     votes = defaultdict(Counter)
     for li, layer in enumerate(board.copper):
-        islands = np.array([p for p in shapely.get_parts(layer.geometry) if p.geom_type == "Polygon" and p.area > 0],
-                           dtype=object)
-        shapely.prepare(islands)  # point-in-island tests below and in later stages
-        tree = shapely.STRtree(islands)
+        pieces = layer.pieces
+        shapely.prepare(pieces)  # point and hole tests below and in later stages
+        tree = shapely.STRtree(pieces)
+        piece_island, count, pairs = _components(pieces, tree)
         seg_isl = np.zeros(0, dtype=int)
         fl_isl = np.zeros(0, dtype=int)
-        if len(islands):
+        if count:
             s = layer.segments
-            seg_isl = _island_index(islands, tree, np.column_stack([(s[:, 0] + s[:, 2]) / 2, (s[:, 1] + s[:, 3]) / 2]))
-            fl_isl = _island_index(islands, tree, layer.flashes[:, :2])
+            seg_isl = _island_index(piece_island, tree, np.column_stack([(s[:, 0] + s[:, 2]) / 2, (s[:, 1] + s[:, 3]) / 2]))
+            fl_isl = _island_index(piece_island, tree, layer.flashes[:, :2])
             reg_xy = np.array([r[0].representative_point().coords[0] for r in layer.regions]).reshape(-1, 2)
-            reg_isl = _island_index(islands, tree, reg_xy)
+            reg_isl = _island_index(piece_island, tree, reg_xy)
             for isl, net in zip(seg_isl, layer.segment_net):
                 if net:
                     votes[(li, isl)][net] += 1
@@ -141,14 +251,13 @@ def build_nets(board, user_cfg=None):
             for isl, (poly, net, _) in zip(reg_isl, layer.regions):
                 if net:
                     votes[(li, isl)][net] += 5  # a named pour speaks for its island
-        g.add_nodes_from((li, i) for i in range(len(islands)))
-        per_layer[layer.name] = (islands, tree, seg_isl, fl_isl)
+        g.add_nodes_from((li, int(i)) for i in range(count))
+        per_layer[layer.name] = (piece_island, tree, seg_isl, fl_isl, count, pairs)
 
     hole_nodes = {}
     layer_pos = {l.name: i for i, l in enumerate(board.copper)}
+    tied = defaultdict(set)  # islands with a hole or pad in them: not floating
     for drill in board.drills:
-        if not drill.plated:
-            continue
         geoms = list(shapely.buffer(shapely.points(drill.holes[:, :2]), np.maximum(drill.holes[:, 2] / 2, 0.01)))
         geoms += list(shapely.buffer(shapely.linestrings(
             [[(s[0], s[1]), (s[2], s[3])] for s in drill.slots]) if len(drill.slots) else [], drill.slots[:, 4] / 2
@@ -161,12 +270,18 @@ def build_nets(board, user_cfg=None):
             li = layer_pos.get(f"L{ln}")
             if li is None:
                 continue
-            islands, tree, _, _ = per_layer[f"L{ln}"]
-            if not len(islands):
+            piece_island, tree, _, _, count, _ = per_layer[f"L{ln}"]
+            if not count:
                 continue
-            q = tree.query(geoms, predicate="intersects")
-            for h, isl in zip(q[0], q[1]):
-                hits[h].append((li, int(isl)))
+            layer_pieces = board.copper[li].pieces
+            centres = shapely.points(drill.holes[:, :2])
+            tied[li].update(piece_island[touching(tree, layer_pieces, centres)[1]].tolist())
+            if not drill.plated:
+                continue
+            q = touching(tree, layer_pieces, geoms)
+            for h, isl in zip(q[0], piece_island[q[1]]):
+                if not hits[h] or hits[h][-1] != (li, int(isl)):
+                    hits[h].append((li, int(isl)))
         for h, nodes in hits.items():
             hole_nodes[(drill.file, int(h))] = nodes[0]
             for a, b in zip(nodes[:-1], nodes[1:]):
@@ -174,11 +289,11 @@ def build_nets(board, user_cfg=None):
 
     for p in board.netlist:
         for li in (0, len(board.copper) - 1):
-            islands, tree, _, _ = per_layer[board.copper[li].name]
-            if not len(islands):
+            piece_island, tree, _, _, count, _ = per_layer[board.copper[li].name]
+            if not count:
                 continue
-            q = tree.query(shapely.Point(p.x, p.y), predicate="intersects")
-            for isl in q:
+            hit = touching(tree, board.copper[li].pieces, np.array([shapely.Point(p.x, p.y)]))[1]
+            for isl in set(piece_island[hit].tolist()):
                 votes[(li, int(isl))][p.net] += 3
 
     comps = sorted((sorted(c) for c in nx.connected_components(g)), key=lambda c: c[0])
@@ -194,30 +309,43 @@ def build_nets(board, user_cfg=None):
                 node_net[node] = name
         else:
             unnamed.append(comp)
-    # stable generated names: order by the first island's layer and position
+    layers = {}
+    for li, layer in enumerate(board.copper):
+        piece_island, tree, seg_isl, fl_isl, count, pairs = per_layer[layer.name]
+        layers[layer.name] = LayerNets(layer.name, layer.pieces, piece_island, [None] * count, [], [], None, tree)
+    # stable generated names: order by the first island's layer and position (its first piece's bounds)
+
     def key(comp):
         li, i = comp[0]
-        c = per_layer[board.copper[li].name][0][i].centroid
-        return (li, round(c.x, 3), round(c.y, 3))
+        ln = layers[board.copper[li].name]
+        b = ln.pieces[ln.members(i)[0]].bounds
+        return (li, round((b[0] + b[2]) / 2, 3), round((b[1] + b[3]) / 2, 3))
     for k, comp in enumerate(sorted(unnamed, key=key)):
         for node in comp:
             node_net[node] = f"UNNAMED_{k + 1:04d}"
 
-    layers = {}
+    for li, layer in enumerate(board.copper):
+        piece_island, tree, seg_isl, fl_isl, count, pairs = per_layer[layer.name]
+        ln = layers[layer.name]
+        ln.island_net = [node_net[(li, i)] for i in range(count)]
+        ln.segment_net = [ln.island_net[i] for i in seg_isl]
+        ln.flash_net = [ln.island_net[i] for i in fl_isl]
+        ln.island_tied[list(tied[li] | set(fl_isl.tolist()))] = True
+        ln.segment_fill = _fill_segments(layer, ln, seg_isl, pairs)
+    net_class = classify(sorted(set(node_net.values())), user_cfg)
     area_by_net = Counter()
     big = set()
     board_area = board.outline.area or 1.0
     for li, layer in enumerate(board.copper):
-        islands, tree, seg_isl, fl_isl = per_layer[layer.name]
-        inet = [node_net[(li, i)] for i in range(len(islands))]
-        for p, n in zip(islands, inet):
-            area_by_net[n] += p.area
-            if p.area >= PLANE_AREA_FRACTION * board_area:
+        ln = layers[layer.name]
+        total = 0.0
+        for i, n in enumerate(ln.island_net):
+            a = ln.island_area(i)
+            area_by_net[n] += a
+            total += a
+            if a >= PLANE_AREA_FRACTION * board_area:
                 big.add(n)
-        layers[layer.name] = LayerNets(layer.name, islands, inet, tree,
-                                       [inet[i] for i in seg_isl], [inet[i] for i in fl_isl],
-                                       _fill_segments(layer, islands, seg_isl))
-    net_class = classify(sorted(set(node_net.values())), user_cfg)
+        layer._area = total
     notes = []
     if not any(c == "ground" for c in net_class.values()) and area_by_net:
         gnd = max(area_by_net.items(), key=lambda kv: (kv[1], kv[0]))[0]

@@ -23,6 +23,7 @@ from .projector import line_z0
 EPS = 1e-6
 STEP_OFF_MM = 0.01     # how far beyond a gap's edge the detour path starts and ends
 MAX_STATIONS = 160     # transverse cuts per crossing for the interrupted share
+EDGE_HAIR_MM = 0.005   # a detour may graze a gap's edge by this much
 
 
 @dataclass
@@ -36,19 +37,45 @@ class ReferenceCopper:
     """The plane copper (every plane net) of one reference layer, its voids and islands, indexed."""
 
     def __init__(self, layer_nets, plane_nets, outline):
-        parts = [(p, n) for p, n in zip(layer_nets.islands, layer_nets.island_net) if n in plane_nets]
-        self.islands = np.array([p for p, _ in parts], dtype=object)
-        shapely.prepare(self.islands)
-        self.island_net = [n for _, n in parts]
+        parts = layer_nets.islands_of(plane_nets)
+        self.islands = np.array([p for _, p in parts], dtype=object)
+        self.island_net = [layer_nets.island_net[i] for i, _ in parts]
         self.tree = shapely.STRtree(self.islands)
-        copper = shapely.union_all(self.islands) if len(self.islands) else shapely.Polygon()
+        copper = layer_nets.union_of(plane_nets)
         voids = shapely.get_parts(outline.difference(copper))
         edge = outline.boundary
-        self.voids = [Void(v, not v.buffer(1e-4).intersects(edge), k)
-                      for k, v in enumerate(voids) if v.geom_type == "Polygon" and v.area > 1e-6]
-        self.void_tree = shapely.STRtree(np.array([v.geom for v in self.voids], dtype=object))
+        voids = np.array([v for v in voids if v.geom_type == "Polygon" and v.area > 1e-6], dtype=object)
+        shapely.prepare(edge)
+        touches = shapely.dwithin(edge, voids, 1e-4) if len(voids) else np.zeros(0, dtype=bool)
+        self.voids = [Void(v, not bool(t), k) for k, (v, t) in enumerate(zip(voids, touches))]
+        self.void_geoms = np.array([v.geom for v in self.voids], dtype=object)
+        self.void_tree = shapely.STRtree(self.void_geoms)
+        self._shrunk = np.full(len(self.voids), None, dtype=object)
         self.outline = outline
         self.edge = edge
+        shapely.prepare(outline)
+
+    def passable(self, segs, blockers=None):
+        """True for each straight piece of path that stays on the board and out of every void (a piece may
+        run along a void's edge: each void is shrunk by a hair for the test). The voids in the way are
+        added to `blockers` when given."""
+        ok = shapely.covers(self.outline, segs)
+        q = self.void_tree.query(segs)
+        if q.shape[1]:
+            need = np.unique(q[1][shapely.is_missing(self._shrunk[q[1]])])
+            if len(need):
+                self._shrunk[need] = shapely.buffer(self.void_geoms[need], -EDGE_HAIR_MM, quad_segs=2)
+                shapely.prepare(self._shrunk[need])
+            hit = shapely.intersects(self._shrunk[q[1]], segs[q[0]])
+            ok[q[0][hit]] = False
+            if blockers is not None:
+                blockers.update(q[1][hit].tolist())
+        return ok
+
+    def free(self, xy):
+        """True for points on the board and in no void's interior: places a path can pass."""
+        pts = shapely.points(xy)
+        return self.passable(pts)
 
     def island_at(self, point):
         for i in self.tree.query(point):
@@ -71,42 +98,66 @@ def reflex_vertices(poly):
     return np.vstack(out) if out else np.zeros((0, 2))
 
 
-def _shortest(nodes, test):
-    """A* from node 0 to node 1 over the visibility graph of `nodes` inside `test`.
+def _shortest(nodes, passable):
+    """Shortest path from node 0 to node 1 over the visibility graph of `nodes`; passable(segments) -> bools.
 
-    Visibility is tested lazily, one vectorised batch per expanded node, so the cost is
-    (expanded nodes) x (nodes) rather than all pairs."""
+    Lazy A* (as in Lazy Theta*, Nash et al. 2010): an edge is tested only when its far node comes off
+    the queue; if it is blocked, the node takes the best visible closed node as parent instead. So
+    the tests grow with the nodes expanded, not with all pairs."""
     n = len(nodes)
     h = np.hypot(nodes[:, 0] - nodes[1, 0], nodes[:, 1] - nodes[1, 1])
-    best = np.full(n, np.inf)
-    best[0] = 0.0
+    g = np.full(n, np.inf)
+    g[0] = 0.0
     parent = np.full(n, -1)
     closed = np.zeros(n, dtype=bool)
     heap = [(h[0], 0)]
+
+    def seg(a, b):
+        return shapely.linestrings(np.stack([nodes[a], nodes[b]], axis=-2))
+
+    blocked = np.zeros((n, n), dtype=bool)  # edges found blocked, never tested twice
+    closed_order = []
     while heap:
-        _, u = heapq.heappop(heap)
-        if closed[u]:
+        f, u = heapq.heappop(heap)
+        if closed[u] or parent[u] < 0 and u != 0 or f > g[u] + h[u] + 1e-9:  # stale, or u lost its parent
             continue
+        if u != 0 and not passable(np.array([seg(parent[u], u)]))[0]:
+            blocked[u, parent[u]] = blocked[parent[u], u] = True
+            cl = np.array(closed_order)
+            cl = cl[~blocked[u, cl]]
+            d = np.hypot(nodes[cl, 0] - nodes[u, 0], nodes[cl, 1] - nodes[u, 1])
+            order = np.argsort(g[cl] + d, kind="stable")
+            k, lo, size = None, 0, 8
+            while lo < len(order) and k is None:  # cheapest candidates first, in growing batches
+                batch = order[lo:lo + size]
+                ok = passable(seg(cl[batch], np.full(len(batch), u)))
+                if ok.any():
+                    k = int(batch[np.argmax(ok)])
+                    ok[np.argmax(ok):] = True  # the rest of the batch: not known either way
+                blocked[u, cl[batch[~ok]]] = blocked[cl[batch[~ok]], u] = True
+                lo, size = lo + size, size * 4
+            if k is None:
+                g[u], parent[u] = np.inf, -1  # reachable later, perhaps, from nodes not yet closed
+                continue
+            g[u], parent[u] = g[cl[k]] + d[k], cl[k]
+            if g[u] + h[u] > f + 1e-9:
+                heapq.heappush(heap, (g[u] + h[u], int(u)))
+                continue
+        closed[u] = True
+        closed_order.append(u)
         if u == 1:
             path = [1]
             while path[-1] != 0:
                 path.append(int(parent[path[-1]]))
-            return float(best[1]), [tuple(map(float, nodes[k])) for k in reversed(path)]
-        closed[u] = True
+            return float(g[1]), [tuple(map(float, nodes[k])) for k in reversed(path)]
         cand = np.nonzero(~closed)[0]
         d = np.hypot(nodes[cand, 0] - nodes[u, 0], nodes[cand, 1] - nodes[u, 1])
-        better = best[u] + d < best[cand]
+        better = (g[u] + d < g[cand] - 1e-12) & ~blocked[u, cand]
         cand, d = cand[better], d[better]
-        if not len(cand):
-            continue
-        segs = shapely.linestrings(np.stack([np.repeat(nodes[u][None, :], len(cand), axis=0), nodes[cand]], axis=1))
-        ok = shapely.covers(test, segs)
-        for v, dv in zip(cand[ok], d[ok]):
-            nd = best[u] + dv
-            if nd < best[v]:
-                best[v] = nd
-                parent[v] = u
-                heapq.heappush(heap, (nd + h[v], int(v)))
+        g[cand] = g[u] + d
+        parent[cand] = u
+        for v, fv in zip(cand.tolist(), (g[cand] + h[cand]).tolist()):
+            heapq.heappush(heap, (fv, v))
     return None
 
 
@@ -171,7 +222,8 @@ def geodesic(island, a, b, focus, max_nodes=200):
     ends = np.array([a, b], dtype=float)
     local = focus.intersection(window)
     own = np.vstack([_convex_corners(local), _near(local, ends)])
-    found = _shortest(np.vstack([ends, own]), test)
+    inside = lambda segs: shapely.covers(test, segs)  # noqa: E731
+    found = _shortest(np.vstack([ends, own]), inside)
     if found is not None:
         return found
     inner = free.buffer(-0.03, quad_segs=4)
@@ -180,7 +232,7 @@ def geodesic(island, a, b, focus, max_nodes=200):
     if len(corners) > max_nodes:
         keep = np.argsort(np.hypot(corners[:, 0] - (ax + bx) / 2, corners[:, 1] - (ay + by) / 2))[:max_nodes]
         corners = corners[keep]
-    return _shortest(np.vstack([ends, own, corners]), test)
+    return _shortest(np.vstack([ends, own, corners]), inside)
 
 
 def interval_fraction(x1, x2, width, ref):
@@ -347,30 +399,145 @@ def detect_gap_crossings(board, nets, refs, chains, settings):
     return findings
 
 
-def _local_geodesic(island, pa, pb, void_geom, hw):
-    """Geodesic around the gap, searched in a growing window so that large voids stay cheap."""
+def _obstacle_nodes(geom, limit=24, tol=0.02):
+    """Where a path round an obstacle can bend: its convex corners (round, near-convex shapes such as
+    antipads: corners of their hull, coarsened to about `limit` and kept outside)."""
+    hull = shapely.convex_hull(geom)
+    if hull.geom_type != "Polygon":
+        return shapely.get_coordinates(hull)
+    if geom.area < 0.9 * hull.area:
+        corners = [np.zeros((0, 2))]
+        for poly in shapely.get_parts(shapely.simplify(geom, tol, preserve_topology=True)):
+            if poly.geom_type != "Polygon":
+                continue
+            c = np.asarray(shapely.orient_polygons(poly).exterior.coords)[:-1]
+            if len(c) < 3:
+                continue
+            prev, nxt = np.roll(c, 1, axis=0), np.roll(c, -1, axis=0)
+            cross = (c[:, 0] - prev[:, 0]) * (nxt[:, 1] - c[:, 1]) - (c[:, 1] - prev[:, 1]) * (nxt[:, 0] - c[:, 0])
+            corners.append(c[cross > 0])
+        c = np.vstack(corners)
+        return c[np.linspace(0, len(c) - 1, 400).astype(int)] if len(c) > 400 else c
+    c = np.asarray(hull.exterior.coords)[:-1]
+    if len(c) > limit:
+        size = math.sqrt(hull.area) or 1e-3
+        coarse = hull.simplify(0.03 * size).buffer(0.03 * size, join_style="mitre", mitre_limit=3.0)
+        if coarse.geom_type == "Polygon":
+            c = np.asarray(coarse.exterior.coords)[:-1]
+    return c
+
+
+def _visibility_detour(rc, pa, pb, box, void_pos, passable, rounds=4, per_round=12):
+    """Shortest path from pa to pb over hull corners of the crossed void and, round by round, of the
+    voids found in the way (nearest first), each straight piece tested against all voids and the board
+    outline. Exact round convex obstacles; a close upper bound round others."""
+    ends = np.array([[pa.x, pa.y], [pb.x, pb.y]])
+    mid = ends.mean(axis=0)
+    obstacles = [void_pos]
+    corners = {}
+    for _ in range(rounds):
+        for o in obstacles:
+            if o not in corners:
+                g = shapely.clip_by_rect(rc.void_geoms[o], *box)
+                corners[o] = _obstacle_nodes(g) if not g.is_empty else np.zeros((0, 2))
+        blockers = set()
+        extra = np.vstack([corners[o] for o in obstacles])
+        found = _shortest(np.vstack([ends, extra[rc.free(extra)]]), lambda segs: passable(segs, blockers))
+        if found is not None:
+            return found
+        new = [b for b in blockers if b not in corners]
+        if not new:
+            return None
+        geoms = shapely.clip_by_rect(rc.void_geoms[new], *box)
+        d = shapely.distance(geoms, shapely.Point(*mid))
+        new = [new[k] for k in np.argsort(d) if not geoms[k].is_empty][:per_round]
+        if not new:
+            return None
+        obstacles += new
+    return None
+
+
+class _OutOfBudget(Exception):
+    pass
+
+
+def _hull_detour(rc, pa, pb, geom):
+    """The two ways round the convex hull of a gap and both ends, shorter first: the geodesic when the
+    gap is convex (or the ends lie outside its hull) and nothing else is in the way. Returns
+    (the first way that stays in copper or None, the shorter way's length)."""
+    ends = np.array([[pa.x, pa.y], [pb.x, pb.y]])
+    hull = shapely.convex_hull(shapely.multipoints(np.vstack([shapely.get_coordinates(geom), ends])))
+    if hull.geom_type != "Polygon":
+        return None, None
+    ring = np.asarray(hull.exterior.coords)[:-1]
+    ia = np.flatnonzero(np.hypot(*(ring - ends[0]).T) < 1e-9)
+    ib = np.flatnonzero(np.hypot(*(ring - ends[1]).T) < 1e-9)
+    if not len(ia) or not len(ib):
+        return None, None  # an end inside the hull (a pocket of the gap): no taut way round it
+    ia, ib = int(ia[0]), int(ib[0])
+    n = len(ring)
+    ways = []
+    for step in (1, -1):
+        idx = [ia]
+        while idx[-1] != ib:
+            idx.append((idx[-1] + step) % n)
+        c = ring[idx]
+        ways.append((float(np.hypot(*np.diff(c, axis=0).T).sum()), c))
+    ways.sort(key=lambda w: w[0])
+    for length, c in ways:
+        segs = shapely.linestrings(np.stack([c[:-1], c[1:]], axis=1))
+        if rc.passable(segs).all():
+            return (length, [tuple(map(float, p)) for p in c]), ways[0][0]
+    return None, ways[0][0]
+
+
+def _local_geodesic(rc, pa, pb, void_pos, hw, budget=40):
+    """Detour path round the gap, in a growing window so that large voids stay cheap: the taut way
+    round the gap's hull when it is clear, else a visibility-graph search over the corners of the
+    voids in the way (at most `budget` batched tests per window, two windows). Returns
+    (length, path, method) or None; where no way is proven within the budget, the shorter hull way
+    serves as the estimate (method says so)."""
+    void_geom = rc.void_geoms[void_pos]
     vx0, vy0, vx1, vy1 = void_geom.bounds
     r = max(5.0, 4 * hw)
     cx, cy = (pa.x + pb.x) / 2, (pa.y + pb.y) / 2
-    while True:
+    bound = None
+    for attempt in range(8):
         box = (cx - r, cy - r, cx + r, cy + r)
         whole = box[0] <= vx0 and box[1] <= vy0 and box[2] >= vx1 and box[3] >= vy1
         focus = void_geom if whole else shapely.clip_by_rect(void_geom, *box)
-        g = geodesic(island, (pa.x, pa.y), (pb.x, pb.y), focus)
-        if g is not None or whole:
-            return g
+        way, shorter = _hull_detour(rc, pa, pb, focus)
+        if way is not None:
+            return way[0], way[1], "hull"
+        if shorter is not None and whole:
+            bound = shorter
+        if attempt < 2:
+            calls = [0]
+
+            def counted(segs, blockers):
+                calls[0] += 1
+                if calls[0] > budget:
+                    raise _OutOfBudget
+                return rc.passable(segs, blockers)
+            try:
+                g = _visibility_detour(rc, pa, pb, box, void_pos, counted)
+            except _OutOfBudget:
+                g = None
+            if g is not None:
+                return g[0], g[1], "visibility"
+        if whole:
+            break
         r *= 3
+    return (bound, None, "hull-bound") if bound is not None else None
 
 
 def majority_net(ln, plane_nets, line, samples=17):
     """Plane net under most sample points of a centre line (None when no plane copper is under it)."""
     pts = shapely.line_interpolate_point(line, np.linspace(0, 1, samples), normalized=True)
-    cand = ln.tree.query(pts)
-    if not cand.shape[1]:
-        return None
-    ok = shapely.intersects(ln.islands[cand[1]], pts[cand[0]])
     tally = {}
-    for i in cand[1][ok]:
+    for i in ln.islands_at(pts):
+        if i < 0:
+            continue
         net = ln.island_net[i]
         if net in plane_nets:
             tally[net] = tally.get(net, 0) + 1
@@ -421,13 +588,13 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
     geo = slot_geometry(void, (mid.x, mid.y), tangent, reach, settings.slot_aspect_ratio)
     if geo["length"] < settings.min_gap_length_mm and void.enclosed:
         return None
-    detour, path = None, None
+    detour, path, detour_method = None, None, None
     split = ev == "cross" and (ia is None or ib is None or ia != ib)
     if not split and pa is not None and ia is not None and ia == ib:
-        g = _local_geodesic(rc.islands[ia], pa, pb, void.geom, hw)
+        g = _local_geodesic(rc, pa, pb, void.index, hw)
         if g is not None:
             detour = max(0.0, g[0] - pa.distance(pb))
-            path = g[1]
+            path, detour_method = g[1], g[2]
     if ev == "graze" and detour is None:
         detour = 0.0
     if ev == "cross" and detour is not None and detour < settings.min_detour_mm:

@@ -45,12 +45,13 @@ def _plane_net_near(ln, plane_nets, x, y, reach=2.0):
     """Plane net of the nearest plane copper to a point (a via sits in its own antipad)."""
     p = shapely.Point(x, y)
     best = None
-    for i in ln.tree.query(p.buffer(reach)):
-        if ln.island_net[i] not in plane_nets:
+    for k in ln.tree.query(p, predicate="dwithin", distance=reach):
+        net = ln.island_net[ln.piece_island[k]]
+        if net not in plane_nets:
             continue
-        d = ln.islands[i].distance(p)
+        d = ln.pieces[k].distance(p)
         if best is None or d < best[0]:
-            best = (d, ln.island_net[i])
+            best = (d, net)
     return best[1] if best else None
 
 
@@ -181,7 +182,7 @@ def edge_runs(board, nets, refs, chains, settings, hs):
         if net is None:
             continue
         if ref.layer not in edges:
-            copper = shapely.union_all([p for p, n in zip(ln.islands, ln.island_net) if n in nets.plane_nets])
+            copper = ln.union_of(nets.plane_nets)
             outer = shapely.union_all([shapely.Polygon(p.exterior) for p in shapely.get_parts(copper)])
             shapely.prepare(outer)
             edges[ref.layer] = (outer, outer.boundary)
@@ -235,8 +236,11 @@ def floating_copper(board, nets, refs, chains, settings, hs):
             continue
         ttree = shapely.STRtree(np.array([c.line for c in tracks], dtype=object))
         track_nets = {c.net for c in chains if c.layer == layer.name}
-        for isl, net in zip(ln.islands, ln.island_net):
-            if isl.area < hs.floating_min_area_mm2 or net in track_nets:
+        for i, net in enumerate(ln.island_net):
+            if ln.island_tied[i] or net in track_nets:
+                continue
+            isl = ln.island(i)
+            if isl.area < hs.floating_min_area_mm2:
                 continue
             if len(hole_tree.query(isl, predicate="intersects")) or len(pad_tree.query(isl, predicate="intersects")):
                 continue
@@ -253,7 +257,7 @@ def floating_copper(board, nets, refs, chains, settings, hs):
             length, width = max(a, b), max(min(a, b), 0.05)
             f_res = physics.patch_resonance_GHz(length, width, h, er)
             lam = physics.wavelength_mm(settings.knee_GHz, er)
-            vias = max(2, math.ceil(isl.exterior.length / (lam / 20)))
+            vias = max(2, math.ceil(shapely.length(shapely.get_exterior_ring(shapely.get_parts(isl))).sum() / (lam / 20)))
             sev = "warning" if f_res <= 3 * settings.knee_GHz else "info"
             p = isl.representative_point()
             findings.append(_finding(
@@ -281,14 +285,15 @@ def stitching_spacing(board, nets, refs, chains, settings, hs):
         er = board.stackup.er_between(layer.name, f"L{i + 1}" if i < n_layers else f"L{i - 1}")
         eeff = (er + 1) / 2 if layer.side in ("top", "bottom") else er
         limit = hs.stitch_fraction * physics.wavelength_mm(settings.knee_GHz, eeff)
-        for isl, net in zip(ln.islands, ln.island_net):
-            if nets.net_class.get(net) != "ground" or isl.area < hs.stitch_min_pour_mm2:
+        for k, net in enumerate(ln.island_net):
+            if nets.net_class.get(net) != "ground":
                 continue
-            grown = isl.buffer(0.05)
-            shapely.prepare(grown)
+            isl = ln.island(k)
+            if isl.area < hs.stitch_min_pour_mm2:
+                continue
             pts = np.array([(x, y) for x, y, r, n, a, b in holes if n == net and a <= i <= b]).reshape(-1, 2)
             if len(pts):
-                pts = pts[shapely.contains_xy(grown, pts[:, 0], pts[:, 1])]
+                pts = pts[shapely.dwithin(isl, shapely.points(pts), 0.05)]
             if len(pts) < 2:
                 continue
             edges = [(g, a, b) for g, a, b in _mst_edges(pts) if g > limit]

@@ -240,9 +240,9 @@ def lint_gerber(fab, text, notes):
 
 
 def check_extent(fab, layer):
-    if layer.geometry.is_empty:
+    if layer.bounds is None:
         return
-    x0, y0, x1, y1 = layer.geometry.bounds
+    x0, y0, x1, y1 = layer.bounds
     if max(abs(x0), abs(y0), abs(x1), abs(y1)) > MAX_EXTENT_MM:
         raise InputError(fab.name, f"coordinates reach {max(abs(x0), abs(y0), abs(x1), abs(y1)) / 1000:.0f} m from "
                                    "the origin; the number format or the data is wrong")
@@ -365,21 +365,47 @@ def build_layer(fab, g, role, outline, tol):
                 layer.regions.append((poly, net, None))
     if runs:
         flush_round()
-    acc = shapely.Polygon()
-    for dark, pieces in runs:
-        pieces = [p for p in pieces if p is not None and not p.is_empty]
-        if not pieces:
-            continue
-        run = shapely.union_all(pieces)
-        acc = acc.union(run) if dark else acc.difference(run)
-    if role.polarity == "negative":
-        acc = outline.difference(acc)
-    layer.geometry = shapely.make_valid(acc) if not acc.is_valid else acc
+    layer.pieces = resolve_pieces(runs, outline if role.polarity == "negative" else None)
     layer.segments = np.array(segs, dtype=float).reshape(-1, 5)
     layer.segment_net, layer.segment_function = seg_net, seg_fn
     layer.flashes = np.array(flashes, dtype=float).reshape(-1, 3)
     layer.flash_net, layer.flash_function, layer.flash_part = fl_net, fl_fn, fl_part
     return layer
+
+
+def resolve_pieces(runs, negative_in=None):
+    """Copper pieces from polarity runs in file order: runs up to the last clear one are resolved
+    (union, difference) because clears cut what came before; later dark objects stay as drawn.
+    A negative layer is the profile minus everything drawn, so all of it is resolved."""
+    last_clear = max((k for k, (dark, _) in enumerate(runs) if not dark), default=-1)
+    if negative_in is not None:
+        last_clear = len(runs) - 1
+    acc = shapely.Polygon()
+    for dark, pieces in runs[:last_clear + 1]:
+        pieces = [p for p in pieces if p is not None and not p.is_empty]
+        if not pieces:
+            continue
+        run = shapely.union_all(pieces)
+        acc = acc.union(run) if dark else acc.difference(run)
+    if negative_in is not None:
+        acc = negative_in.difference(acc)
+    if not acc.is_valid:
+        acc = shapely.make_valid(acc)
+    out = [p for p in shapely.get_parts(acc) if p.geom_type == "Polygon" and p.area > 0]
+    for _, pieces in runs[last_clear + 1:]:
+        arr = np.array([p for p in pieces if p is not None], dtype=object)
+        if not len(arr):
+            continue
+        bad = ~shapely.is_valid(arr)
+        if bad.any():
+            arr[bad] = shapely.make_valid(arr[bad])
+        for p in arr:  # flashes of macro apertures can be multi-part
+            if p.geom_type == "Polygon":
+                if p.area > 0:
+                    out.append(p)
+            else:
+                out.extend(q for q in shapely.get_parts(p) if q.geom_type == "Polygon" and q.area > 0)
+    return np.array(out, dtype=object)
 
 
 def _only_touches(ring):
@@ -436,9 +462,11 @@ def _drill_points(d):
 
 
 def _inside_fraction(pts, region):
-    if len(pts) == 0 or region is None or region.is_empty:
+    """Share of points on copper; region is an STRtree of copper pieces."""
+    if len(pts) == 0 or region is None or not len(region.geometries):
         return 0.0
-    return float(np.mean(shapely.contains_xy(region, pts[:, 0], pts[:, 1])))
+    hit = region.query(shapely.points(pts), predicate="intersects")[0]
+    return float(len(np.unique(hit)) / len(pts))
 
 
 def parse_drill(fab, text, copper_region, notes):
@@ -610,7 +638,8 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
             if role.polarity == "negative" and provisional is None:
                 raise InputError(name, "negative-polarity copper needs a board profile file")
         if outline is None:
-            pts = shapely.get_coordinates(np.array([l.geometry.convex_hull for l in layers], dtype=object))
+            pts = np.vstack([shapely.get_coordinates(shapely.convex_hull(l.pieces)) for l in layers if len(l.pieces)]
+                            or [np.zeros((0, 2))])
             hull = shapely.MultiPoint(pts).convex_hull if len(pts) >= 3 else shapely.Polygon()
             outline = hull
             notes.append("no usable board profile file" + (f" ({outline_file} has no closed outline)" if outline_file else "")
@@ -622,8 +651,7 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
         board.outline_file = outline_file
         n = len(layers)
         # holes of a correctly read drill file land on the pads of the outer layers
-        region = shapely.union(layers[0].geometry, layers[-1].geometry)
-        shapely.prepare(region)
+        region = shapely.STRtree(np.concatenate([layers[0].pieces, layers[-1].pieces]))
         for name, role in roles.items():
             if role.kind == "drill":
                 f = by_name[name]
@@ -647,7 +675,7 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
                 board.netlist.extend(parse_netlist(f))
                 board.netlist_file = f.name
         for l in layers:
-            if l.geometry.is_empty:
+            if not len(l.pieces):
                 notes.append(f"{l.file}: copper layer {l.name} is empty")
         for note in notes:
             board.assume(note)

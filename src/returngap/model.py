@@ -8,7 +8,8 @@ import shapely
 
 @dataclass
 class CopperLayer:
-    """One copper layer: its unioned copper plus the drawn objects that later stages need."""
+    """One copper layer: its copper as pieces (overlapping shapes, never unioned here: a union of every
+    track is the one cost that does not scale) plus the drawn objects that later stages need."""
 
     name: str                 # "L1" .. "Ln", top to bottom
     file: str
@@ -16,7 +17,9 @@ class CopperLayer:
     polarity: str = "positive"
     type_hint: str | None = None      # Signal | Plane | Mixed | Hatched, when the file says
     identified_by: str = ""
-    geometry: object = field(default_factory=shapely.Polygon)
+    # shapely Polygons that together make the copper: the parts of everything a later clear object cut
+    # (resolved in file order), then each dark object drawn after the last clear one, as drawn
+    pieces: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=object))
     # dark strokes as centre-line segments: columns x1, y1, x2, y2, width (mm)
     segments: np.ndarray = field(default_factory=lambda: np.zeros((0, 5)))
     segment_net: list = field(default_factory=list)       # str or None per segment
@@ -36,8 +39,25 @@ class CopperLayer:
         return int(self.name[1:]) - 1
 
     @property
+    def geometry(self):
+        """The copper as one (Multi)Polygon: a union, so only for pictures, cross-checks and small boards."""
+        if getattr(self, "_geometry", None) is None:
+            parts = [p for p in self.pieces if p is not None and not p.is_empty]
+            self._geometry = shapely.union_all(parts) if parts else shapely.Polygon()
+        return self._geometry
+
+    @property
+    def bounds(self):
+        if not len(self.pieces):
+            return None
+        b = shapely.bounds(self.pieces)
+        return float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max())
+
+    @property
     def copper_area_mm2(self):
-        return float(self.geometry.area)
+        # set by connectivity from its islands (exact, without a whole-layer union); else the union
+        area = getattr(self, "_area", None)
+        return float(self.geometry.area) if area is None else area
 
     def object_nets(self):
         return {n for n in self.segment_net + self.flash_net + [r[1] for r in self.regions] if n}

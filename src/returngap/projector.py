@@ -85,7 +85,7 @@ def plane_layers(board, nets, settings):
     out = {}
     for layer in board.copper:
         ln = nets.layers[layer.name]
-        cover = sum(p.area for p, n in zip(ln.islands, ln.island_net) if n in nets.plane_nets)
+        cover = sum(ln.island_area(i) for i, n in enumerate(ln.island_net) if n in nets.plane_nets)
         out[layer.name] = cover / area >= settings.plane_min_fraction
     return out
 

@@ -76,9 +76,9 @@ def _figure(x0, y0, x1, y1, caption_lines=0):
 def _plane_geoms(result, layer, net=None):
     ln = result.nets.layers[layer]
     ref, other = [], []
-    for p, n in zip(ln.islands, ln.island_net):
-        if n in result.nets.plane_nets:
-            (ref if net is None or n == net else other).append(p)
+    for i, p in ln.islands_of(result.nets.plane_nets):
+        n = ln.island_net[i]
+        (ref if net is None or n == net else other).append(p)
     return shapely.union_all(ref) if ref else shapely.Polygon(), shapely.union_all(other) if other else shapely.Polygon()
 
 
