@@ -84,20 +84,6 @@ class ReferenceCopper:
         return None
 
 
-def reflex_vertices(poly):
-    """Vertices of a polygon's rings where the free space turns a reflex corner (a convex obstacle corner)."""
-    poly = shapely.orient_polygons(poly)
-    out = []
-    for ring in [poly.exterior] + list(poly.interiors):
-        c = np.asarray(ring.coords)[:-1]
-        if len(c) < 3:
-            continue
-        prev, nxt = np.roll(c, 1, axis=0), np.roll(c, -1, axis=0)
-        cross = (c[:, 0] - prev[:, 0]) * (nxt[:, 1] - c[:, 1]) - (c[:, 1] - prev[:, 1]) * (nxt[:, 0] - c[:, 0])
-        out.append(c[cross < 0])
-    return np.vstack(out) if out else np.zeros((0, 2))
-
-
 def _shortest(nodes, passable):
     """Shortest path from node 0 to node 1 over the visibility graph of `nodes`; passable(segments) -> bools.
 
@@ -159,80 +145,6 @@ def _shortest(nodes, passable):
         for v, fv in zip(cand.tolist(), (g[cand] + h[cand]).tolist()):
             heapq.heappush(heap, (fv, v))
     return None
-
-
-def _convex_corners(geom, clearance=0.03, tol=0.02, limit=64):
-    """Outward corners of an obstacle, set `clearance` off it so they lie in free copper."""
-    g = geom.buffer(clearance, quad_segs=4).simplify(tol, preserve_topology=True)
-    out = []
-    for poly in shapely.get_parts(g):
-        if poly.geom_type != "Polygon":
-            continue
-        c = np.asarray(shapely.orient_polygons(poly).exterior.coords)[:-1]
-        if len(c) < 3:
-            continue
-        prev, nxt = np.roll(c, 1, axis=0), np.roll(c, -1, axis=0)
-        cross = (c[:, 0] - prev[:, 0]) * (nxt[:, 1] - c[:, 1]) - (c[:, 1] - prev[:, 1]) * (nxt[:, 0] - c[:, 0])
-        out.append(c[cross > 0])
-    c = np.vstack(out) if out else np.zeros((0, 2))
-    if len(c) > limit:
-        c = c[np.linspace(0, len(c) - 1, limit).astype(int)]
-    return c
-
-
-def _near(geom, points, clearance=0.03, radius=1.0):
-    """Dense ring points of the offset obstacle near the path's ends (chords there hug the gap edge)."""
-    ring = shapely.get_coordinates(geom.buffer(clearance, quad_segs=16).boundary)
-    if not len(ring):
-        return np.zeros((0, 2))
-    d = np.min(np.hypot(ring[:, None, 0] - points[None, :, 0], ring[:, None, 1] - points[None, :, 1]), axis=1)
-    sel = ring[d < radius]
-    return sel[:: max(1, len(sel) // 24)]
-
-
-def geodesic(island, a, b, focus, max_nodes=200):
-    """Shortest path from a to b inside island (a Polygon), searched near `focus`; (length, coords) or None.
-
-    Visibility graph, first over the corners of the gap's convex hull (pushed a hair into
-    the copper), then, if that finds no way, over every reflex corner of the copper in a
-    window around the gap, so that the search stays local."""
-    ax, ay = a
-    bx, by = b
-    fx0, fy0, fx1, fy1 = focus.bounds
-    x0, y0 = min(ax, bx, fx0), min(ay, by, fy0)
-    x1, y1 = max(ax, bx, fx1), max(ay, by, fy1)
-    margin = max(2.0, 0.25 * math.hypot(x1 - x0, y1 - y0))
-    window = shapely.box(x0 - margin, y0 - margin, x1 + margin, y1 + margin)
-    free = island.intersection(window)
-    pa, pb = shapely.Point(a), shapely.Point(b)
-    if free.geom_type != "Polygon":
-        parts = [p for p in shapely.get_parts(free) if p.geom_type == "Polygon" and p.buffer(1e-6).covers(pa)]
-        if not parts:
-            return None
-        free = parts[0]
-    # fewer vertices make the many visibility tests cheap; the net effect lets chords graze edges by ~5 um
-    test = free.buffer(0.005, quad_segs=1) if len(shapely.get_coordinates(free)) < 4000 else \
-        free.simplify(0.003, preserve_topology=True).buffer(0.005, quad_segs=1)
-    shapely.prepare(test)
-    if not test.covers(pb):
-        return None
-    direct = shapely.LineString([a, b])
-    if free.buffer(1e-6).covers(direct):
-        return direct.length, [a, b]
-    ends = np.array([a, b], dtype=float)
-    local = focus.intersection(window)
-    own = np.vstack([_convex_corners(local), _near(local, ends)])
-    inside = lambda segs: shapely.covers(test, segs)  # noqa: E731
-    found = _shortest(np.vstack([ends, own]), inside)
-    if found is not None:
-        return found
-    inner = free.buffer(-0.03, quad_segs=4)
-    corners = reflex_vertices(inner.simplify(0.02, preserve_topology=True)) if inner.geom_type == "Polygon" else \
-        np.vstack([reflex_vertices(p) for p in shapely.get_parts(inner) if p.geom_type == "Polygon"] or [np.zeros((0, 2))])
-    if len(corners) > max_nodes:
-        keep = np.argsort(np.hypot(corners[:, 0] - (ax + bx) / 2, corners[:, 1] - (ay + by) / 2))[:max_nodes]
-        corners = corners[keep]
-    return _shortest(np.vstack([ends, own, corners]), inside)
 
 
 def interval_fraction(x1, x2, width, ref):
