@@ -63,6 +63,24 @@ def test_full_split(tmp_path):
     assert f[0]["gap_length_mm"] == pytest.approx(40.0, abs=0.01)
 
 
+def test_via_fence_detour_walks_out_of_the_pocket(tmp_path):
+    """Ten vias of another net, 1 mm pitch, antipads 1.1 mm: the antipads merge into a slot and the
+    track passes between two of them. The return walks out of the pocket between the two antipads,
+    along the fence, round the end antipad (a half circle) and back: geometry gives the length."""
+    from returngap.synth import SynthBoard, Via, rect
+    b = SynthBoard("f", 60, 40, n_layers=4, dielectrics=[(H, 4.3), (1.0, 4.3), (H, 4.3)])
+    b.planes += [(2, "GND", rect(0, 0, 60, 40)), (3, "GND", rect(0, 0, 60, 40))]
+    b.tracks.append((1, "CLK", [(10, 20), (50, 20)], 0.2))
+    b.vias += [Via(30, 15.5 + k, "P3V3", antipad=1.1) for k in range(10)]
+    b.vias += [Via(5, 5, "GND"), Via(55, 35, "GND")]
+    f = gaps(b.write(tmp_path) or tmp_path)
+    assert len(f) == 1 and f[0]["net"] == "CLK" and f[0]["gap_type"] != "split"
+    r, dy = 0.55, 0.5
+    half = math.sqrt(r * r - dy * dy)         # half the opening between two antipads at the track
+    expect = 2 * (r - half) + 2 * 4.5 + math.pi * r - 2 * half
+    assert f[0]["detour_mm"] == pytest.approx(expect, rel=0.03)
+
+
 @pytest.mark.parametrize("d", [0.3, 0.6, 1.0])
 def test_graze_matches_closed_form(tmp_path, d):
     # footprint +-(w/2 + k h) meets a void from lateral offset d outward;

@@ -375,9 +375,26 @@ class _OutOfBudget(Exception):
 
 def _hull_detour(rc, pa, pb, geom):
     """The two ways round the convex hull of a gap and both ends, shorter first: the geodesic when the
-    gap is convex (or the ends lie outside its hull) and nothing else is in the way. Returns
-    (the first way that stays in copper or None, the shorter way's length)."""
+    gap is convex (or the ends lie outside its hull) and nothing else is in the way. An end in a pocket
+    of the hull (between the vias of a fence, say) first walks straight out of it, away from the other
+    end. Returns (the first way that stays in copper or None, the shorter way's length)."""
     ends = np.array([[pa.x, pa.y], [pb.x, pb.y]])
+    gap_hull = shapely.convex_hull(geom)
+    lead = [None, None]
+    if gap_hull.geom_type == "Polygon":
+        for k in (0, 1):
+            p, other = ends[k], ends[1 - k]
+            if not gap_hull.contains(shapely.Point(p)):
+                continue
+            u = (p - other) / max(float(np.hypot(*(p - other))), 1e-12)
+            reach = float(np.hypot(gap_hull.bounds[2] - gap_hull.bounds[0], gap_hull.bounds[3] - gap_hull.bounds[1]))
+            ray = shapely.LineString([p, p + u * (reach + 1.0)])
+            out = ray.intersection(gap_hull.exterior)
+            if out.is_empty:
+                continue
+            q = min(shapely.get_coordinates(out), key=lambda c: float(np.hypot(*(c - p)))) + u * STEP_OFF_MM
+            lead[k] = p.copy()
+            ends[k] = q
     hull = shapely.convex_hull(shapely.multipoints(np.vstack([shapely.get_coordinates(geom), ends])))
     if hull.geom_type != "Polygon":
         return None, None
@@ -394,6 +411,10 @@ def _hull_detour(rc, pa, pb, geom):
         while idx[-1] != ib:
             idx.append((idx[-1] + step) % n)
         c = ring[idx]
+        if lead[0] is not None:
+            c = np.vstack([lead[0], c])
+        if lead[1] is not None:
+            c = np.vstack([c, lead[1]])
         ways.append((float(np.hypot(*np.diff(c, axis=0).T).sum()), c))
     ways.sort(key=lambda w: w[0])
     for length, c in ways:
