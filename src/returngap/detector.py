@@ -9,6 +9,7 @@ ending inside a void (its own via's antipad, or running off the plane) is left t
 the layer-change and plane-edge checks.
 """
 
+import functools
 import hashlib
 import heapq
 import math
@@ -32,6 +33,10 @@ class Void:
     enclosed: bool
     index: int
 
+    @functools.cached_property
+    def rect(self):
+        return self.geom.minimum_rotated_rectangle  # one per void, however many tracks cross it
+
 
 class ReferenceCopper:
     """The plane copper (every plane net) of one reference layer, its voids and islands, indexed."""
@@ -51,6 +56,7 @@ class ReferenceCopper:
         self.void_geoms = np.array([v.geom for v in self.voids], dtype=object)
         self.void_tree = shapely.STRtree(self.void_geoms)
         self._shrunk = np.full(len(self.voids), None, dtype=object)
+        self._hulls = [None] * len(self.voids)
         self.outline = outline
         self.edge = edge
         shapely.prepare(outline)
@@ -76,6 +82,11 @@ class ReferenceCopper:
         """True for points on the board and in no void's interior: places a path can pass."""
         pts = shapely.points(xy)
         return self.passable(pts)
+
+    def hull(self, k):
+        if self._hulls[k] is None:
+            self._hulls[k] = shapely.convex_hull(self.void_geoms[k])
+        return self._hulls[k]
 
     def island_at(self, point):
         for i in self.tree.query(point):
@@ -168,22 +179,24 @@ def interrupted_share(line, s_from, s_to, halfwidth, width, ref, gap):
     t = q - r
     t /= np.maximum(np.hypot(t[:, 0], t[:, 1]), EPS)[:, None]
     nrm = np.column_stack([-t[:, 1], t[:, 0]])
-    cuts = shapely.linestrings(np.stack([p - halfwidth * nrm, p + halfwidth * nrm], axis=1))
-    pieces = shapely.intersection(cuts, gap)
-    best, best_s = 0.0, ss[0]
-    for k, piece in enumerate(pieces):
-        if piece.is_empty:
-            continue
-        total = 0.0
-        for part in shapely.get_parts(piece):
-            if part.geom_type not in ("LineString", "LinearRing"):
-                continue
-            c = np.asarray(part.coords)
-            x = (c - p[k]) @ nrm[k]
-            total += interval_fraction(float(x.min()), float(x.max()), width, ref)
-        if total > best:
-            best, best_s = total, ss[k]
-    return best, float(best_s)
+    ends = np.stack([p - halfwidth * nrm, p + halfwidth * nrm], axis=1)
+    cuts = shapely.linestrings(ends)
+    lo, hi = ends.reshape(-1, 2).min(axis=0) - 0.01, ends.reshape(-1, 2).max(axis=0) + 0.01
+    gap = shapely.clip_by_rect(gap, lo[0], lo[1], hi[0], hi[1])  # only the cuts' neighbourhood matters
+    parts, of_cut = shapely.get_parts(shapely.intersection(cuts, gap), return_index=True)
+    keep = (shapely.get_type_id(parts) == 1) & ~shapely.is_empty(parts)  # touching points carry no width
+    parts, of_cut = parts[keep], of_cut[keep]
+    if not len(parts):
+        return 0.0, float(ss[0])
+    xy, of_part = shapely.get_coordinates(parts, return_index=True)
+    x = np.einsum("ij,ij->i", xy - p[of_cut[of_part]], nrm[of_cut[of_part]])
+    start = np.flatnonzero(np.r_[True, of_part[1:] != of_part[:-1]])
+    x1, x2 = np.minimum.reduceat(x, start), np.maximum.reduceat(x, start)
+    share = np.zeros(n)
+    for k, a, b in zip(of_cut.tolist(), x1.tolist(), x2.tolist()):
+        share[k] += interval_fraction(a, b, width, ref)
+    k = int(np.argmax(share))
+    return float(share[k]), float(ss[k])
 
 
 def stable_id(*parts):
@@ -191,19 +204,29 @@ def stable_id(*parts):
 
 
 def _extent_across(void_geom, mid, direction, reach):
-    """Where a line through mid along direction leaves the void, both ways: (l1, l2, end1, end2)."""
-    ux, uy = direction
-    line = shapely.LineString([(mid[0] - reach * ux, mid[1] - reach * uy), (mid[0] + reach * ux, mid[1] + reach * uy)])
-    inter = line.intersection(void_geom)
+    """Where a line through mid along direction leaves the void, both ways: (l1, l2, end1, end2).
+    Looked for in a growing window first: a large void costs its whole outline only when the cut
+    really runs that far."""
+    u = np.asarray(direction, dtype=float)
+    m = np.asarray(mid, dtype=float)
     pm = shapely.Point(mid)
-    for part in shapely.get_parts(inter):
-        if part.geom_type == "LineString" and part.distance(pm) < 1e-3:
-            c = np.asarray(part.coords)
-            s = (c - np.asarray(mid)) @ np.asarray(direction)
-            return max(0.0, -float(s.min())), max(0.0, float(s.max())), \
-                tuple(np.asarray(mid) + float(s.min()) * np.asarray(direction)), \
-                tuple(np.asarray(mid) + float(s.max()) * np.asarray(direction))
-    return 0.0, 0.0, mid, mid
+    r = 2.0
+    while True:
+        r = min(r, reach)
+        last = r >= reach
+        g = void_geom if last else shapely.clip_by_rect(void_geom, m[0] - r, m[1] - r, m[0] + r, m[1] + r)
+        inter = shapely.LineString([m - r * u, m + r * u]).intersection(g)
+        for part in shapely.get_parts(inter):
+            if part.geom_type == "LineString" and part.distance(pm) < 1e-3:
+                s = (np.asarray(part.coords) - m) @ u
+                lo, hi = float(s.min()), float(s.max())
+                if last or max(-lo, hi) < r - 1e-6:
+                    return max(0.0, -lo), max(0.0, hi), tuple(m + lo * u), tuple(m + hi * u)
+                break
+        else:
+            if last:
+                return 0.0, 0.0, mid, mid
+        r *= 4
 
 
 def _tangent(line, s):
@@ -217,7 +240,7 @@ def _tangent(line, s):
 def slot_geometry(void, mid, tangent, reach, aspect_limit):
     """gap length and width, the crossing's distances to the two ends, and which end is open."""
     perp = (-tangent[1], tangent[0])
-    rect = void.geom.minimum_rotated_rectangle
+    rect = void.rect
     if void.enclosed and void.geom.area >= 0.6 * rect.area:  # slot- or hole-like: its own rectangle
         c = np.asarray(rect.exterior.coords)[:4]
         e1, e2 = c[1] - c[0], c[2] - c[1]
@@ -319,7 +342,8 @@ def _obstacle_nodes(geom, limit=24, tol=0.02):
         return shapely.get_coordinates(hull)
     if geom.area < 0.9 * hull.area:
         corners = [np.zeros((0, 2))]
-        for poly in shapely.get_parts(shapely.simplify(geom, tol, preserve_topology=True)):
+        # plain Douglas-Peucker: only the corners are wanted, and it is many times cheaper here
+        for poly in shapely.get_parts(shapely.simplify(geom, tol, preserve_topology=False)):
             if poly.geom_type != "Polygon":
                 continue
             c = np.asarray(shapely.orient_polygons(poly).exterior.coords)[:-1]
@@ -373,13 +397,12 @@ class _OutOfBudget(Exception):
     pass
 
 
-def _hull_detour(rc, pa, pb, geom):
-    """The two ways round the convex hull of a gap and both ends, shorter first: the geodesic when the
+def _hull_detour(rc, pa, pb, gap_hull):
+    """The two ways round `gap_hull` (a gap's convex hull) and both ends, shorter first: the geodesic when the
     gap is convex (or the ends lie outside its hull) and nothing else is in the way. An end in a pocket
     of the hull (between the vias of a fence, say) first walks straight out of it, away from the other
     end. Returns (the first way that stays in copper or None, the shorter way's length)."""
     ends = np.array([[pa.x, pa.y], [pb.x, pb.y]])
-    gap_hull = shapely.convex_hull(geom)
     lead = [None, None]
     if gap_hull.geom_type == "Polygon":
         for k in (0, 1):
@@ -395,7 +418,7 @@ def _hull_detour(rc, pa, pb, geom):
             q = min(shapely.get_coordinates(out), key=lambda c: float(np.hypot(*(c - p)))) + u * STEP_OFF_MM
             lead[k] = p.copy()
             ends[k] = q
-    hull = shapely.convex_hull(shapely.multipoints(np.vstack([shapely.get_coordinates(geom), ends])))
+    hull = shapely.convex_hull(shapely.multipoints(np.vstack([shapely.get_coordinates(gap_hull), ends])))
     if hull.geom_type != "Polygon":
         return None, None
     ring = np.asarray(hull.exterior.coords)[:-1]
@@ -425,43 +448,42 @@ def _hull_detour(rc, pa, pb, geom):
 
 
 def _local_geodesic(rc, pa, pb, void_pos, hw, budget=40):
-    """Detour path round the gap, in a growing window so that large voids stay cheap: the taut way
-    round the gap's hull when it is clear, else a visibility-graph search over the corners of the
-    voids in the way (at most `budget` batched tests per window, two windows). Returns
-    (length, path, method) or None; where no way is proven within the budget, the shorter hull way
-    serves as the estimate (method says so)."""
+    """Detour path round the gap, in two small windows and then round the whole gap, so that large
+    voids stay cheap: in each window the taut way round the gap's hull when it is clear, else a
+    visibility-graph search over the corners of the voids in the way (at most `budget` batched tests);
+    last, the taut way round the whole gap's hull. Returns (length, path, method) or None; where no
+    way is proven, the shorter way round the whole hull serves as the estimate (method says so)."""
     void_geom = rc.void_geoms[void_pos]
     vx0, vy0, vx1, vy1 = void_geom.bounds
     r = max(5.0, 4 * hw)
     cx, cy = (pa.x + pb.x) / 2, (pa.y + pb.y) / 2
-    bound = None
-    for attempt in range(8):
+    for _ in range(2):
         box = (cx - r, cy - r, cx + r, cy + r)
         whole = box[0] <= vx0 and box[1] <= vy0 and box[2] >= vx1 and box[3] >= vy1
         focus = void_geom if whole else shapely.clip_by_rect(void_geom, *box)
-        way, shorter = _hull_detour(rc, pa, pb, focus)
+        way, shorter = _hull_detour(rc, pa, pb, rc.hull(void_pos) if whole else shapely.convex_hull(focus))
         if way is not None:
             return way[0], way[1], "hull"
-        if shorter is not None and whole:
-            bound = shorter
-        if attempt < 2:
-            calls = [0]
+        calls = [0]
 
-            def counted(segs, blockers):
-                calls[0] += 1
-                if calls[0] > budget:
-                    raise _OutOfBudget
-                return rc.passable(segs, blockers)
-            try:
-                g = _visibility_detour(rc, pa, pb, box, void_pos, counted)
-            except _OutOfBudget:
-                g = None
-            if g is not None:
-                return g[0], g[1], "visibility"
+        def counted(segs, blockers):
+            calls[0] += 1
+            if calls[0] > budget:
+                raise _OutOfBudget
+            return rc.passable(segs, blockers)
+        try:
+            g = _visibility_detour(rc, pa, pb, box, void_pos, counted)
+        except _OutOfBudget:
+            g = None
+        if g is not None:
+            return g[0], g[1], "visibility"
         if whole:
-            break
+            return (shorter, None, "hull-bound") if shorter is not None else None
         r *= 3
-    return (bound, None, "hull-bound") if bound is not None else None
+    way, shorter = _hull_detour(rc, pa, pb, rc.hull(void_pos))
+    if way is not None:
+        return way[0], way[1], "hull"
+    return (shorter, None, "hull-bound") if shorter is not None else None
 
 
 def majority_net(ln, plane_nets, line, samples=17):
@@ -488,9 +510,11 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         path_line = line
     else:
         # graze: measure along the filament just inside the void's nearest edge
+        d = line.distance(local)
+        if interval_fraction(d, hw, w, ref) < settings.min_interrupted_fraction:
+            return None  # even a void filling the footprint beyond d holds less (|x| >= d there)
         near_line, near_void = shapely.shortest_line(line, local).coords
         mid_s = line.project(shapely.Point(near_line))
-        d = line.distance(local)
         near = local.intersection(line.buffer(hw, cap_style="flat"))
         span = [line.project(shapely.Point(c)) for c in near.exterior.coords] if near.geom_type == "Polygon" else \
             [line.project(shapely.Point(c)) for c in shapely.get_coordinates(near)]

@@ -168,6 +168,16 @@ def reference_changes(board, nets, refs, settings):
     return findings
 
 
+def _segment_tree(lines):
+    """STRtree of the two-point pieces of a (multi)line: nearest-distance queries in log time, where the
+    distance to one large boundary costs a pass over all its vertices."""
+    parts = shapely.get_parts(lines)
+    xy, idx = shapely.get_coordinates(parts, return_index=True)
+    same = idx[1:] == idx[:-1]
+    segs = shapely.linestrings(np.stack([xy[:-1][same], xy[1:][same]], axis=1))
+    return shapely.STRtree(segs)
+
+
 def edge_runs(board, nets, refs, chains, settings, hs):
     """Tracks whose return footprint runs along the edge of their reference plane's copper, or off it
     at a track end. (A track crossing a gap between plane islands is a gap crossing, not an edge run.)"""
@@ -185,14 +195,16 @@ def edge_runs(board, nets, refs, chains, settings, hs):
             copper = ln.union_of(nets.plane_nets)
             outer = shapely.union_all([shapely.Polygon(p.exterior) for p in shapely.get_parts(copper)])
             shapely.prepare(outer)
-            edges[ref.layer] = (outer, outer.boundary)
-        outer, edge = edges[ref.layer]
+            edges[ref.layer] = (outer, _segment_tree(outer.boundary))
+        outer, edge_tree = edges[ref.layer]
         limit = hs.edge_distance_h * ref.h_mm
         step = max(0.05, min(0.25, ref.h_mm / 2))
         n = max(2, int(ch.line.length / step) + 1)
         s = np.linspace(0, ch.line.length, n)
         pts = shapely.line_interpolate_point(ch.line, s)
-        d = shapely.distance(pts, edge)
+        (at, _), dist = edge_tree.query_nearest(pts, return_distance=True, all_matches=False)
+        d = np.empty(n)
+        d[at] = dist
         inside = shapely.intersects(outer, pts)
         cls = np.where(~inside, 2, np.where(d < limit, 1, 0))
         change = np.flatnonzero(np.diff(cls)) + 1
