@@ -1,10 +1,11 @@
 """Synthetic dense boards for the benchmark, written as real Gerber X2 and Excellon by returngap.synth.
 
-A 4-layer board: signal tracks (random Manhattan routes of 50 segments) on L1 and L4, ground on L2
-and a split power plane on L3, vias in proportion to the tracks (each with its antipads), a few
-slots. Deterministic for a given segment count.
+A 4-layer board: signal tracks (meanders of 50 segments, one per cell and layer, never shorted) on
+L1 and L4, ground on L2 and a split power plane on L3, vias in proportion to the tracks (each with
+its antipads), a few slots. Deterministic for a given segment count.
 """
 
+import math
 import random
 import sys
 from pathlib import Path
@@ -14,7 +15,28 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "src"))
 from returngap.synth import SynthBoard, Via, rect  # noqa: E402
 
 
+def _serpentine(rng, lo, hi, per, vertical):
+    """A meander of `per` segments inside the square [lo, hi]^2 that never crosses itself: runs
+    across alternate with small steps along, each run's ends jittered."""
+    w = hi - lo
+    step = w / (per // 2 + 1)
+    pts = []
+    along = lo + step / 2
+    for k in range(per // 2 + 1):
+        a = lo + rng.uniform(0, 0.3) * w
+        b = hi - rng.uniform(0, 0.3) * w
+        run = (a, b) if k % 2 == 0 else (b, a)
+        pts += [(run[0], along), (run[1], along)]
+        along += step
+    pts = pts[:per + 1]
+    return [(y, x) for x, y in pts] if vertical else pts
+
+
 def build(n_segments, seed=1):
+    """Tracks meander each in its own cell of a grid, one on L1 and one on L4 per cell, so nets never
+    short (as on a released board); each track ends in a via at a corner of its cell; GND stitching
+    vias sit at the other corners. Slots in the GND plane and the split in the power plane cross many
+    cells, so there are findings to compute."""
     rng = random.Random(seed)
     side = max(40.0, (n_segments * 1.6) ** 0.5)  # keeps track density roughly constant
     b = SynthBoard(f"bench{n_segments}", side, side, n_layers=4, dielectrics=[(0.2, 4.3), (1.0, 4.3), (0.2, 4.3)])
@@ -26,26 +48,29 @@ def build(n_segments, seed=1):
         y = rng.uniform(5, side - 25)
         b.cutouts.append((2, rect(x - 0.4, y, x + 0.4, y + 15)))
     per = 50
-    n_tracks = max(1, n_segments // per)
-    pitch = side / (n_tracks ** 0.5 + 1)
-    k = 0
-    for t in range(n_tracks):
-        layer = 1 if t % 2 == 0 else 4
-        x, y = rng.uniform(2, side - 2), rng.uniform(2, side - 2)
-        pts = [(x, y)]
-        for s in range(per):
-            step = rng.uniform(0.3, min(3.0, pitch))
-            if s % 2 == 0:
-                x = min(max(1.0, x + rng.choice((-1, 1)) * step), side - 1)
-            else:
-                y = min(max(1.0, y + rng.choice((-1, 1)) * step), side - 1)
-            pts.append((x, y))
-        net = f"SIG{t}"
-        b.tracks.append((layer, net, pts, 0.1))
-        b.vias.append(Via(pts[-1][0], pts[-1][1], net, drill=0.2, pad=0.4, antipad=0.7))
-        k += 1
-    for v in range(n_tracks // 2):
-        b.vias.append(Via(rng.uniform(1, side - 1), rng.uniform(1, side - 1), "GND", drill=0.2, pad=0.4, antipad=0.7))
+    n_tracks = max(2, n_segments // per)
+    m = math.ceil(math.sqrt(n_tracks / 2))
+    pitch = side / m
+    t = 0
+    for cy in range(m):
+        for cx in range(m):
+            if t >= n_tracks:
+                break
+            x0, y0 = cx * pitch, cy * pitch
+            for layer, corner in ((1, (x0 + 0.5, y0 + 0.5)), (4, (x0 + pitch - 0.5, y0 + pitch - 0.5))):
+                if t >= n_tracks:
+                    break
+                pts = [(x0 + u, y0 + v) for u, v in _serpentine(rng, 1.2, pitch - 1.2, per - 1, layer == 4)]
+                pts = [corner] + pts if layer == 1 else pts + [corner]
+                net = f"SIG{t}"
+                b.tracks.append((layer, net, pts, 0.1))
+                b.vias.append(Via(corner[0], corner[1], net, drill=0.2, pad=0.4, antipad=0.7))
+                t += 1
+            if (cx + cy) % 2 == 0:
+                b.vias.append(Via(x0 + pitch - 0.5, y0 + 0.5, "GND", drill=0.2, pad=0.4, antipad=0.7))
+            elif (cx + cy) % 4 == 1:  # the power planes' own vias (else they would float)
+                power = "+3V3" if x0 + pitch / 2 < side / 2 else "+1V8"
+                b.vias.append(Via(x0 + 0.5, y0 + pitch - 0.5, power, drill=0.2, pad=0.4, antipad=0.7))
     return b
 
 

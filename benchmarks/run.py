@@ -7,11 +7,10 @@ of the check, and the fitted scaling exponent of the check time against segment 
 import json
 import math
 import os
-import resource
+import shutil
 import subprocess
 import sys
 import tempfile
-import time
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
@@ -39,30 +38,33 @@ with BoardFiles(sys.argv[1]) as bf:
 print(time.perf_counter() - t)
 """
 
+# What `returngap check` does without --out: every stage and the findings report. Both timers start
+# after the imports, so the two sides are measured alike. Peak memory: this process and its workers.
 CHECK = """
-import sys, time, warnings
+import resource, sys, time, warnings
 warnings.simplefilter("ignore")
-t = time.perf_counter()
 from returngap.pipeline import run_check
+from returngap import report
+t = time.perf_counter()
 r = run_check(sys.argv[1], sys.argv[2] if len(sys.argv) > 2 and sys.argv[2] else None)
+report.findings_report(r)
+dt = time.perf_counter() - t
 segs = sum(len(l.segments) for l in r.board.copper)
-print(time.perf_counter() - t, segs, len(r.findings))
+peak = max(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)
+print(dt, segs, len(r.findings), peak / 1024)
 """
 
 
 def run(code, *args):
-    t0 = time.perf_counter()
     p = subprocess.run([sys.executable, "-c", code, *map(str, args)], capture_output=True, text=True)
-    wall = time.perf_counter() - t0
     if p.returncode != 0:
         raise RuntimeError(p.stderr[-500:])
-    ru = resource.getrusage(resource.RUSAGE_CHILDREN)
-    return p.stdout.split(), wall, ru.ru_maxrss / 1024
+    return p.stdout.split()
 
 
 def main():
     sizes = [int(x) for x in os.environ.get("BENCH_SIZES", "2500,10000,40000").split(",")]
-    tmp = Path(tempfile.mkdtemp(prefix="returngap-bench-"))
+    tmp = Path(tempfile.mkdtemp(prefix="returngap-bench-"))  # removed at the end
     subprocess.run([sys.executable, str(HERE / "make_boards.py"), str(tmp), *map(str, sizes)], check=True,
                    capture_output=True)
     cases = [(f"synthetic {n}", tmp / f"seg{n}", None, n) for n in sizes]
@@ -72,15 +74,9 @@ def main():
     rows = []
     print(f"{'case':26} {'segments':>9} {'parse s':>8} {'check s':>8} {'ratio':>6} {'check MiB':>9} {'findings':>8}")
     for name, path, stack, _ in cases:
-        (tp,), _, _ = run(PARSE, path)
-        (tc, segs, nf), _, _ = run(CHECK, path, stack or "")
-        # peak memory of the check alone: a fresh measurement with /usr/bin/time-like accounting
-        p = subprocess.run([sys.executable, "-c", "import resource,subprocess,sys;"
-                            "subprocess.run([sys.executable,'-c',sys.argv[1],sys.argv[2],sys.argv[3]]);"
-                            "print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)", CHECK, str(path),
-                            stack or ""], capture_output=True, text=True)
-        mem = int(p.stdout.split()[-1]) / 1024
-        tp, tc = float(tp), float(tc)
+        (tp,) = run(PARSE, path)
+        tc, segs, nf, mem = run(CHECK, path, stack or "")
+        tp, tc, mem = float(tp), float(tc), float(mem)
         rows.append({"case": name, "segments": int(segs), "parse_s": tp, "check_s": tc, "ratio": tc / tp,
                      "check_peak_MiB": mem, "findings": int(nf)})
         r = rows[-1]
@@ -97,6 +93,7 @@ def main():
     median = ratios[len(ratios) // 2] if len(ratios) % 2 else (ratios[len(ratios) // 2 - 1] + ratios[len(ratios) // 2]) / 2
     (ROOT / "out").mkdir(exist_ok=True)
     (ROOT / "out" / "bench.json").write_text(json.dumps({"rows": rows, "exponent": exponent}, indent=1))
+    shutil.rmtree(tmp, ignore_errors=True)
     print(f"bench: ratio_check_to_parse={median:.2f} exponent={exponent:.2f}")
 
 

@@ -114,3 +114,34 @@ def test_finding_ids_are_stable(tmp_path):
     a = gaps(slot_board(tmp_path / "a"))
     b = gaps(slot_board(tmp_path / "b"))
     assert [x["id"] for x in a] == [x["id"] for x in b]
+
+
+def test_footprint_overlap_is_the_footprint_area_in_the_gap():
+    """The local buffer gives the area of the whole footprint in the gap: from geometry (a straight
+    track across a strip: 2 hw x strip width) and against shapely's buffer of the whole track."""
+    import shapely
+    from returngap import detector
+    line = shapely.LineString([(0, 0), (40, 0), (40, 30), (5, 30)])
+    hw = 1.3
+    strip = shapely.box(19.5, -5, 20.5, 5)
+    assert detector._footprint_overlap(line, hw, strip) == pytest.approx(2 * hw * 1.0, rel=1e-9)
+    whole = shapely.buffer(line, hw, quad_segs=4, cap_style="flat", join_style="round")
+    for region in (shapely.box(38, -3, 45, 3), shapely.box(3, 28, 8, 33), shapely.Point(40, 30).buffer(2)):
+        assert detector._footprint_overlap(line, hw, region) == pytest.approx(whole.intersection(region).area, rel=1e-6)
+
+
+def test_two_processes_give_the_same_findings(tmp_path, monkeypatch):
+    """The gap scan split over two forked processes returns what one process does, in the same order."""
+    from pathlib import Path
+    from returngap import detector
+    demo = Path(__file__).resolve().parents[1] / "examples" / "demo-board"
+    stack = demo / "stackup.toml"
+    one = run_check(demo, stack, settings=Settings(workers=1)).findings
+    monkeypatch.setattr(detector, "PARALLEL_MIN_CHAINS", 1)
+    monkeypatch.setattr(detector.threading, "active_count", lambda: 1)  # other tests' threads aside
+    pools = []
+    real_pool = detector.ProcessPoolExecutor
+    monkeypatch.setattr(detector, "ProcessPoolExecutor", lambda *a, **k: pools.append(1) or real_pool(*a, **k))
+    two = run_check(demo, stack, settings=Settings(workers=2)).findings
+    assert pools, "the two-process path did not run"
+    assert len(one) > 5 and one == two

@@ -21,7 +21,8 @@ def main(argv):
     from .pipeline import run_check
     from .projector import Settings
     s = task["settings"]
-    settings = Settings(rise_time_ns=s["rise_time_ns"], max_freq_GHz=s.get("max_freq_GHz"))
+    # one process per board: the batch spreads boards over the cores, so no second process here
+    settings = Settings(rise_time_ns=s["rise_time_ns"], max_freq_GHz=s.get("max_freq_GHz"), workers=1)
     try:
         result = run_check(task["source"], task["stackup"], settings, scratch=str(here))
         rep = report.findings_report(result)

@@ -60,21 +60,49 @@ class LayerNets:
     def island(self, i):
         """Polygon (rarely a MultiPolygon, where pieces only touch at a point) of island i."""
         poly = self._poly.get(i)
-        if poly is None:
-            m = self.members(i)
-            poly = self.pieces[m[0]] if len(m) == 1 else shapely.union_all(self.pieces[m])
-            if not poly.is_valid:
-                poly = shapely.make_valid(poly)
-            shapely.prepare(poly)
-            self._poly[i] = poly
-        return poly
+        return poly if poly is not None else self.island_polygons([i])[0]
+
+    def island_polygons(self, idx):
+        """Polygons of many islands, unioned in a few vectorised calls (islands bucketed by piece
+        count, padded; shapely releases the GIL there, so layers can go in parallel threads)."""
+        idx = [int(i) for i in idx]
+        need = np.array(sorted({i for i in idx if i not in self._poly}), dtype=int)
+        if len(need):
+            size = self._start[need + 1] - self._start[need]
+            polys = np.empty(len(need), dtype=object)
+            one = size == 1
+            polys[one] = self.pieces[self._order[self._start[need[one]]]]
+            bucket = np.ceil(np.log2(np.maximum(size, 1))).astype(int)
+            for b in np.unique(bucket[~one]):
+                rows = np.flatnonzero((bucket == b) & ~one)
+                grid = np.full((len(rows), int(size[rows].max())), None, dtype=object)
+                for r, k in enumerate(rows):
+                    grid[r, :size[k]] = self.pieces[self.members(need[k])]
+                polys[rows] = shapely.union_all(grid, axis=1)
+            bad = ~shapely.is_valid(polys[one]) if one.any() else np.zeros(0, dtype=bool)
+            if bad.any():  # a drawn region that crosses itself; unions come out valid
+                at = np.flatnonzero(one)[bad]
+                polys[at] = shapely.make_valid(polys[at])
+            shapely.prepare(polys)
+            self._poly.update(zip(need.tolist(), polys))
+        return [self._poly[i] for i in idx]
 
     def island_area(self, i):
         return float(self.island(i).area)
 
+    def island_areas(self):
+        """Area of every island (each island's union, built once and kept)."""
+        return shapely.area(np.array(self.island_polygons(range(self.n_islands)), dtype=object)) \
+            if self.n_islands else np.zeros(0)
+
+    def piece_area_bound(self):
+        """Per island, the sum of its pieces' areas: at least its true area."""
+        return np.bincount(self.piece_island, weights=shapely.area(self.pieces), minlength=self.n_islands)
+
     def islands_of(self, nets):
         """(index, polygon) of every island whose net is in `nets`."""
-        return [(i, self.island(i)) for i, n in enumerate(self.island_net) if n in nets]
+        idx = [i for i, n in enumerate(self.island_net) if n in nets]
+        return list(zip(idx, self.island_polygons(idx)))
 
     def union_of(self, nets):
         """All copper of the given nets on this layer, as one geometry (cached)."""
@@ -333,21 +361,21 @@ def build_nets(board, user_cfg=None):
         ln.island_tied[list(tied[li] | set(fl_isl.tolist()))] = True
         ln.segment_fill = _fill_segments(layer, ln, seg_isl, pairs)
     net_class = classify(sorted(set(node_net.values())), user_cfg)
-    area_by_net = Counter()
     big = set()
     board_area = board.outline.area or 1.0
     for li, layer in enumerate(board.copper):
         ln = layers[layer.name]
-        total = 0.0
-        for i, n in enumerate(ln.island_net):
-            a = ln.island_area(i)
-            area_by_net[n] += a
-            total += a
-            if a >= PLANE_AREA_FRACTION * board_area:
-                big.add(n)
-        layer._area = total
+        # only islands whose pieces could add up to a plane are unioned here
+        for i in np.flatnonzero(ln.piece_area_bound() >= PLANE_AREA_FRACTION * board_area):
+            if ln.island_area(int(i)) >= PLANE_AREA_FRACTION * board_area:
+                big.add(ln.island_net[i])
+        layer._area_of = ln.island_areas  # the layer's copper area, when a report asks for it
     notes = []
-    if not any(c == "ground" for c in net_class.values()) and area_by_net:
+    if not any(c == "ground" for c in net_class.values()) and any(ln.n_islands for ln in layers.values()):
+        area_by_net = Counter()
+        for ln in layers.values():
+            for n, a in zip(ln.island_net, ln.island_areas()):
+                area_by_net[n] += float(a)
         gnd = max(area_by_net.items(), key=lambda kv: (kv[1], kv[0]))[0]
         net_class[gnd] = "ground"
         notes.append(f"no net is named like a ground: {gnd}, the net with the most copper "

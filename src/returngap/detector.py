@@ -13,6 +13,11 @@ import functools
 import hashlib
 import heapq
 import math
+import multiprocessing
+import os
+import threading
+from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass
 
 import numpy as np
@@ -263,44 +268,59 @@ def slot_geometry(void, mid, tangent, reach, aspect_limit):
     return dict(length=l1 + l2, width=None, l1=l1, l2=l2, end1=end1, end2=end2, elongated=True)
 
 
-def detect_gap_crossings(board, nets, refs, chains, settings):
-    """All gap-crossing findings, as dicts (see report.FINDING_FIELDS)."""
-    findings = []
-    copper_cache = {}
-    reach = math.hypot(*(np.subtract(board.outline.bounds[2:], board.outline.bounds[:2])))
-    own_holes = {}
-    for x, y, _r, net, _a, _b in nets.plated_holes(board):
-        own_holes.setdefault(net, []).append((x, y))
-    own_hole_pts = {n: shapely.points(np.array(v)) for n, v in own_holes.items()}
-    ref_by_layer = {(s, r.layer): r for s, rs in refs.items() for r in rs}
-    seen = set()
-    for ch in chains:
-        for ref_layer, (fp, hw) in ch.footprints.items():
-            ref = ref_by_layer[(ch.layer, ref_layer)]
-            ln = nets.layers[ref_layer]
-            if fp.is_empty:
-                continue
-            # the reference net: the plane net under most of the centre line
-            ref_net = majority_net(ln, nets.plane_nets, ch.line)
-            if ref_net is None:
-                continue
-            rc = copper_cache.get(ref_layer)
-            if rc is None:
-                rc = copper_cache[ref_layer] = ReferenceCopper(ln, nets.plane_nets, board.outline)
+PARALLEL_MIN_CHAINS = 300  # below this a second process costs more than it saves (measured by make bench)
+
+
+class _GapScan:
+    """What every chain's gap scan shares: the reference copper of each plane layer (built once) and
+    the holes of each net."""
+
+    def __init__(self, board, nets, refs, settings):
+        self.board, self.nets, self.settings = board, nets, settings
+        self.reach = math.hypot(*(np.subtract(board.outline.bounds[2:], board.outline.bounds[:2])))
+        own_holes = {}
+        for x, y, _r, net, _a, _b in nets.plated_holes(board):
+            own_holes.setdefault(net, []).append((x, y))
+        self.own_hole_pts = {n: shapely.points(np.array(v)) for n, v in own_holes.items()}
+        self.ref_by_layer = {(s, r.layer): r for s, rs in refs.items() for r in rs}
+        self._copper = {}
+
+    def copper(self, ref_layer):
+        rc = self._copper.get(ref_layer)
+        if rc is None:
+            rc = self._copper[ref_layer] = ReferenceCopper(self.nets.layers[ref_layer], self.nets.plane_nets,
+                                                           self.board.outline)
+        return rc
+
+    def chain(self, ch):
+        """(key, finding) of every gap one chain's footprints meet."""
+        out = []
+        for ref_layer in ch.footprints:
+            hw = ch.footprints.halfwidth(ref_layer)
+            ref = self.ref_by_layer[(ch.layer, ref_layer)]
+            ln = self.nets.layers[ref_layer]
+            rc = self.copper(ref_layer)
             if not rc.voids:
                 continue
             line = ch.line
-            box = fp.bounds
-            for vi in rc.void_tree.query(fp, predicate="intersects"):
+            near = np.sort(rc.void_tree.query(line, predicate="dwithin", distance=hw))  # every void fp meets
+            own = self.own_hole_pts.get(ch.net)
+            if own is not None:  # the antipad of the track's own via belongs to its layer change
+                near = [k for k in near if not (rc.voids[k].enclosed and shapely.intersects(rc.void_geoms[k], own).any())]
+            if not len(near):
+                continue
+            # the reference net: the plane net under most of the centre line
+            ref_net = majority_net(ln, self.nets.plane_nets, line)
+            if ref_net is None:
+                continue
+            lx0, ly0, lx1, ly1 = line.bounds
+            box = (lx0 - hw, ly0 - hw, lx1 + hw, ly1 + hw)  # the footprint's bounds
+            for vi in near:
                 void = rc.voids[int(vi)]
                 # clip first: the void outside all plane copper can be as large as the board
                 local = shapely.clip_by_rect(void.geom, box[0] - 0.1, box[1] - 0.1, box[2] + 0.1, box[3] + 0.1)
-                gap = fp.intersection(local)
-                if gap.area < 1e-4:
+                if local.is_empty or _footprint_overlap(line, hw, local) < 1e-4:
                     continue
-                if void.enclosed and ch.net in own_hole_pts and \
-                        shapely.intersects(void.geom, own_hole_pts[ch.net]).any():
-                    continue  # the antipad of the track's own via belongs to its layer change
                 crossing = line.intersection(local)
                 pieces = []
                 for part in shapely.get_parts(crossing):
@@ -323,15 +343,76 @@ def detect_gap_crossings(board, nets, refs, chains, settings):
                 if not pieces and void.enclosed:
                     events.append(("graze", None, None))
                 for ev, s0, s1 in events:
-                    f = _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, settings, ref_net)
-                    if f is None:
-                        continue
-                    key = (f["net"], f["layer"], f["reference_layer"], void.index, round(f["x_mm"], 1), round(f["y_mm"], 1))
-                    if key in seen:
-                        continue
-                    seen.add(key)
-                    findings.append(f)
+                    f = _finding(self.board, ch, ref, rc, void, local, line, hw, ev, s0, s1, self.reach,
+                                 self.settings, ref_net)
+                    if f is not None:
+                        out.append(((f["net"], f["layer"], f["reference_layer"], void.index, round(f["x_mm"], 1),
+                                     round(f["y_mm"], 1)), f))
+        return out
+
+
+_FORKED = None  # (scan, chains) inherited by forked workers
+
+
+def _scan_slice(k, n):
+    scan, chains = _FORKED
+    return [(i, scan.chain(chains[i])) for i in range(k, len(chains), n)]
+
+
+def _auto_workers(settings, n_chains):
+    want = getattr(settings, "workers", 0) or min(2, os.cpu_count() or 1)
+    # fork only from a single-threaded process (a batch run's threads could hold locks)
+    if want < 2 or n_chains < PARALLEL_MIN_CHAINS or threading.active_count() > 1 or \
+            "fork" not in multiprocessing.get_all_start_methods():
+        return 1
+    return want
+
+
+def _scan_all(scan, chains, workers):
+    global _FORKED
+    if workers > 1:
+        for layer in {r for ch in chains for r in ch.footprints}:
+            scan.copper(layer)  # built once here, shared with the workers by fork
+        _FORKED = (scan, chains)
+        try:
+            n = workers * 8  # many small slices: the pool balances uneven chains
+            with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork")) as pool:
+                parts = list(pool.map(_scan_slice, range(n), [n] * n))
+            out = [None] * len(chains)
+            for part in parts:
+                for i, r in part:
+                    out[i] = r
+            return out
+        except (OSError, BrokenProcessPool):
+            pass  # no second process here: do it all in this one
+        finally:
+            _FORKED = None
+    return [scan.chain(ch) for ch in chains]
+
+
+def detect_gap_crossings(board, nets, refs, chains, settings):
+    """All gap-crossing findings, as dicts (see report.FINDING_FIELDS). Chains are scanned in two
+    processes on a large board; the result is the same as one process's, in the same order."""
+    scan = _GapScan(board, nets, refs, settings)
+    findings, seen = [], set()
+    for found in _scan_all(scan, chains, _auto_workers(settings, len(chains))):
+        for key, f in found:
+            if key not in seen:
+                seen.add(key)
+                findings.append(f)
     return findings
+
+
+def _footprint_overlap(line, hw, region):
+    """Area of the track's return footprint (flat-capped buffer of half-width hw) inside `region`,
+    buffering only the stretch of line within hw of the region's box: exact, since footprint points
+    in the box come only from line points within hw of it."""
+    x0, y0, x1, y1 = region.bounds
+    piece = shapely.clip_by_rect(line, x0 - hw - 0.01, y0 - hw - 0.01, x1 + hw + 0.01, y1 + hw + 0.01)
+    if piece.is_empty:
+        return 0.0
+    fp = shapely.buffer(piece, hw, quad_segs=4, cap_style="flat", join_style="round")
+    return float(shapely.area(shapely.intersection(fp, region)))
 
 
 def _obstacle_nodes(geom, limit=24, tol=0.02):

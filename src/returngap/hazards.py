@@ -57,6 +57,15 @@ def _plane_net_near(ln, plane_nets, x, y, reach=2.0):
 
 def _parts_bridging(board, nets, net_a, net_b):
     """Centres of two-terminal parts with one pad on each net (from .P attributes or the netlist)."""
+    table = getattr(nets, "_two_pin_parts", None)
+    if table is None:
+        table = nets._two_pin_parts = _two_pin_parts(board, nets)  # once per board, not per via
+    by_nets, known = table
+    return list(by_nets.get(frozenset((net_a, net_b)), [])), known
+
+
+def _two_pin_parts(board, nets):
+    """Two-terminal parts by the set of their two nets, and whether the data tells parts at all."""
     pads = {}
     for layer in board.copper:
         ln = nets.layers[layer.name]
@@ -66,15 +75,13 @@ def _parts_bridging(board, nets, net_a, net_b):
     for p in board.netlist:
         if p.refdes and p.pin and not p.is_via:
             pads.setdefault(p.refdes, {})[p.pin] = (p.x, p.y, p.net)
-    known = bool(pads)
-    out = []
+    by_nets = {}
     for ref, pins in pads.items():
         if len(pins) != 2:
             continue
         (xa, ya, na), (xb, yb, nb) = pins.values()
-        if {na, nb} == {net_a, net_b}:
-            out.append((ref, (xa + xb) / 2, (ya + yb) / 2))
-    return out, known
+        by_nets.setdefault(frozenset((na, nb)), []).append((ref, (xa + xb) / 2, (ya + yb) / 2))
+    return by_nets, bool(pads)
 
 
 def reference_changes(board, nets, refs, settings):
@@ -198,14 +205,20 @@ def edge_runs(board, nets, refs, chains, settings, hs):
             edges[ref.layer] = (outer, _segment_tree(outer.boundary))
         outer, edge_tree = edges[ref.layer]
         limit = hs.edge_distance_h * ref.h_mm
+        if not len(edge_tree.query(ch.line, predicate="dwithin", distance=limit)) and outer.contains(ch.line):
+            continue  # on the plane and nowhere near its edge: nothing to sample
         step = max(0.05, min(0.25, ref.h_mm / 2))
         n = max(2, int(ch.line.length / step) + 1)
         s = np.linspace(0, ch.line.length, n)
         pts = shapely.line_interpolate_point(ch.line, s)
-        (at, _), dist = edge_tree.query_nearest(pts, return_distance=True, all_matches=False)
-        d = np.empty(n)
-        d[at] = dist
         inside = shapely.intersects(outer, pts)
+        near = np.zeros(n, dtype=bool)
+        near[edge_tree.query(pts, predicate="dwithin", distance=limit)[0]] = True
+        look = np.flatnonzero(~inside | near)  # exact distances only here
+        d = np.full(n, np.inf)
+        if len(look):
+            (at, _), dist = edge_tree.query_nearest(pts[look], return_distance=True, all_matches=False)
+            d[look[at]] = dist
         cls = np.where(~inside, 2, np.where(d < limit, 1, 0))
         change = np.flatnonzero(np.diff(cls)) + 1
         for a, b in zip(np.concatenate([[0], change]), np.concatenate([change, [n]])):
@@ -248,10 +261,9 @@ def floating_copper(board, nets, refs, chains, settings, hs):
             continue
         ttree = shapely.STRtree(np.array([c.line for c in tracks], dtype=object))
         track_nets = {c.net for c in chains if c.layer == layer.name}
-        for i, net in enumerate(ln.island_net):
-            if ln.island_tied[i] or net in track_nets:
-                continue
-            isl = ln.island(i)
+        cand = [i for i, net in enumerate(ln.island_net) if not ln.island_tied[i] and net not in track_nets]
+        for i, isl in zip(cand, ln.island_polygons(cand)):
+            net = ln.island_net[i]
             if isl.area < hs.floating_min_area_mm2:
                 continue
             if len(hole_tree.query(isl, predicate="intersects")) or len(pad_tree.query(isl, predicate="intersects")):

@@ -55,9 +55,11 @@ class CopperLayer:
 
     @property
     def copper_area_mm2(self):
-        # set by connectivity from its islands (exact, without a whole-layer union); else the union
-        area = getattr(self, "_area", None)
-        return float(self.geometry.area) if area is None else area
+        # from connectivity's islands when it has run (exact, without a whole-layer union); else the union
+        if getattr(self, "_area", None) is None:
+            of = getattr(self, "_area_of", None)
+            self._area = float(of().sum()) if of is not None else float(self.geometry.area)
+        return self._area
 
     def object_nets(self):
         return {n for n in self.segment_net + self.flash_net + [r[1] for r in self.regions] if n}

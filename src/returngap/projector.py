@@ -10,7 +10,8 @@ return current (REFERENCE: 1/(1+(x/h)^2) for microstrip, the two-plate law for s
 import fnmatch
 import math
 from collections import defaultdict
-from dataclasses import dataclass, field
+from collections.abc import Mapping
+from dataclasses import dataclass
 
 import numpy as np
 import shapely
@@ -35,6 +36,7 @@ class Settings:
     slot_aspect_ratio: float = 3.0     # elongated beyond this: a slot, else a void (common practice, no source)
     plane_min_fraction: float = 0.20   # a layer whose plane-net copper covers this share of the board is a reference
     nets: tuple = ()                   # glob patterns; empty = every signal net
+    workers: int = 0                   # processes for the gap scan: 0 = both cores on a large board, 1 = one
 
     @property
     def rise_ns(self):
@@ -70,13 +72,44 @@ class Reference:
         return "stripline" if self.other_h_mm is not None else "microstrip"
 
 
+class Footprints(Mapping):
+    """Reference layer -> (footprint polygon, half-width) of one chain. A polygon is buffered only when
+    first asked for: most tracks meet no gap, and the half-width alone answers 'is a gap near?'."""
+
+    def __init__(self, line, outline):
+        self._line, self._outline = line, outline
+        self._hw, self._poly = {}, {}
+
+    def add(self, ref_layer, halfwidth):
+        self._hw[ref_layer] = halfwidth
+
+    def halfwidth(self, ref_layer):
+        return self._hw[ref_layer]
+
+    def __getitem__(self, ref_layer):
+        hw = self._hw[ref_layer]
+        if ref_layer not in self._poly:
+            fp = shapely.buffer(self._line, hw, quad_segs=4, cap_style="flat", join_style="round")
+            self._poly[ref_layer] = fp.intersection(self._outline)
+        return self._poly[ref_layer], hw
+
+    def __contains__(self, ref_layer):
+        return ref_layer in self._hw  # without buffering
+
+    def __iter__(self):
+        return iter(self._hw)
+
+    def __len__(self):
+        return len(self._hw)
+
+
 @dataclass
 class Chain:
     net: str
     layer: str
     width_mm: float
     line: object                # shapely LineString
-    footprints: dict = field(default_factory=dict)  # reference layer -> (polygon, half-width)
+    footprints: Footprints = None  # reference layer -> (polygon, half-width)
 
 
 def plane_layers(board, nets, settings):
@@ -145,23 +178,25 @@ def chains(board, nets, refs, settings):
         if not refs.get(layer.name):
             continue
         ln = nets.layers[layer.name]
+        seg = layer.segments
+        if not len(seg):
+            continue
+        fill = ln.segment_fill if ln.segment_fill is not None else np.zeros(len(seg), dtype=bool)
+        net_ok = {n: nets.is_signal(n) and wanted(n, settings) for n in set(ln.segment_net)}
+        ok = np.fromiter((net_ok[n] for n in ln.segment_net), bool, len(seg))
+        ok &= np.fromiter((fn not in NON_TRACK_FUNCTIONS for fn in layer.segment_function), bool, len(seg))
+        ok &= ~np.asarray(fill, dtype=bool) & (seg[:, 4] > 0) & ((seg[:, 0] != seg[:, 2]) | (seg[:, 1] != seg[:, 3]))
         groups = defaultdict(list)
-        fill = ln.segment_fill if ln.segment_fill is not None else np.zeros(len(layer.segments), dtype=bool)
-        for seg, net, fn, filled in zip(layer.segments, ln.segment_net, layer.segment_function, fill):
-            if filled or not nets.is_signal(net) or fn in NON_TRACK_FUNCTIONS or seg[4] <= 0 or not wanted(net, settings):
-                continue
-            if seg[0] == seg[2] and seg[1] == seg[3]:
-                continue
-            groups[(net, round(float(seg[4]), 4))].append(((seg[0], seg[1]), (seg[2], seg[3])))
-        for (net, w), segs in sorted(groups.items()):
-            merged = shapely.line_merge(shapely.set_precision(shapely.MultiLineString(segs), 1e-5))
+        for k, w in zip(np.flatnonzero(ok).tolist(), np.round(seg[ok, 4], 4).tolist()):
+            groups[(ln.segment_net[k], w)].append(k)
+        for (net, w), rows in sorted(groups.items()):
+            lines = shapely.linestrings(seg[rows, :4].reshape(-1, 2, 2))
+            merged = shapely.line_merge(shapely.set_precision(shapely.multilinestrings(lines), 1e-5))
             for line in shapely.get_parts(merged):
                 if line.length <= 0:
                     continue
-                ch = Chain(net, layer.name, w, line)
+                ch = Chain(net, layer.name, w, line, Footprints(line, board.outline))
                 for ref in refs[layer.name]:
-                    hw = footprint_halfwidth(w, ref, settings.current_fraction)
-                    fp = shapely.buffer(line, hw, quad_segs=4, cap_style="flat", join_style="round")
-                    ch.footprints[ref.layer] = (fp.intersection(board.outline), hw)
+                    ch.footprints.add(ref.layer, footprint_halfwidth(w, ref, settings.current_fraction))
                 out.append(ch)
     return out

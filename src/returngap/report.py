@@ -4,6 +4,7 @@ Floats are rounded to fixed decimals so that the same input gives byte-identical
 """
 
 import json
+from concurrent.futures import ThreadPoolExecutor
 import math
 from importlib import resources
 
@@ -32,6 +33,8 @@ def clean(value):
 
 def board_summary(board, nets=None):
     st = board.stackup
+    with ThreadPoolExecutor(2) as pool:  # the layers' island unions release the GIL: both cores
+        list(pool.map(lambda c: c.copper_area_mm2, board.copper))
     heights = []
     names = [c.name for c in board.copper]
     for i, name in enumerate(names):
