@@ -7,14 +7,15 @@ when no net is named like a ground, the net with the most copper is taken as gro
 
 import fnmatch
 import re
+import weakref
 from collections import Counter, defaultdict
 from dataclasses import dataclass, field
 
 import networkx as nx
 import numpy as np
 import shapely
-from scipy.sparse import coo_matrix
-from scipy.sparse.csgraph import connected_components
+
+from .shapes import intersects_pairs, touch_components
 
 GROUND_RE = re.compile(r"^(?:[ADPSCH]?GND\w*|GND\w*|VSS\w*|0V|EARTH|CHASSIS|GROUND\w*|\w*_GND|\w*GND)$", re.I)
 POWER_RE = re.compile(r"^(?:\+|-)?(?:V(?:CC|DD|EE|BUS|BAT|IN|IO|REF|CORE|SYS|PP|DDQ|TT)\w*|PWR\w*|POWER\w*|"
@@ -72,9 +73,16 @@ class LayerNets:
             polys = np.empty(len(need), dtype=object)
             one = size == 1
             polys[one] = self.pieces[self._order[self._start[need[one]]]]
+            many = size > 16
+            for k in np.flatnonzero(many):  # planes and pours: most pads drawn on them add nothing
+                m = self.pieces[self.members(need[k])]
+                at = int(np.argmax(shapely.area(m)))
+                big, rest = m[at], np.delete(m, at)
+                shapely.prepare(big)
+                polys[k] = shapely.union_all(np.concatenate([[big], rest[~shapely.covers(big, rest)]]))
             bucket = np.ceil(np.log2(np.maximum(size, 1))).astype(int)
-            for b in np.unique(bucket[~one]):
-                rows = np.flatnonzero((bucket == b) & ~one)
+            for b in np.unique(bucket[~one & ~many]):
+                rows = np.flatnonzero((bucket == b) & ~one & ~many)
                 grid = np.full((len(rows), int(size[rows].max())), None, dtype=object)
                 for r, k in enumerate(rows):
                     grid[r, :size[k]] = self.pieces[self.members(need[k])]
@@ -95,9 +103,12 @@ class LayerNets:
         return shapely.area(np.array(self.island_polygons(range(self.n_islands)), dtype=object)) \
             if self.n_islands else np.zeros(0)
 
-    def piece_area_bound(self):
-        """Per island, the sum of its pieces' areas: at least its true area."""
-        return np.bincount(self.piece_island, weights=shapely.area(self.pieces), minlength=self.n_islands)
+    def piece_area_bounds(self):
+        """Per island, (sum of its pieces' areas, largest piece's area): its area lies between."""
+        area = shapely.area(self.pieces)
+        largest = np.zeros(self.n_islands)
+        np.maximum.at(largest, self.piece_island, area)
+        return np.bincount(self.piece_island, weights=area, minlength=self.n_islands), largest
 
     def islands_of(self, nets):
         """(index, polygon) of every island whose net is in `nets`."""
@@ -108,8 +119,10 @@ class LayerNets:
         """All copper of the given nets on this layer, as one geometry (cached)."""
         key = frozenset(nets)
         if key not in self._union:
-            parts = [p for _, p in self.islands_of(key)]
-            self._union[key] = shapely.union_all(parts) if parts else shapely.Polygon()
+            # islands never touch one another, so their parts together are already a valid MultiPolygon
+            parts = shapely.get_parts(np.array([p for _, p in self.islands_of(key)], dtype=object))
+            parts = [p for p in parts if p.geom_type == "Polygon" and not p.is_empty]
+            self._union[key] = shapely.multipolygons(np.array(parts, dtype=object)) if parts else shapely.Polygon()
         return self._union[key]
 
     def islands_at(self, pts, distance=0.0):
@@ -159,16 +172,13 @@ def touching(tree, pieces, geoms):
     q = tree.query(geoms)
     if not q.shape[1]:
         return q
-    return q[:, intersects_pairs(geoms[q[0]], pieces[q[1]])]
+    counts = _VERTEX_COUNTS.get(tree)
+    if counts is None:
+        counts = _VERTEX_COUNTS[tree] = shapely.get_num_coordinates(tree.geometries)
+    return q[:, intersects_pairs(geoms[q[0]], pieces[q[1]], nb=counts[q[1]])]
 
 
-def intersects_pairs(a, b):
-    """Elementwise intersects, evaluated from the side with more vertices (prepared there)."""
-    b_big = shapely.get_num_coordinates(b) >= shapely.get_num_coordinates(a)
-    ok = np.empty(len(a), dtype=bool)
-    ok[b_big] = shapely.intersects(b[b_big], a[b_big])
-    ok[~b_big] = shapely.intersects(a[~b_big], b[~b_big])
-    return ok
+_VERTEX_COUNTS = weakref.WeakKeyDictionary()  # tree -> vertex count of each of its geometries
 
 
 def _island_index(piece_island, tree, xy):
@@ -184,24 +194,6 @@ def _island_index(piece_island, tree, xy):
         near = tree.query_nearest(pts[miss], all_matches=False)
         out[miss[near[0]]] = piece_island[near[1]]
     return out
-
-
-def _components(pieces, tree):
-    """Island index per piece: connected components of the touch graph (C-speed, no Python loop)."""
-    n = len(pieces)
-    if not n:
-        return np.zeros(0, dtype=int), 0, np.zeros((2, 0), dtype=int)
-    pairs = tree.query(pieces)
-    pairs = pairs[:, pairs[0] < pairs[1]]
-    pairs = pairs[:, intersects_pairs(pieces[pairs[0]], pieces[pairs[1]])]
-    graph = coo_matrix((np.ones(pairs.shape[1], dtype=np.int8), (pairs[0], pairs[1])), shape=(n, n))
-    count, labels = connected_components(graph, directed=False)
-    # number islands by their first piece, so that names stay stable for the same files
-    first = np.full(count, n, dtype=int)
-    np.minimum.at(first, labels, np.arange(n))
-    rank = np.empty(count, dtype=int)
-    rank[np.argsort(first, kind="stable")] = np.arange(count)
-    return rank[labels], count, pairs
 
 
 FILL_OVERLAP = 1.6  # strokes covering an island this many times over are a pour, not tracks
@@ -261,7 +253,7 @@ def build_nets(board, user_cfg=None):
         pieces = layer.pieces
         shapely.prepare(pieces)  # point and hole tests below and in later stages
         tree = shapely.STRtree(pieces)
-        piece_island, count, pairs = _components(pieces, tree)
+        piece_island, count, pairs = touch_components(pieces, tree)
         seg_isl = np.zeros(0, dtype=int)
         fl_isl = np.zeros(0, dtype=int)
         if count:
@@ -341,13 +333,16 @@ def build_nets(board, user_cfg=None):
     for li, layer in enumerate(board.copper):
         piece_island, tree, seg_isl, fl_isl, count, pairs = per_layer[layer.name]
         layers[layer.name] = LayerNets(layer.name, layer.pieces, piece_island, [None] * count, [], [], None, tree)
-    # stable generated names: order by the first island's layer and position (its first piece's bounds)
+    # stable generated names: order by layer and position (the centre of an island's bounds) of the
+    # component's first island in that order, whatever order the pieces were drawn in
+
+    def place(li, i):
+        ln = layers[board.copper[li].name]
+        b = shapely.bounds(ln.pieces[ln.members(i)])
+        return (li, round((b[:, 0].min() + b[:, 2].max()) / 2, 3), round((b[:, 1].min() + b[:, 3].max()) / 2, 3))
 
     def key(comp):
-        li, i = comp[0]
-        ln = layers[board.copper[li].name]
-        b = ln.pieces[ln.members(i)[0]].bounds
-        return (li, round((b[0] + b[2]) / 2, 3), round((b[1] + b[3]) / 2, 3))
+        return min(place(li, i) for li, i in comp)
     for k, comp in enumerate(sorted(unnamed, key=key)):
         for node in comp:
             node_net[node] = f"UNNAMED_{k + 1:04d}"
@@ -365,9 +360,12 @@ def build_nets(board, user_cfg=None):
     board_area = board.outline.area or 1.0
     for li, layer in enumerate(board.copper):
         ln = layers[layer.name]
-        # only islands whose pieces could add up to a plane are unioned here
-        for i in np.flatnonzero(ln.piece_area_bound() >= PLANE_AREA_FRACTION * board_area):
-            if ln.island_area(int(i)) >= PLANE_AREA_FRACTION * board_area:
+        # an island is at least as large as its largest piece and at most the sum of them: only
+        # islands between the two bounds are unioned here
+        upper, lower = ln.piece_area_bounds()
+        limit = PLANE_AREA_FRACTION * board_area
+        for i in np.flatnonzero(upper >= limit):
+            if lower[i] >= limit or ln.island_area(int(i)) >= limit:
                 big.add(ln.island_net[i])
         layer._area_of = ln.island_areas  # the layer's copper area, when a report asks for it
     notes = []

@@ -569,7 +569,10 @@ def _local_geodesic(rc, pa, pb, void_pos, hw, budget=40):
 
 def majority_net(ln, plane_nets, line, samples=17):
     """Plane net under most sample points of a centre line (None when no plane copper is under it)."""
-    pts = shapely.line_interpolate_point(line, np.linspace(0, 1, samples), normalized=True)
+    xy = shapely.get_coordinates(line)  # evenly spaced points along the line, interpolated in numpy
+    run = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(xy, axis=0).T))])
+    s = np.linspace(0, run[-1], samples)
+    pts = shapely.points(np.interp(s, run, xy[:, 0]), np.interp(s, run, xy[:, 1]))
     tally = {}
     for i in ln.islands_at(pts):
         if i < 0:

@@ -96,10 +96,20 @@ def reference_changes(board, nets, refs, settings):
     ends = {}
     for layer in board.copper:
         ln = nets.layers[layer.name]
-        for s, net in zip(layer.segments, ln.segment_net):
-            if nets.is_signal(net):
-                ends.setdefault((layer.name, net), []).extend([(s[0], s[1], s[4]), (s[2], s[3], s[4])])
-    ends = {k: np.array(v) for k, v in ends.items()}
+        seg = layer.segments
+        names = sorted({n for n in ln.segment_net if n and nets.is_signal(n)})
+        ids = {n: k for k, n in enumerate(names)}
+        code = np.fromiter((ids.get(n, -1) for n in ln.segment_net), int, len(seg))
+        keep = np.flatnonzero(code >= 0)
+        order = keep[np.argsort(code[keep], kind="stable")]
+        start = np.searchsorted(code[order], np.arange(len(names) + 1))
+        for k, n in enumerate(names):
+            rows = seg[order[start[k]:start[k + 1]]]
+            # (x, y, width) of both ends, segment by segment
+            ends[(layer.name, n)] = np.stack([rows[:, [0, 1, 4]], rows[:, [2, 3, 4]]], axis=1).reshape(-1, 3)
+    h_net = np.array([h[3] for h in holes], dtype=object)
+    h_from = np.array([h[4] for h in holes])
+    h_to = np.array([h[5] for h in holes])
     layer_names = [l.name for l in board.copper]
     for x, y, r, net, a, b in holes:
         if not nets.is_signal(net):
@@ -127,9 +137,9 @@ def reference_changes(board, nets, refs, settings):
         common = dict(reference_layer=ra.layer, reference_net=na, other_reference_layer=rb.layer,
                       other_reference_net=nb, to_layer=lb, plane_spacing_mm=h, z0_ohm=z0)
         if na == nb:
-            cand = [(math.hypot(hx[i] - x, hy[i] - y), i) for i in range(len(holes))
-                    if holes[i][3] == na and holes[i][4] <= min(int(ra.layer[1:]), int(rb.layer[1:]))
-                    and holes[i][5] >= max(int(ra.layer[1:]), int(rb.layer[1:]))]
+            ok = np.flatnonzero((h_net == na) & (h_from <= min(int(ra.layer[1:]), int(rb.layer[1:])))
+                                & (h_to >= max(int(ra.layer[1:]), int(rb.layer[1:]))))
+            cand = list(zip(np.hypot(hx[ok] - x, hy[ok] - y).tolist(), ok.tolist()))
             if not cand:
                 findings.append(_finding("reference-change", "error", net, la, x, y,
                                          f"{net} changes from {la} to {lb} at ({x:.2f}, {y:.2f}) mm; its return must move "

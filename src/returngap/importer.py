@@ -35,6 +35,8 @@ UNESCAPE_RE = re.compile(r"\\u([0-9A-Fa-f]{4})")
 
 def unescape_net(name):
     """Gerber attribute values escape special characters as \\uXXXX."""
+    if "\\u" not in name:
+        return name.strip()
     return UNESCAPE_RE.sub(lambda m: chr(int(m.group(1), 16)), name).strip()
 
 
@@ -301,7 +303,13 @@ def build_layer(fab, g, role, outline, tol):
     runs = []                       # [(dark, [pieces])]
     round_lines = []                # pending (coords, radius) of the current run, buffered together
 
+    flash_at = []                   # pending (shape, x, y) of the current run, placed together
+    ap_info = {}                    # id(aperture) -> (width, round, function); apertures outlive the loop
+
     def flush_round():
+        if flash_at:
+            runs[-1][1].extend(shapes.place_all([b for b, _, _ in flash_at], [(x, y) for _, x, y in flash_at]))
+            flash_at.clear()
         if round_lines:
             lines = shapely.linestrings([c for c, _ in round_lines]) if len({len(c) for c, _ in round_lines}) == 1 \
                 else np.array([shapely.LineString(c) for c, _ in round_lines], dtype=object)
@@ -328,8 +336,12 @@ def build_layer(fab, g, role, outline, tol):
                 c = obj.center
                 pts = shapes.arc_points(obj.x1 * k, obj.y1 * k, obj.x2 * k, obj.y2 * k, c[0] * k, c[1] * k,
                                         obj.clockwise, tol)
-            w = shapes.aperture_width_mm(obj.aperture)
-            if isinstance(obj.aperture, CircleAperture) and w > 0:
+            info = ap_info.get(id(obj.aperture))
+            if info is None:  # once per aperture, not per stroke
+                info = ap_info[id(obj.aperture)] = (shapes.aperture_width_mm(obj.aperture),
+                                                    isinstance(obj.aperture, CircleAperture), _aper_function(obj))
+            w, round_ap, fn = info
+            if round_ap and w > 0:
                 if pts[0] == pts[-1] and len(pts) == 2:
                     runs[-1][1].append(shapely.Point(pts[0]).buffer(w / 2, quad_segs=shapes.quad_segs_for(w / 2, tol)))
                 elif round_lines and round_lines[-1][1] == w / 2 and round_lines[-1][0][-1] == pts[0]:
@@ -339,7 +351,6 @@ def build_layer(fab, g, role, outline, tol):
             else:
                 runs[-1][1].append(shapes.stroke_shape(pts, obj.aperture, aps, tol))
             if dark:
-                fn = _aper_function(obj)
                 for (xa, ya), (xb, yb) in zip(pts[:-1], pts[1:]):
                     segs.append((xa, ya, xb, yb, w))
                     seg_net.append(net)
@@ -347,7 +358,7 @@ def build_layer(fab, g, role, outline, tol):
         elif isinstance(obj, go.Flash):
             base = aps.shape(obj.aperture)
             x, y = obj.x * k, obj.y * k
-            runs[-1][1].append(shapely.affinity.translate(base, x, y))
+            flash_at.append((base, x, y))
             if dark:
                 b = base.bounds
                 flashes.append((x, y, max(b[2] - b[0], b[3] - b[1]) if not base.is_empty else 0.0))
@@ -382,10 +393,9 @@ def resolve_pieces(runs, negative_in=None):
         last_clear = len(runs) - 1
     acc = shapely.Polygon()
     for dark, pieces in runs[:last_clear + 1]:
-        pieces = [p for p in pieces if p is not None and not p.is_empty]
-        if not pieces:
+        run = shapes.merge_pieces(pieces)
+        if run.is_empty:
             continue
-        run = shapely.union_all(pieces)
         acc = acc.union(run) if dark else acc.difference(run)
     if negative_in is not None:
         acc = negative_in.difference(acc)

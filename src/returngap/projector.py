@@ -118,8 +118,15 @@ def plane_layers(board, nets, settings):
     out = {}
     for layer in board.copper:
         ln = nets.layers[layer.name]
-        cover = sum(ln.island_area(i) for i, n in enumerate(ln.island_net) if n in nets.plane_nets)
-        out[layer.name] = cover / area >= settings.plane_min_fraction
+        plane = np.array([n in nets.plane_nets for n in ln.island_net], dtype=bool)
+        upper, lower = ln.piece_area_bounds()
+        if lower[plane].sum() / area >= settings.plane_min_fraction:
+            out[layer.name] = True  # its largest pieces alone cover enough: no union needed
+        elif upper[plane].sum() / area < settings.plane_min_fraction:
+            out[layer.name] = False
+        else:
+            cover = sum(ln.island_area(int(i)) for i in np.flatnonzero(plane))
+            out[layer.name] = cover / area >= settings.plane_min_fraction
     return out
 
 

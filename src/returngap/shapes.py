@@ -8,6 +8,8 @@ import math
 
 import numpy as np
 import shapely
+from scipy.sparse import coo_matrix
+from scipy.sparse.csgraph import connected_components
 from gerbonara import apertures as ap
 from gerbonara import graphic_objects as go
 from gerbonara import graphic_primitives as gp
@@ -145,3 +147,62 @@ def stroke_shape(points, aperture, shapes, tol):
         pieces.append(shapely.convex_hull(shapely.union(affinity.translate(base, xa, ya),
                                                         affinity.translate(base, xb, yb))))
     return shapely.union_all(pieces)
+
+
+def intersects_pairs(a, b, na=None, nb=None):
+    """Elementwise intersects, evaluated from the side with more vertices (prepared there); na, nb:
+    the vertex counts when already known (counting a plane's vertices again per query is costly)."""
+    na = shapely.get_num_coordinates(a) if na is None else na
+    nb = shapely.get_num_coordinates(b) if nb is None else nb
+    b_big = nb >= na
+    ok = np.empty(len(a), dtype=bool)
+    ok[b_big] = shapely.intersects(b[b_big], a[b_big])
+    ok[~b_big] = shapely.intersects(a[~b_big], b[~b_big])
+    return ok
+
+
+def touch_components(pieces, tree):
+    """Island index per piece: connected components of the touch graph (C-speed, no Python loop)."""
+    n = len(pieces)
+    if not n:
+        return np.zeros(0, dtype=int), 0, np.zeros((2, 0), dtype=int)
+    pairs = tree.query(pieces)
+    pairs = pairs[:, pairs[0] < pairs[1]]
+    nc = shapely.get_num_coordinates(pieces)
+    pairs = pairs[:, intersects_pairs(pieces[pairs[0]], pieces[pairs[1]], nc[pairs[0]], nc[pairs[1]])]
+    graph = coo_matrix((np.ones(pairs.shape[1], dtype=np.int8), (pairs[0], pairs[1])), shape=(n, n))
+    count, labels = connected_components(graph, directed=False)
+    # number islands by their first piece, so that names stay stable for the same files
+    first = np.full(count, n, dtype=int)
+    np.minimum.at(first, labels, np.arange(n))
+    rank = np.empty(count, dtype=int)
+    rank[np.argsort(first, kind="stable")] = np.arange(count)
+    return rank[labels], count, pairs
+
+
+def merge_pieces(pieces):
+    """Union of many pieces (antipads, pads), cheap when few of them overlap: only pieces that touch
+    are unioned, group by group; the groups are disjoint, so together they form a valid MultiPolygon
+    without one large union."""
+    arr = np.array([p for p in pieces if p is not None and not p.is_empty], dtype=object)
+    if len(arr) < 32:
+        return shapely.union_all(arr) if len(arr) else shapely.Polygon()
+    bad = ~shapely.is_valid(arr)
+    if bad.any():
+        arr[bad] = shapely.make_valid(arr[bad])
+    label, count, _ = touch_components(arr, shapely.STRtree(arr))
+    order = np.argsort(label, kind="stable")
+    start = np.searchsorted(label[order], np.arange(count + 1))
+    parts = [arr[order[start[k]]] if start[k + 1] - start[k] == 1 else shapely.union_all(arr[order[start[k]:start[k + 1]]])
+             for k in range(count)]
+    polys = [q for q in shapely.get_parts(np.array(parts, dtype=object)) if q.geom_type == "Polygon" and not q.is_empty]
+    return shapely.multipolygons(np.array(polys, dtype=object)) if polys else shapely.Polygon()
+
+
+def place_all(bases, xy):
+    """Each base shape moved by its (x, y), in one vectorised pass over all their coordinates."""
+    if not len(bases):
+        return []
+    geoms = np.array(bases, dtype=object)
+    off = np.repeat(np.asarray(xy, dtype=float).reshape(-1, 2), shapely.get_num_coordinates(geoms), axis=0)
+    return list(shapely.transform(geoms, lambda c: c + off))
