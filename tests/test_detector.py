@@ -23,6 +23,7 @@ def test_centred_slot_detour_is_slot_length(tmp_path):
         ("slot", "CLK", "L1", "L2", "GND")
     # half the slot out along one edge, half back (REFERENCE 2.4): detour ~ D, path ~ D + s
     assert f["detour_mm"] == pytest.approx(D, rel=0.05)
+    assert f["detour_method"] == "taut-hull"  # a convex gap: the way round its hull is the geodesic
     path = f["detour_path_mm"]
     length = sum(math.dist(a, b) for a, b in zip(path[:-1], path[1:]))
     assert length == pytest.approx(D + s, rel=0.05)
@@ -79,6 +80,7 @@ def test_via_fence_detour_walks_out_of_the_pocket(tmp_path):
     half = math.sqrt(r * r - dy * dy)         # half the opening between two antipads at the track
     expect = 2 * (r - half) + 2 * 4.5 + math.pi * r - 2 * half
     assert f[0]["detour_mm"] == pytest.approx(expect, rel=0.03)
+    assert f[0]["detour_method"] == "taut-hull"
 
 
 @pytest.mark.parametrize("d", [0.3, 0.6, 1.0])

@@ -178,9 +178,9 @@ def interrupted_share(line, s_from, s_to, halfwidth, width, ref, gap):
         return 0.0, s_from
     n = int(min(MAX_STATIONS, max(3, (s_to - s_from) / max(ref.h_mm / 4, 0.02))))
     ss = np.linspace(s_from, s_to, n)
-    p = shapely.get_coordinates(shapely.line_interpolate_point(line, ss))
-    q = shapely.get_coordinates(shapely.line_interpolate_point(line, np.minimum(ss + 1e-3, line.length)))
-    r = shapely.get_coordinates(shapely.line_interpolate_point(line, np.maximum(ss - 1e-3, 0.0)))
+    p = coords_along(line, ss)
+    q = coords_along(line, np.minimum(ss + 1e-3, line.length))
+    r = coords_along(line, np.maximum(ss - 1e-3, 0.0))
     t = q - r
     t /= np.maximum(np.hypot(t[:, 0], t[:, 1]), EPS)[:, None]
     nrm = np.column_stack([-t[:, 1], t[:, 0]])
@@ -532,8 +532,9 @@ def _local_geodesic(rc, pa, pb, void_pos, hw, budget=40):
     """Detour path round the gap, in two small windows and then round the whole gap, so that large
     voids stay cheap: in each window the taut way round the gap's hull when it is clear, else a
     visibility-graph search over the corners of the voids in the way (at most `budget` batched tests);
-    last, the taut way round the whole gap's hull. Returns (length, path, method) or None; where no
-    way is proven, the shorter way round the whole hull serves as the estimate (method says so)."""
+    last, the taut way round the whole gap's hull. Returns (length, path, method) or None; method is
+    "taut-hull", "corner-graph", or "hull-estimate" where no way is proven and the shorter way round
+    the whole hull serves as the estimate."""
     void_geom = rc.void_geoms[void_pos]
     vx0, vy0, vx1, vy1 = void_geom.bounds
     r = max(5.0, 4 * hw)
@@ -544,7 +545,7 @@ def _local_geodesic(rc, pa, pb, void_pos, hw, budget=40):
         focus = void_geom if whole else shapely.clip_by_rect(void_geom, *box)
         way, shorter = _hull_detour(rc, pa, pb, rc.hull(void_pos) if whole else shapely.convex_hull(focus))
         if way is not None:
-            return way[0], way[1], "hull"
+            return way[0], way[1], "taut-hull"
         calls = [0]
 
         def counted(segs, blockers):
@@ -557,22 +558,32 @@ def _local_geodesic(rc, pa, pb, void_pos, hw, budget=40):
         except _OutOfBudget:
             g = None
         if g is not None:
-            return g[0], g[1], "visibility"
+            return g[0], g[1], "corner-graph"
         if whole:
-            return (shorter, None, "hull-bound") if shorter is not None else None
+            return (shorter, None, "hull-estimate") if shorter is not None else None
         r *= 3
     way, shorter = _hull_detour(rc, pa, pb, rc.hull(void_pos))
     if way is not None:
-        return way[0], way[1], "hull"
-    return (shorter, None, "hull-bound") if shorter is not None else None
+        return way[0], way[1], "taut-hull"
+    return (shorter, None, "hull-estimate") if shorter is not None else None
+
+
+def points_along(line, s):
+    """Points at distances s along a LineString, interpolated in numpy (one pass over its vertices,
+    where shapely walks the line again for every point)."""
+    return shapely.points(coords_along(line, s))
+
+
+def coords_along(line, s):
+    """(x, y) at distances s along a LineString, as an (n, 2) array."""
+    xy = shapely.get_coordinates(line)
+    run = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(xy, axis=0).T))])
+    return np.column_stack([np.interp(s, run, xy[:, 0]), np.interp(s, run, xy[:, 1])])
 
 
 def majority_net(ln, plane_nets, line, samples=17):
     """Plane net under most sample points of a centre line (None when no plane copper is under it)."""
-    xy = shapely.get_coordinates(line)  # evenly spaced points along the line, interpolated in numpy
-    run = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(xy, axis=0).T))])
-    s = np.linspace(0, run[-1], samples)
-    pts = shapely.points(np.interp(s, run, xy[:, 0]), np.interp(s, run, xy[:, 1]))
+    pts = points_along(line, np.linspace(0, line.length, samples))
     tally = {}
     for i in ln.islands_at(pts):
         if i < 0:
@@ -687,6 +698,8 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
     if ev == "graze":
         what = f"runs beside a {gap_type}"
     det = "no path within the plane" if detour is None else f"detour {detour:.2f} mm"
+    if detour_method == "hull-estimate":
+        det = f"detour about {detour:.2f} mm (round the gap's hull; no clear path was proven)"
     if split and ib is not None and ia is not None and rc.island_net[ib] != rc.island_net[ia]:
         det += f" ({rc.island_net[ia]} on one side, {rc.island_net[ib]} on the other)"
     msg = (f"{ch.net} on {ch.layer} {what} in {ref_net} on {ref.layer} at ({x:.2f}, {y:.2f}) mm: {det}, "
@@ -696,7 +709,7 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         "id": fid, "kind": "gap-crossing", "gap_type": gap_type, "severity": severity,
         "net": ch.net, "layer": ch.layer, "reference_layer": ref.layer, "reference_net": ref_net,
         "x_mm": x, "y_mm": y, "gap_length_mm": slot_len, "gap_width_mm": width,
-        "detour_mm": detour, "interrupted_fraction": min(1.0, share),
+        "detour_mm": detour, "detour_method": detour_method, "interrupted_fraction": min(1.0, share),
         "added_inductance_nH": est, "added_inductance_range_nH": [lo, hi],
         "inductance_method": "geometric mean of hsdd-slot-formula and slotline-stub-model",
         "resonance_GHz": f_res, "resonance_range_GHz": sorted([f_res_low, f_res]),

@@ -9,7 +9,7 @@ import numpy as np
 import shapely
 
 from . import physics
-from .detector import majority_net, stable_id
+from .detector import majority_net, points_along, stable_id
 from .projector import line_z0
 
 DEFAULT_PART_LOOP_NH = 1.0  # mounted two-terminal capacitor loop, typically 0.5-1.5 nH (from memory)
@@ -220,7 +220,7 @@ def edge_runs(board, nets, refs, chains, settings, hs):
         step = max(0.05, min(0.25, ref.h_mm / 2))
         n = max(2, int(ch.line.length / step) + 1)
         s = np.linspace(0, ch.line.length, n)
-        pts = shapely.line_interpolate_point(ch.line, s)
+        pts = points_along(ch.line, s)
         inside = shapely.intersects(outer, pts)
         near = np.zeros(n, dtype=bool)
         near[edge_tree.query(pts, predicate="dwithin", distance=limit)[0]] = True

@@ -162,7 +162,8 @@ def layers_text(rep):
 
 
 CSV_FIELDS = ["id", "kind", "gap_type", "severity", "status", "waived", "net", "layer", "reference_layer",
-              "reference_net", "x_mm", "y_mm", "gap_length_mm", "gap_width_mm", "detour_mm", "interrupted_fraction",
+              "reference_net", "x_mm", "y_mm", "gap_length_mm", "gap_width_mm", "detour_mm", "detour_method",
+              "interrupted_fraction",
               "added_inductance_nH", "added_inductance_low_nH", "added_inductance_high_nH", "inductance_method",
               "resonance_GHz", "message"]
 
