@@ -15,7 +15,7 @@ import networkx as nx
 import numpy as np
 import shapely
 
-from .shapes import intersects_pairs, touch_components
+from .shapes import disjoint_union, intersects_pairs, touch_components
 
 GROUND_RE = re.compile(r"^(?:[ADPSCH]?GND\w*|GND\w*|VSS\w*|0V|EARTH|CHASSIS|GROUND\w*|\w*_GND|\w*GND)$", re.I)
 POWER_RE = re.compile(r"^(?:\+|-)?(?:V(?:CC|DD|EE|BUS|BAT|IN|IO|REF|CORE|SYS|PP|DDQ|TT)\w*|PWR\w*|POWER\w*|"
@@ -119,10 +119,7 @@ class LayerNets:
         """All copper of the given nets on this layer, as one geometry (cached)."""
         key = frozenset(nets)
         if key not in self._union:
-            # islands never touch one another, so their parts together are already a valid MultiPolygon
-            parts = shapely.get_parts(np.array([p for _, p in self.islands_of(key)], dtype=object))
-            parts = [p for p in parts if p.geom_type == "Polygon" and not p.is_empty]
-            self._union[key] = shapely.multipolygons(np.array(parts, dtype=object)) if parts else shapely.Polygon()
+            self._union[key] = disjoint_union(p for _, p in self.islands_of(key))  # islands never touch
         return self._union[key]
 
     def islands_at(self, pts, distance=0.0):

@@ -24,7 +24,7 @@ import numpy as np
 import shapely
 
 from . import physics
-from .projector import line_z0
+from .projector import footprint_polygon, line_z0
 
 EPS = 1e-6
 STEP_OFF_MM = 0.01     # how far beyond a gap's edge the detour path starts and ends
@@ -360,7 +360,7 @@ def _scan_slice(k, n):
 
 
 def _auto_workers(settings, n_chains):
-    want = getattr(settings, "workers", 0) or min(2, os.cpu_count() or 1)
+    want = settings.workers or min(2, os.cpu_count() or 1)
     # fork only from a single-threaded process (a batch run's threads could hold locks)
     if want < 2 or n_chains < PARALLEL_MIN_CHAINS or threading.active_count() > 1 or \
             "fork" not in multiprocessing.get_all_start_methods():
@@ -411,8 +411,7 @@ def _footprint_overlap(line, hw, region):
     piece = shapely.clip_by_rect(line, x0 - hw - 0.01, y0 - hw - 0.01, x1 + hw + 0.01, y1 + hw + 0.01)
     if piece.is_empty:
         return 0.0
-    fp = shapely.buffer(piece, hw, quad_segs=4, cap_style="flat", join_style="round")
-    return float(shapely.area(shapely.intersection(fp, region)))
+    return float(shapely.area(shapely.intersection(footprint_polygon(piece, hw), region)))
 
 
 def _obstacle_nodes(geom, limit=24, tol=0.02):
@@ -542,8 +541,8 @@ def _local_geodesic(rc, pa, pb, void_pos, hw, budget=40):
     for _ in range(2):
         box = (cx - r, cy - r, cx + r, cy + r)
         whole = box[0] <= vx0 and box[1] <= vy0 and box[2] >= vx1 and box[3] >= vy1
-        focus = void_geom if whole else shapely.clip_by_rect(void_geom, *box)
-        way, shorter = _hull_detour(rc, pa, pb, rc.hull(void_pos) if whole else shapely.convex_hull(focus))
+        hull = rc.hull(void_pos) if whole else shapely.convex_hull(shapely.clip_by_rect(void_geom, *box))
+        way, shorter = _hull_detour(rc, pa, pb, hull)
         if way is not None:
             return way[0], way[1], "taut-hull"
         calls = [0]

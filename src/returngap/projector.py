@@ -72,6 +72,12 @@ class Reference:
         return "stripline" if self.other_h_mm is not None else "microstrip"
 
 
+def footprint_polygon(line, halfwidth):
+    """The strip of plane under a track that holds the chosen share of its return current: the centre
+    line buffered by the half-width, flat at the track's ends."""
+    return shapely.buffer(line, halfwidth, quad_segs=4, cap_style="flat", join_style="round")
+
+
 class Footprints(Mapping):
     """Reference layer -> (footprint polygon, half-width) of one chain. A polygon is buffered only when
     first asked for: most tracks meet no gap, and the half-width alone answers 'is a gap near?'."""
@@ -89,8 +95,7 @@ class Footprints(Mapping):
     def __getitem__(self, ref_layer):
         hw = self._hw[ref_layer]
         if ref_layer not in self._poly:
-            fp = shapely.buffer(self._line, hw, quad_segs=4, cap_style="flat", join_style="round")
-            self._poly[ref_layer] = fp.intersection(self._outline)
+            self._poly[ref_layer] = footprint_polygon(self._line, hw).intersection(self._outline)
         return self._poly[ref_layer], hw
 
     def __contains__(self, ref_layer):

@@ -4,8 +4,8 @@ Floats are rounded to fixed decimals so that the same input gives byte-identical
 """
 
 import json
-from concurrent.futures import ThreadPoolExecutor
 import math
+from concurrent.futures import ThreadPoolExecutor
 from importlib import resources
 
 from . import __version__

@@ -195,7 +195,14 @@ def merge_pieces(pieces):
     start = np.searchsorted(label[order], np.arange(count + 1))
     parts = [arr[order[start[k]]] if start[k + 1] - start[k] == 1 else shapely.union_all(arr[order[start[k]:start[k + 1]]])
              for k in range(count)]
-    polys = [q for q in shapely.get_parts(np.array(parts, dtype=object)) if q.geom_type == "Polygon" and not q.is_empty]
+    return disjoint_union(parts)
+
+
+def disjoint_union(geoms):
+    """Union of geometries known not to touch one another: their polygons side by side already form a
+    valid MultiPolygon, with no overlay work."""
+    parts = shapely.get_parts(np.array(list(geoms), dtype=object))
+    polys = [q for q in parts if q.geom_type == "Polygon" and not q.is_empty]
     return shapely.multipolygons(np.array(polys, dtype=object)) if polys else shapely.Polygon()
 
 
