@@ -135,15 +135,15 @@ def test_footprint_overlap_is_the_footprint_area_in_the_gap():
 def test_two_processes_give_the_same_findings(tmp_path, monkeypatch):
     """The gap scan split over two forked processes returns what one process does, in the same order."""
     from pathlib import Path
-    from returngap import detector
+    from returngap import detector, forking
     demo = Path(__file__).resolve().parents[1] / "examples" / "demo-board"
     stack = demo / "stackup.toml"
     one = run_check(demo, stack, settings=Settings(workers=1)).findings
     monkeypatch.setattr(detector, "PARALLEL_MIN_CHAINS", 1)
-    monkeypatch.setattr(detector.threading, "active_count", lambda: 1)  # other tests' threads aside
+    monkeypatch.setattr(forking.threading, "active_count", lambda: 1)  # other tests' threads aside
     pools = []
-    real_pool = detector.ProcessPoolExecutor
-    monkeypatch.setattr(detector, "ProcessPoolExecutor", lambda *a, **k: pools.append(1) or real_pool(*a, **k))
+    real_pool = forking.ProcessPoolExecutor
+    monkeypatch.setattr(forking, "ProcessPoolExecutor", lambda *a, **k: pools.append(1) or real_pool(*a, **k))
     two = run_check(demo, stack, settings=Settings(workers=2)).findings
     assert pools, "the two-process path did not run"
     assert len(one) > 5 and one == two

@@ -7,7 +7,7 @@ import zipfile
 import pytest
 import shapely
 
-from conftest import gerber
+from conftest import ROOT, gerber
 from returngap import importer
 from returngap.errors import InputError
 
@@ -151,3 +151,31 @@ def test_inch_drill_converted_to_mm(tmp_path):
     b = _two_layer_with_drill(tmp_path, "M48\nINCH,TZ\nT1C0.0157\n%\nT1\nX0.3937Y0.3937\nX1.1811Y0.7874\nM30\n")
     assert b.drills[0].holes[:, :2].ravel().tolist() == pytest.approx([10, 10, 30, 20], abs=1e-3)
     assert b.drills[0].holes[0, 2] == pytest.approx(0.3988, abs=1e-3)
+
+
+def test_layers_read_in_two_processes_match_one(tmp_path, monkeypatch):
+    """Copper layers parsed in forked workers come back (as WKB) identical to those read in this
+    process, and a bad layer's error still names its file and line."""
+    from returngap import forking
+    import numpy as np
+    demo = ROOT / "examples" / "demo-board"
+    one = importer.load_board(demo)
+    monkeypatch.setattr(importer, "PARALLEL_MIN_BYTES", 1)
+    monkeypatch.setattr(forking.threading, "active_count", lambda: 1)  # other tests' threads aside
+    pools = []
+    real_pool = forking.ProcessPoolExecutor
+    monkeypatch.setattr(forking, "ProcessPoolExecutor", lambda *a, **k: pools.append(1) or real_pool(*a, **k))
+    two = importer.load_board(demo)
+    assert pools, "the two-process path did not run"
+    assert [l.name for l in one.copper] == [l.name for l in two.copper]
+    for a, b in zip(one.copper, two.copper):
+        assert len(a.pieces) and shapely.equals_exact(a.pieces, b.pieces, 0).all()
+        assert np.array_equal(a.segments, b.segments) and a.segment_net == b.segment_net
+        assert [(shapely.to_wkb(p), n) for p, n, _ in a.regions] == [(shapely.to_wkb(p), n) for p, n, _ in b.regions]
+    assert one.assumptions == two.assumptions
+    (tmp_path / "top.gbr").write_text(gerber(SQUARE))
+    (tmp_path / "bottom.gbr").write_text("%TF.FileFunction,Copper,L2,Bot*%\n%FSLAX46Y46*%\n%MOMM*%\n%ADD10C,0.2*%\n"
+                                         "D10*\nX0Y0D02*\nG37*\nM02*\n")
+    with pytest.raises(InputError) as e:
+        importer.load_board(tmp_path)
+    assert e.value.file == "bottom.gbr" and e.value.line == 7

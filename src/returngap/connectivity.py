@@ -209,10 +209,14 @@ def _fill_segments(layer, ln, seg_isl, pairs):
     fill_island = np.zeros(ln.n_islands, dtype=bool)
     cand = (per_island > FILL_OVERLAP * 2.0) & (count >= 8)
     if cand.any():
+        # an island is at least as large as its largest piece: a poured region with tracks on it is
+        # ruled out without looking at overlaps
+        total, largest = ln.piece_area_bounds()
+        cand &= per_island > FILL_OVERLAP * largest
+    if cand.any():
         # Bonferroni: union area >= sum of piece areas - sum of pairwise overlaps; islands whose bound
         # already rules a pour out (single tracks: pieces overlap only at their ends) are not unioned
-        area = shapely.area(ln.pieces)
-        lower = np.bincount(ln.piece_island, weights=area, minlength=ln.n_islands)
+        lower = total.copy()
         a, b = pairs
         keep = cand[ln.piece_island[a]]
         a, b = a[keep], b[keep]

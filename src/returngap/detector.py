@@ -13,17 +13,12 @@ import functools
 import hashlib
 import heapq
 import math
-import multiprocessing
-import os
-import threading
-from concurrent.futures import ProcessPoolExecutor
-from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass
 
 import numpy as np
 import shapely
 
-from . import physics
+from . import forking, physics
 from .projector import footprint_polygon, line_z0
 
 EPS = 1e-6
@@ -351,43 +346,21 @@ class _GapScan:
         return out
 
 
-_FORKED = None  # (scan, chains) inherited by forked workers
-
-
-def _scan_slice(k, n):
-    scan, chains = _FORKED
-    return [(i, scan.chain(chains[i])) for i in range(k, len(chains), n)]
-
-
 def _auto_workers(settings, n_chains):
-    want = settings.workers or min(2, os.cpu_count() or 1)
-    # fork only from a single-threaded process (a batch run's threads could hold locks)
-    if want < 2 or n_chains < PARALLEL_MIN_CHAINS or threading.active_count() > 1 or \
-            "fork" not in multiprocessing.get_all_start_methods():
-        return 1
-    return want
+    return 1 if n_chains < PARALLEL_MIN_CHAINS else forking.workers_for(settings.workers)
 
 
 def _scan_all(scan, chains, workers):
-    global _FORKED
     if workers > 1:
         for layer in {r for ch in chains for r in ch.footprints}:
             scan.copper(layer)  # built once here, shared with the workers by fork
-        _FORKED = (scan, chains)
-        try:
-            n = workers * 8  # many small slices: the pool balances uneven chains
-            with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork")) as pool:
-                parts = list(pool.map(_scan_slice, range(n), [n] * n))
-            out = [None] * len(chains)
-            for part in parts:
-                for i, r in part:
-                    out[i] = r
-            return out
-        except (OSError, BrokenProcessPool):
-            pass  # no second process here: do it all in this one
-        finally:
-            _FORKED = None
-    return [scan.chain(ch) for ch in chains]
+    n = workers * 8  # many small slices: the pool balances uneven chains
+    parts = forking.fork_map(lambda k: [(i, scan.chain(chains[i])) for i in range(k, len(chains), n)], n, workers)
+    out = [None] * len(chains)
+    for part in parts:
+        for i, r in part:
+            out[i] = r
+    return out
 
 
 def detect_gap_crossings(board, nets, refs, chains, settings):
@@ -575,22 +548,49 @@ def points_along(line, s):
 
 def coords_along(line, s):
     """(x, y) at distances s along a LineString, as an (n, 2) array."""
-    xy = shapely.get_coordinates(line)
-    run = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(xy, axis=0).T))])
-    return np.column_stack([np.interp(s, run, xy[:, 0]), np.interp(s, run, xy[:, 1])])
+    return coords_along_lines([line], [s])
+
+
+def coords_along_lines(lines, dists):
+    """(x, y) at distances dists[i] along lines[i], for many LineStrings in one interpolation: the
+    lines are laid end to end on one distance axis, a unit gap between one's end and the next's start."""
+    xy, idx = shapely.get_coordinates(np.asarray(lines, dtype=object), return_index=True)
+    seg = np.hypot(*np.diff(xy, axis=0).T)
+    seg[idx[1:] != idx[:-1]] = 1.0
+    run = np.concatenate([[0.0], np.cumsum(seg)])
+    k = np.arange(len(dists))
+    start = run[np.searchsorted(idx, k)]
+    length = run[np.searchsorted(idx, k, side="right") - 1] - start
+    at = np.concatenate([np.clip(d, 0.0, n) + a for d, a, n in zip(dists, start, length)] or [np.zeros(0)])
+    return np.column_stack([np.interp(at, run, xy[:, 0]), np.interp(at, run, xy[:, 1])])
+
+
+def majority_nets(ln, plane_nets, lines, samples=17):
+    """Per centre line, the plane net under most of its sample points (None where no plane copper is
+    under it; ties go to the later name); every line's points looked up in one tree query."""
+    lines = np.asarray(lines, dtype=object)
+    if not len(lines):
+        return []
+    frac = np.linspace(0.0, 1.0, samples)
+    pts = shapely.points(coords_along_lines(lines, list(np.outer(shapely.length(lines), frac))))
+    isl = ln.islands_at(pts)
+    which = np.repeat(np.arange(len(lines)), samples)
+    names = sorted(set(ln.island_net) & set(plane_nets))
+    code = {n: k for k, n in enumerate(names)}
+    net_of = np.array([code.get(n, -1) for n in ln.island_net] + [-1])  # island -1: off copper
+    c = net_of[isl]
+    ok = c >= 0
+    out = [None] * len(lines)
+    if ok.any():
+        pair, count = np.unique(which[ok] * len(names) + c[ok], return_counts=True)
+        for p, k in sorted(zip(pair.tolist(), count.tolist()), key=lambda t: (t[1], t[0] % len(names))):
+            out[p // len(names)] = names[p % len(names)]  # the last written wins: most samples, then name
+    return out
 
 
 def majority_net(ln, plane_nets, line, samples=17):
-    """Plane net under most sample points of a centre line (None when no plane copper is under it)."""
-    pts = points_along(line, np.linspace(0, line.length, samples))
-    tally = {}
-    for i in ln.islands_at(pts):
-        if i < 0:
-            continue
-        net = ln.island_net[i]
-        if net in plane_nets:
-            tally[net] = tally.get(net, 0) + 1
-    return max(tally.items(), key=lambda kv: (kv[1], kv[0]))[0] if tally else None
+    """Plane net under most sample points of one centre line (None when no plane copper is under it)."""
+    return majority_nets(ln, plane_nets, [line], samples)[0]
 
 
 def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, settings, ref_net):

@@ -10,6 +10,9 @@ class InputError(Exception):
         self.line = line
         super().__init__(str(self))
 
+    def __reduce__(self):  # raised in a forked worker, re-raised in the parent
+        return (InputError, (self.file, self.message, self.line))
+
     def __str__(self):
         where = self.file if self.line is None else f"{self.file}:{self.line}"
         return f"{where}: {self.message}"

@@ -3,13 +3,14 @@ stitching-via spacing. Each is its own finding kind with the common fields where
 """
 
 import math
+from collections import defaultdict
 from dataclasses import dataclass
 
 import numpy as np
 import shapely
 
 from . import physics
-from .detector import majority_net, points_along, stable_id
+from .detector import coords_along_lines, majority_nets, stable_id
 from .projector import line_z0
 
 DEFAULT_PART_LOOP_NH = 1.0  # mounted two-terminal capacitor loop, typically 0.5-1.5 nH (from memory)
@@ -199,14 +200,20 @@ def edge_runs(board, nets, refs, chains, settings, hs):
     """Tracks whose return footprint runs along the edge of their reference plane's copper, or off it
     at a track end. (A track crossing a gap between plane islands is a gap crossing, not an edge run.)"""
     findings = []
-    edges = {}
-    for ch in chains:
-        ref = min(refs.get(ch.layer, []), key=lambda q: q.h_mm, default=None)
+    by_layer = defaultdict(list)  # signal layer -> indices of its chains
+    for k, ch in enumerate(chains):
+        by_layer[ch.layer].append(k)
+    edges = {}    # reference layer -> (plane copper without its holes, tree of its edge segments)
+    sampled = {}  # chain index -> (net, ref, limit, s, points, inside, d)
+    for layer, idx in by_layer.items():
+        ref = min(refs.get(layer, []), key=lambda q: q.h_mm, default=None)
         if ref is None:
             continue
         ln = nets.layers[ref.layer]
-        net = majority_net(ln, nets.plane_nets, ch.line)
-        if net is None:
+        lines = np.array([chains[k].line for k in idx], dtype=object)
+        ref_nets = majority_nets(ln, nets.plane_nets, lines)
+        keep = np.array([n is not None for n in ref_nets])
+        if not keep.any():
             continue
         if ref.layer not in edges:
             copper = ln.union_of(nets.plane_nets)
@@ -215,20 +222,33 @@ def edge_runs(board, nets, refs, chains, settings, hs):
             edges[ref.layer] = (outer, _segment_tree(outer.boundary))
         outer, edge_tree = edges[ref.layer]
         limit = hs.edge_distance_h * ref.h_mm
-        if not len(edge_tree.query(ch.line, predicate="dwithin", distance=limit)) and outer.contains(ch.line):
-            continue  # on the plane and nowhere near its edge: nothing to sample
+        near_edge = np.zeros(len(idx), dtype=bool)
+        near_edge[edge_tree.query(lines, predicate="dwithin", distance=limit)[0]] = True
+        # on the plane and nowhere near its edge: nothing to sample
+        keep &= near_edge | ~shapely.contains(outer, lines)
+        todo = np.flatnonzero(keep)
+        if not len(todo):
+            continue
         step = max(0.05, min(0.25, ref.h_mm / 2))
-        n = max(2, int(ch.line.length / step) + 1)
-        s = np.linspace(0, ch.line.length, n)
-        pts = points_along(ch.line, s)
+        length = shapely.length(lines[todo])
+        dists = [np.linspace(0, L, max(2, int(L / step) + 1)) for L in length]
+        pts = shapely.points(coords_along_lines(lines[todo], dists))
         inside = shapely.intersects(outer, pts)
-        near = np.zeros(n, dtype=bool)
+        near = np.zeros(len(pts), dtype=bool)
         near[edge_tree.query(pts, predicate="dwithin", distance=limit)[0]] = True
         look = np.flatnonzero(~inside | near)  # exact distances only here
-        d = np.full(n, np.inf)
+        d = np.full(len(pts), np.inf)
         if len(look):
             (at, _), dist = edge_tree.query_nearest(pts[look], return_distance=True, all_matches=False)
             d[look[at]] = dist
+        ends = np.cumsum([0] + [len(x) for x in dists])
+        for j, t in enumerate(todo):
+            a, b = ends[j], ends[j + 1]
+            sampled[idx[t]] = (ref_nets[t], ref, limit, dists[j], pts[a:b], inside[a:b], d[a:b])
+    for ci in sorted(sampled):
+        ch = chains[ci]
+        net, ref, limit, s, pts, inside, d = sampled[ci]
+        n = len(s)
         cls = np.where(~inside, 2, np.where(d < limit, 1, 0))
         change = np.flatnonzero(np.diff(cls)) + 1
         for a, b in zip(np.concatenate([[0], change]), np.concatenate([change, [n]])):

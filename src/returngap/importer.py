@@ -21,7 +21,7 @@ from gerbonara.cam import FileSettings
 from gerbonara.layers import _best_match
 from gerbonara.utils import MM, Inch
 
-from . import gerbonara_compat, shapes
+from . import forking, gerbonara_compat, shapes
 from .errors import InputError
 from .inputs import BoardFiles
 from .model import Board, CopperLayer, DrillFile, NetPoint
@@ -605,6 +605,60 @@ def _guarded(name, fn, *args):
         raise InputError(name, f"cannot build its geometry ({type(e).__name__}: {str(e)[:120]})")
 
 
+PARALLEL_MIN_BYTES = 150_000  # copper text below which a second process costs more than it saves
+
+
+def _copper_layer(fab, text, role, provisional, tol):
+    """Parse and build one copper layer, with the notes it gives (a task for a forked worker)."""
+    notes = []
+    layer = _guarded(fab.name, build_layer, fab, parse_gerber(fab, text, notes), role,
+                     provisional or shapely.Polygon(), tol)
+    check_extent(fab, layer)
+    if layer.skipped_objects:
+        notes.append(f"{fab.name}: {layer.skipped_objects} object(s) drawn before any aperture was "
+                     "selected were left out")
+    if layer.repaired_regions:
+        notes.append(f"{fab.name}: {layer.repaired_regions} self-intersecting region(s) repaired "
+                     "(split into valid parts)")
+    if role.polarity == "negative" and provisional is None:
+        raise InputError(fab.name, "negative-polarity copper needs a board profile file")
+    return layer, notes
+
+
+def _copper_layers(by_name, texts, copper_roles, provisional, tol):
+    """Every copper layer, top to bottom; the layers are independent, so a large board's are read on
+    both cores, largest file first so the two processes finish together."""
+    size = sum(len(texts[name]) for name, _ in copper_roles)
+    workers = forking.workers_for() if size >= PARALLEL_MIN_BYTES else 1
+    order = sorted(range(len(copper_roles)), key=lambda k: -len(texts[copper_roles[k][0]]))
+
+    def task(j):
+        name, role = copper_roles[order[j]]
+        layer, notes = _copper_layer(by_name[name], texts[name], role, provisional, tol)
+        return (_wkb_packed(layer) if workers > 1 else layer), notes
+    done = forking.fork_map(task, len(order), workers)
+    out = [None] * len(order)
+    for j, k in enumerate(order):
+        layer, notes = done[j]
+        out[k] = (_wkb_unpacked(layer) if workers > 1 else layer), notes
+    return out
+
+
+# geometry crosses between processes as WKB: pickling shapely objects one by one costs five times more
+def _wkb_packed(layer):
+    layer.pieces = shapely.to_wkb(layer.pieces)
+    layer.regions = (shapely.to_wkb(np.array([r[0] for r in layer.regions], dtype=object)),
+                     [r[1:] for r in layer.regions])
+    return layer
+
+
+def _wkb_unpacked(layer):
+    layer.pieces = shapely.from_wkb(layer.pieces)
+    polys, rest = layer.regions
+    layer.regions = [(p, *r) for p, r in zip(shapely.from_wkb(polys), rest)]
+    return layer
+
+
 def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_MM, scratch=None):
     """Read a board (folder, zip or file list) into the board model."""
     with BoardFiles(sources, scratch) as bf:
@@ -623,7 +677,7 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
         by_name = {f.name: f for f in bf.fab}
         parsed = {}
         for name, role in roles.items():
-            if role.kind in ("copper", "profile"):
+            if role.kind == "profile":
                 parsed[name] = parse_gerber(by_name[name], texts[name], notes)
         outline = None
         outline_file = None
@@ -635,18 +689,9 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
                     break
         provisional = outline
         layers = []
-        for name, role in copper_roles:
-            layers.append(_guarded(name, build_layer, by_name[name], parsed[name], role,
-                                   provisional or shapely.Polygon(), chord_tol_mm))
-            check_extent(by_name[name], layers[-1])
-            if layers[-1].skipped_objects:
-                notes.append(f"{name}: {layers[-1].skipped_objects} object(s) drawn before any aperture was "
-                             "selected were left out")
-            if layers[-1].repaired_regions:
-                notes.append(f"{name}: {layers[-1].repaired_regions} self-intersecting region(s) repaired "
-                             "(split into valid parts)")
-            if role.polarity == "negative" and provisional is None:
-                raise InputError(name, "negative-polarity copper needs a board profile file")
+        for layer, layer_notes in _copper_layers(by_name, texts, copper_roles, provisional, chord_tol_mm):
+            layers.append(layer)
+            notes.extend(layer_notes)
         if outline is None:
             pts = np.vstack([shapely.get_coordinates(shapely.convex_hull(l.pieces)) for l in layers if len(l.pieces)]
                             or [np.zeros((0, 2))])
