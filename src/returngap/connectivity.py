@@ -9,6 +9,7 @@ import fnmatch
 import re
 import weakref
 from collections import Counter, defaultdict
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 import networkx as nx
@@ -246,23 +247,32 @@ def classify(names, user_cfg):
     return cls
 
 
+def _layer_islands(layer):
+    """Islands of one layer's pieces, and the island under each segment, flash and region."""
+    pieces = layer.pieces
+    shapely.prepare(pieces)  # point and hole tests below and in later stages
+    tree = shapely.STRtree(pieces)
+    piece_island, count, pairs = touch_components(pieces, tree)
+    seg_isl = fl_isl = reg_isl = np.zeros(0, dtype=int)
+    if count:
+        s = layer.segments
+        seg_isl = _island_index(piece_island, tree, np.column_stack([(s[:, 0] + s[:, 2]) / 2, (s[:, 1] + s[:, 3]) / 2]))
+        fl_isl = _island_index(piece_island, tree, layer.flashes[:, :2])
+        reg_xy = shapely.get_coordinates(shapely.point_on_surface(
+            np.array([r[0] for r in layer.regions], dtype=object))).reshape(-1, 2)
+        reg_isl = _island_index(piece_island, tree, reg_xy)
+    return piece_island, tree, seg_isl, fl_isl, reg_isl, count, pairs
+
+
 def build_nets(board, user_cfg=None):
     g = nx.Graph()
     per_layer = {}
     votes = defaultdict(Counter)
-    for li, layer in enumerate(board.copper):
-        pieces = layer.pieces
-        shapely.prepare(pieces)  # point and hole tests below and in later stages
-        tree = shapely.STRtree(pieces)
-        piece_island, count, pairs = touch_components(pieces, tree)
-        seg_isl = np.zeros(0, dtype=int)
-        fl_isl = np.zeros(0, dtype=int)
+    with ThreadPoolExecutor(2) as pool:  # shapely's vectorised calls release the GIL: both cores
+        found = list(pool.map(_layer_islands, board.copper))
+    for li, (layer, (piece_island, tree, seg_isl, fl_isl, reg_isl, count, pairs)) in \
+            enumerate(zip(board.copper, found)):
         if count:
-            s = layer.segments
-            seg_isl = _island_index(piece_island, tree, np.column_stack([(s[:, 0] + s[:, 2]) / 2, (s[:, 1] + s[:, 3]) / 2]))
-            fl_isl = _island_index(piece_island, tree, layer.flashes[:, :2])
-            reg_xy = np.array([r[0].representative_point().coords[0] for r in layer.regions]).reshape(-1, 2)
-            reg_isl = _island_index(piece_island, tree, reg_xy)
             for isl, net in zip(seg_isl, layer.segment_net):
                 if net:
                     votes[(li, isl)][net] += 1
@@ -355,20 +365,22 @@ def build_nets(board, user_cfg=None):
         ln.segment_net = [ln.island_net[i] for i in seg_isl]
         ln.flash_net = [ln.island_net[i] for i in fl_isl]
         ln.island_tied[list(tied[li] | set(fl_isl.tolist()))] = True
-        ln.segment_fill = _fill_segments(layer, ln, seg_isl, pairs)
     net_class = classify(sorted(set(node_net.values())), user_cfg)
-    big = set()
-    board_area = board.outline.area or 1.0
-    for li, layer in enumerate(board.copper):
+    limit = PLANE_AREA_FRACTION * (board.outline.area or 1.0)
+
+    def finish(li):
+        """Pour segments and plane-sized islands of one layer (the unions here release the GIL)."""
+        layer = board.copper[li]
         ln = layers[layer.name]
+        ln.segment_fill = _fill_segments(layer, ln, per_layer[layer.name][2], per_layer[layer.name][5])
         # an island is at least as large as its largest piece and at most the sum of them: only
         # islands between the two bounds are unioned here
         upper, lower = ln.piece_area_bounds()
-        limit = PLANE_AREA_FRACTION * board_area
-        for i in np.flatnonzero(upper >= limit):
-            if lower[i] >= limit or ln.island_area(int(i)) >= limit:
-                big.add(ln.island_net[i])
         layer._area_of = ln.island_areas  # the layer's copper area, when a report asks for it
+        return {ln.island_net[i] for i in np.flatnonzero(upper >= limit)
+                if lower[i] >= limit or ln.island_area(int(i)) >= limit}
+    with ThreadPoolExecutor(2) as pool:
+        big = set().union(*pool.map(finish, range(len(board.copper))))
     notes = []
     if not any(c == "ground" for c in net_class.values()) and any(ln.n_islands for ln in layers.values()):
         area_by_net = Counter()

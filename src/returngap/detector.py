@@ -55,6 +55,7 @@ class ReferenceCopper:
         self.voids = [Void(v, not bool(t), k) for k, (v, t) in enumerate(zip(voids, touches))]
         self.void_geoms = np.array([v.geom for v in self.voids], dtype=object)
         self.void_tree = shapely.STRtree(self.void_geoms)
+        shapely.prepare(self.void_geoms)  # a distance test against a large void then skips most of its edges
         self._shrunk = np.full(len(self.voids), None, dtype=object)
         self._hulls = [None] * len(self.voids)
         self.outline = outline
@@ -77,6 +78,13 @@ class ReferenceCopper:
             if blockers is not None:
                 blockers.update(q[1][hit].tolist())
         return ok
+
+    def voids_near(self, line, distance):
+        """Positions (ascending) of the voids within `distance` of a line: boxes from the tree, then the
+        prepared voids tested (the tree's own distance test would walk every edge of a large void)."""
+        x0, y0, x1, y1 = line.bounds
+        c = self.void_tree.query(shapely.box(x0 - distance, y0 - distance, x1 + distance, y1 + distance))
+        return np.sort(c[shapely.dwithin(self.void_geoms[c], line, distance)])
 
     def free(self, xy):
         """True for points on the board and in no void's interior: places a path can pass."""
@@ -279,6 +287,17 @@ class _GapScan:
         self.own_hole_pts = {n: shapely.points(np.array(v)) for n, v in own_holes.items()}
         self.ref_by_layer = {(s, r.layer): r for s, rs in refs.items() for r in rs}
         self._copper = {}
+        self._ref_net = {}  # (reference layer, id of chain) -> its majority plane net there
+
+    def find_ref_nets(self, chains):
+        """Each chain's majority plane net on each of its reference layers, one query per layer."""
+        by_ref = {}
+        for ch in chains:
+            for r in ch.footprints:
+                by_ref.setdefault(r, []).append(ch)
+        for r, chs in by_ref.items():
+            found = majority_nets(self.nets.layers[r], self.nets.plane_nets, [ch.line for ch in chs])
+            self._ref_net.update(((r, id(ch)), n) for ch, n in zip(chs, found))
 
     def copper(self, ref_layer):
         rc = self._copper.get(ref_layer)
@@ -298,14 +317,15 @@ class _GapScan:
             if not rc.voids:
                 continue
             line = ch.line
-            near = np.sort(rc.void_tree.query(line, predicate="dwithin", distance=hw))  # every void fp meets
+            near = rc.voids_near(line, hw)  # every void the footprint meets
             own = self.own_hole_pts.get(ch.net)
             if own is not None:  # the antipad of the track's own via belongs to its layer change
                 near = [k for k in near if not (rc.voids[k].enclosed and shapely.intersects(rc.void_geoms[k], own).any())]
             if not len(near):
                 continue
             # the reference net: the plane net under most of the centre line
-            ref_net = majority_net(ln, self.nets.plane_nets, line)
+            key = (ref_layer, id(ch))
+            ref_net = self._ref_net[key] if key in self._ref_net else majority_net(ln, self.nets.plane_nets, line)
             if ref_net is None:
                 continue
             lx0, ly0, lx1, ly1 = line.bounds
@@ -351,6 +371,7 @@ def _auto_workers(settings, n_chains):
 
 
 def _scan_all(scan, chains, workers):
+    scan.find_ref_nets(chains)
     if workers > 1:
         for layer in {r for ch in chains for r in ch.footprints}:
             scan.copper(layer)  # built once here, shared with the workers by fork

@@ -45,15 +45,14 @@ def _grade(reflection, budget):
 def _plane_net_near(ln, plane_nets, x, y, reach=2.0):
     """Plane net of the nearest plane copper to a point (a via sits in its own antipad)."""
     p = shapely.Point(x, y)
-    best = None
-    for k in ln.tree.query(p, predicate="dwithin", distance=reach):
-        net = ln.island_net[ln.piece_island[k]]
-        if net not in plane_nets:
-            continue
-        d = ln.pieces[k].distance(p)
-        if best is None or d < best[0]:
-            best = (d, net)
-    return best[1] if best else None
+    # boxes from the tree, then the (prepared) plane pieces tested: the tree's own distance test
+    # would walk every edge of a large pour
+    c = ln.tree.query(shapely.box(x - reach, y - reach, x + reach, y + reach))
+    c = np.array([k for k in c if ln.island_net[ln.piece_island[k]] in plane_nets], dtype=int)
+    c = c[shapely.dwithin(ln.pieces[c], p, reach)]
+    if not len(c):
+        return None
+    return ln.island_net[ln.piece_island[c[int(np.argmin(shapely.distance(ln.pieces[c], p)))]]]
 
 
 def _parts_bridging(board, nets, net_a, net_b):
@@ -223,7 +222,8 @@ def edge_runs(board, nets, refs, chains, settings, hs):
         outer, edge_tree = edges[ref.layer]
         limit = hs.edge_distance_h * ref.h_mm
         near_edge = np.zeros(len(idx), dtype=bool)
-        near_edge[edge_tree.query(lines, predicate="dwithin", distance=limit)[0]] = True
+        # long lines: a bounded nearest search prunes more of the tree than a distance query does
+        near_edge[edge_tree.query_nearest(lines, max_distance=limit, all_matches=False)[0]] = True
         # on the plane and nowhere near its edge: nothing to sample
         keep &= near_edge | ~shapely.contains(outer, lines)
         todo = np.flatnonzero(keep)

@@ -625,11 +625,11 @@ def _copper_layer(fab, text, role, provisional, tol):
     return layer, notes
 
 
-def _copper_layers(by_name, texts, copper_roles, provisional, tol):
+def _copper_layers(by_name, texts, copper_roles, provisional, tol, want):
     """Every copper layer, top to bottom; the layers are independent, so a large board's are read on
     both cores, largest file first so the two processes finish together."""
     size = sum(len(texts[name]) for name, _ in copper_roles)
-    workers = forking.workers_for() if size >= PARALLEL_MIN_BYTES else 1
+    workers = forking.workers_for(want) if size >= PARALLEL_MIN_BYTES else 1
     order = sorted(range(len(copper_roles)), key=lambda k: -len(texts[copper_roles[k][0]]))
 
     def task(j):
@@ -659,8 +659,9 @@ def _wkb_unpacked(layer):
     return layer
 
 
-def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_MM, scratch=None):
-    """Read a board (folder, zip or file list) into the board model."""
+def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_MM, scratch=None, workers=0):
+    """Read a board (folder, zip or file list) into the board model; copper layers in `workers`
+    processes (0: both cores on a large board)."""
     with BoardFiles(sources, scratch) as bf:
         texts = {f.name: read_text(f) for f in bf.fab if f.kind in ("gerber", "excellon", "job")}
         notes = []
@@ -689,7 +690,7 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
                     break
         provisional = outline
         layers = []
-        for layer, layer_notes in _copper_layers(by_name, texts, copper_roles, provisional, chord_tol_mm):
+        for layer, layer_notes in _copper_layers(by_name, texts, copper_roles, provisional, chord_tol_mm, workers):
             layers.append(layer)
             notes.extend(layer_notes)
         if outline is None:

@@ -16,16 +16,16 @@ class CheckResult:
     settings: object
 
 
-def load(sources, stackup_file=None, scratch=None):
+def load(sources, stackup_file=None, scratch=None, workers=0):
     cfg = config.load_stackup_file(stackup_file)
-    board = importer.load_board(sources, user_layers=cfg.get("layers"), scratch=scratch)
+    board = importer.load_board(sources, user_layers=cfg.get("layers"), scratch=scratch, workers=workers)
     stackup.build_stackup(board, cfg)
     return board, cfg
 
 
 def run_check(sources, stackup_file=None, settings=None, scratch=None):
     settings = settings or projector.Settings()
-    board, cfg = load(sources, stackup_file, scratch)
+    board, cfg = load(sources, stackup_file, scratch, settings.workers)
     nets = connectivity.build_nets(board, cfg)
     refs, planes = projector.references(board, nets, settings)
     chains = projector.chains(board, nets, refs, settings)

@@ -36,7 +36,7 @@ class Settings:
     slot_aspect_ratio: float = 3.0     # elongated beyond this: a slot, else a void (common practice, no source)
     plane_min_fraction: float = 0.20   # a layer whose plane-net copper covers this share of the board is a reference
     nets: tuple = ()                   # glob patterns; empty = every signal net
-    workers: int = 0                   # processes for the gap scan: 0 = both cores on a large board, 1 = one
+    workers: int = 0                   # processes for import and gap scan: 0 = both cores on a large board, 1 = one
 
     @property
     def rise_ns(self):
