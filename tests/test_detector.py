@@ -147,3 +147,25 @@ def test_two_processes_give_the_same_findings(tmp_path, monkeypatch):
     two = run_check(demo, stack, settings=Settings(workers=2)).findings
     assert pools, "the two-process path did not run"
     assert len(one) > 5 and one == two
+
+
+def test_geos_failure_on_a_gap_is_retried_on_a_snapped_outline(monkeypatch):
+    """A GEOS topology error on one gap's outline does not end the check: the crossing is measured
+    again on the outline snapped to a 1 nm grid and reported as before."""
+    import shapely
+    from pathlib import Path
+    from returngap import detector
+    demo = Path(__file__).resolve().parents[1] / "examples" / "demo-board"
+    stack = demo / "stackup.toml"
+    plain = run_check(demo, stack, settings=Settings(workers=1)).findings
+    real, calls = detector._finding, []
+
+    def flaky(*args):
+        calls.append(1)
+        if len(calls) == 1:
+            raise shapely.errors.GEOSException("TopologyException: side location conflict")
+        return real(*args)
+    monkeypatch.setattr(detector, "_finding", flaky)
+    again = run_check(demo, stack, settings=Settings(workers=1)).findings
+    assert len(calls) > 1
+    assert [f["id"] for f in again] == [f["id"] for f in plain]

@@ -358,8 +358,14 @@ class _GapScan:
                 if not pieces and void.enclosed:
                     events.append(("graze", None, None))
                 for ev, s0, s1 in events:
-                    f = _finding(self.board, ch, ref, rc, void, local, line, hw, ev, s0, s1, self.reach,
-                                 self.settings, ref_net)
+                    try:
+                        f = _finding(self.board, ch, ref, rc, void, local, line, hw, ev, s0, s1, self.reach,
+                                     self.settings, ref_net)
+                    except shapely.errors.GEOSException:
+                        # GEOS can fail on a nearly degenerate outline ("side location conflict"):
+                        # once more with the gap snapped to a 1 nm grid, which makes it clean
+                        f = _finding(self.board, ch, ref, rc, void, shapely.set_precision(local, 1e-6), line, hw,
+                                     ev, s0, s1, self.reach, self.settings, ref_net)
                     if f is not None:
                         out.append(((f["net"], f["layer"], f["reference_layer"], void.index, round(f["x_mm"], 1),
                                      round(f["y_mm"], 1)), f))

@@ -138,18 +138,26 @@ def identify(board_files, texts, job, user_layers):
             job_roles[PurePosixPath(str(entry["Path"]).replace("\\", "/")).name] = role_from_function(
                 str(entry["FileFunction"]), entry.get("FilePolarity"), "job file")
     candidates = [f for f in board_files.fab if f.kind in ("gerber", "excellon")]
-    name_roles = {}
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        try:
-            _gen, guessed = _best_match([f.path for f in candidates])
-        except Exception:
-            guessed = {}
-    by_path = {f.path: f.name for f in candidates}
-    for key, paths in guessed.items():
-        for p in paths:
-            if p in by_path:
-                name_roles[by_path[p]] = role_from_name(key)
+    name_roles = None
+
+    def by_name(name):
+        """Role from the file name, matched over all files together (only when something needs it:
+        the matching rules are many regular expressions)."""
+        nonlocal name_roles
+        if name_roles is None:
+            name_roles = {}
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                try:
+                    _gen, guessed = _best_match([f.path for f in candidates])
+                except Exception:
+                    guessed = {}
+            by_path = {f.path: f.name for f in candidates}
+            for key, paths in guessed.items():
+                for p in paths:
+                    if p in by_path:
+                        name_roles[by_path[p]] = role_from_name(key)
+        return name_roles.get(name)
     user_roles = {k: role_from_user(v) for k, v in (user_layers or {}).items()}
     for f in candidates:
         base = PurePosixPath(f.name).name
@@ -173,7 +181,7 @@ def identify(board_files, texts, job, user_layers):
             notes.append(f"{f.name}: stackup file maps it to '{ur.label}', but the {chosen.source} says "
                          f"'{chosen.label}'; using the {chosen.source}")
         if chosen is None:
-            chosen = name_roles.get(f.name)
+            chosen = by_name(f.name)
         if chosen is None and f.kind == "excellon":
             chosen = Role("drill", source="content")
         if chosen is None:

@@ -198,17 +198,27 @@ def chains(board, nets, refs, settings):
         ok = np.fromiter((net_ok[n] for n in ln.segment_net), bool, len(seg))
         ok &= np.fromiter((fn not in NON_TRACK_FUNCTIONS for fn in layer.segment_function), bool, len(seg))
         ok &= ~np.asarray(fill, dtype=bool) & (seg[:, 4] > 0) & ((seg[:, 0] != seg[:, 2]) | (seg[:, 1] != seg[:, 3]))
+        # ends snapped to a 10 nm grid so that strokes drawn end to end meet exactly
+        xy = np.round(seg[:, :4], 5)
+        ok &= (xy[:, 0] != xy[:, 2]) | (xy[:, 1] != xy[:, 3])
         groups = defaultdict(list)
         for k, w in zip(np.flatnonzero(ok).tolist(), np.round(seg[ok, 4], 4).tolist()):
             groups[(ln.segment_net[k], w)].append(k)
-        for (net, w), rows in sorted(groups.items()):
-            lines = shapely.linestrings(seg[rows, :4].reshape(-1, 2, 2))
-            merged = shapely.line_merge(shapely.set_precision(shapely.multilinestrings(lines), 1e-5))
-            for line in shapely.get_parts(merged):
-                if line.length <= 0:
-                    continue
-                ch = Chain(net, layer.name, w, line, Footprints(line, board.outline))
-                for ref in refs[layer.name]:
-                    ch.footprints.add(ref.layer, footprint_halfwidth(w, ref, settings.current_fraction))
-                out.append(ch)
+        keys = sorted(groups)
+        if not keys:
+            continue
+        rows = np.concatenate([groups[k] for k in keys])
+        which = np.repeat(np.arange(len(keys)), [len(groups[k]) for k in keys])
+        # every (net, width) group merged into its longest runs in one vectorised pass
+        merged = shapely.line_merge(shapely.multilinestrings(shapely.linestrings(xy[rows].reshape(-1, 2, 2)),
+                                                             indices=which))
+        parts, of_group = shapely.get_parts(merged, return_index=True)
+        for line, g in zip(parts, of_group.tolist()):
+            net, w = keys[g]
+            if line.length <= 0:
+                continue
+            ch = Chain(net, layer.name, w, line, Footprints(line, board.outline))
+            for ref in refs[layer.name]:
+                ch.footprints.add(ref.layer, footprint_halfwidth(w, ref, settings.current_fraction))
+            out.append(ch)
     return out
