@@ -44,6 +44,28 @@ def test_pictures_exist_decode_and_are_ticket_sized(demo_out):
         assert p.stat().st_size < 500_000
 
 
+def test_pictures_drawn_in_two_processes_match_one(tmp_path, monkeypatch):
+    """The report folder written with the pictures split over two forked processes holds the same
+    files, byte for byte, as one written by this process alone."""
+    from returngap import cli, forking
+    from returngap.projector import Settings
+    result = run_check(DEMO, DEMO / "stackup.toml", settings=Settings(workers=1))
+    rep = report.findings_report(result)
+    cli.write_outputs(result, rep, tmp_path / "one", "never")
+    monkeypatch.setattr(forking.threading, "active_count", lambda: 1)  # other tests' threads aside
+    pools = []
+    real_pool = forking.ProcessPoolExecutor
+    monkeypatch.setattr(forking, "ProcessPoolExecutor", lambda *a, **k: pools.append(1) or real_pool(*a, **k))
+    result.settings = Settings(workers=2)
+    cli.write_outputs(result, rep, tmp_path / "two", "never")
+    assert pools, "the two-process path did not run"
+    one = sorted(p.name for p in (tmp_path / "one").iterdir())
+    assert len(one) == len(rep["findings"]) + 5  # pictures, overview, JSON, CSV, JUnit, HTML
+    assert one == sorted(p.name for p in (tmp_path / "two").iterdir())
+    for name in one:
+        assert (tmp_path / "one" / name).read_bytes() == (tmp_path / "two" / name).read_bytes(), name
+
+
 def test_finding_picture_highlights_the_finding(tmp_path):
     result = run_check(DEMO)
     rep = report.findings_report(result)

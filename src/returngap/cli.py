@@ -12,7 +12,7 @@ from pathlib import Path
 
 import click
 
-from . import __version__, report
+from . import __version__, forking, report
 from .errors import InputError
 
 
@@ -84,6 +84,9 @@ def _progress(items, label, quiet):
     return tqdm(items, desc=label, unit="", leave=False, file=sys.stderr)
 
 
+PARALLEL_MIN_PICTURES = 6  # fewer are drawn in this process alone
+
+
 def write_outputs(result, rep, out_dir, fail_on, quiet=True):
     """Everything `check --out` writes: JSON, CSV, JUnit, overview and per-finding PNGs, report.html."""
     from . import htmlpage, render
@@ -94,12 +97,18 @@ def write_outputs(result, rep, out_dir, fail_on, quiet=True):
     _write(out / "findings.json", report.to_json(rep))
     _write(out / "findings.csv", report.to_csv(rep))
     _write(out / "junit.xml", report.to_junit(rep, fail_on))
-    render.overview_png(result, rep, out / "overview.png")
-    images = {}
-    for i, f in enumerate(_progress(rep["findings"], "pictures", quiet), 1):
-        p = out / f"finding-{f['id']}.png"
-        render.finding_png(result, f, i, p)
-        images[f["id"]] = p
+    images = {f["id"]: out / f"finding-{f['id']}.png" for f in rep["findings"]}
+    # pictures are independent: on a large report, two forked processes draw every other one
+    todo = [(out / "overview.png", None, None)] + [(images[f["id"]], f, i) for i, f in enumerate(rep["findings"], 1)]
+    workers = forking.workers_for(result.settings.workers) if len(todo) >= PARALLEL_MIN_PICTURES else 1
+
+    def draw(k):
+        for path, f, i in _progress(todo[k::workers], "pictures", quiet or k > 0):
+            if f is None:
+                render.overview_png(result, rep, path)
+            else:
+                render.finding_png(result, f, i, path)
+    forking.fork_map(draw, workers, workers)
     _write(out / "report.html", htmlpage.page(rep, images, out / "overview.png"))
 
 

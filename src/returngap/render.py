@@ -171,7 +171,7 @@ def finding_png(result, finding, number, path):
     _scale_bar(ax, x0, x1, y0, y1)
     fig.text(0.01, 0.01, caption, fontsize=9, family="monospace", va="bottom")
     fig.tight_layout(rect=(0, 0.07, 1, 1))
-    fig.canvas.draw()
+    ax.apply_aspect()  # the box the drawing will use: the finding's pixel without drawing twice
     px, py = ax.transData.transform((x, y))
     height = fig.get_size_inches()[1] * fig.dpi
     fig.savefig(path, dpi=100)
