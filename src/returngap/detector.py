@@ -271,7 +271,7 @@ def slot_geometry(void, mid, tangent, reach, aspect_limit):
     return dict(length=l1 + l2, width=None, l1=l1, l2=l2, end1=end1, end2=end2, elongated=True)
 
 
-PARALLEL_MIN_CHAINS = 300  # below this a second process costs more than it saves (measured by make bench)
+PARALLEL_MIN_CHAINS = 100  # below this a second process costs more than it saves (measured by make bench)
 
 
 class _GapScan:

@@ -73,9 +73,9 @@ def polygon_from_points(pts):
         return shapely.Polygon()
     poly = Polygon(pts)
     if not poly.is_valid:
-        poly = shapely.make_valid(poly)
-        poly = shapely.union_all([g for g in shapely.get_parts(poly)
-                                  if g.geom_type in ("Polygon", "MultiPolygon")])
+        # "structure" repair: the ring's enclosed area (cut-ins become holes, a ring that doubles over
+        # itself stays filled), polygons only, and many times faster than rebuilding from linework
+        poly = shapely.make_valid(poly, method="structure", keep_collapsed=False)
     return poly
 
 
