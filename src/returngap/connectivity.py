@@ -247,6 +247,22 @@ def classify(names, user_cfg):
     return cls
 
 
+def _tally(votes, li, islands, names, weight):
+    """Add `weight` votes for each named object's net to its island (counted in numpy, not one by one)."""
+    code, uniq = {}, []
+    for n in names:
+        if n and n not in code:
+            code[n] = len(uniq)
+            uniq.append(n)
+    if not uniq:
+        return
+    c = np.fromiter((code.get(n, -1) if n else -1 for n in names), int, len(names))
+    ok = c >= 0
+    pair, count = np.unique(np.asarray(islands)[ok] * len(uniq) + c[ok], return_counts=True)
+    for p, k in zip(pair.tolist(), count.tolist()):
+        votes[(li, p // len(uniq))][uniq[p % len(uniq)]] += weight * k
+
+
 def _layer_islands(layer):
     """Islands of one layer's pieces, and the island under each segment, flash and region."""
     pieces = layer.pieces
@@ -273,15 +289,9 @@ def build_nets(board, user_cfg=None):
     for li, (layer, (piece_island, tree, seg_isl, fl_isl, reg_isl, count, pairs)) in \
             enumerate(zip(board.copper, found)):
         if count:
-            for isl, net in zip(seg_isl, layer.segment_net):
-                if net:
-                    votes[(li, isl)][net] += 1
-            for isl, net in zip(fl_isl, layer.flash_net):
-                if net:
-                    votes[(li, isl)][net] += 1
-            for isl, (poly, net, _) in zip(reg_isl, layer.regions):
-                if net:
-                    votes[(li, isl)][net] += 5  # a named pour speaks for its island
+            _tally(votes, li, seg_isl, layer.segment_net, 1)
+            _tally(votes, li, fl_isl, layer.flash_net, 1)
+            _tally(votes, li, reg_isl, [r[1] for r in layer.regions], 5)  # a named pour speaks for its island
         g.add_nodes_from((li, int(i)) for i in range(count))
         per_layer[layer.name] = (piece_island, tree, seg_isl, fl_isl, count, pairs)
 

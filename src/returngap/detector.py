@@ -91,6 +91,13 @@ class ReferenceCopper:
         pts = shapely.points(xy)
         return self.passable(pts)
 
+    @functools.cached_property
+    def inset_outline(self):
+        """The board outline shrunk by 10 um, built once: points outside it are at the board's edge."""
+        inset = self.outline.buffer(-0.01)
+        shapely.prepare(inset)
+        return inset
+
     def hull(self, k):
         if self._hulls[k] is None:
             self._hulls[k] = shapely.convex_hull(self.void_geoms[k])
@@ -376,31 +383,43 @@ def _auto_workers(settings, n_chains):
     return 1 if n_chains < PARALLEL_MIN_CHAINS else forking.workers_for(settings.workers)
 
 
-def _scan_all(scan, chains, workers):
+def gap_scan_tasks(board, nets, refs, chains, settings):
+    """The gap scan cut into independent slices of chains, for `forking.fork_map`: returns (tasks,
+    combine, workers); combine(results of the tasks, in order) gives the findings, as
+    detect_gap_crossings does."""
+    scan = _GapScan(board, nets, refs, settings)
     scan.find_ref_nets(chains)
+    workers = _auto_workers(settings, len(chains))
     if workers > 1:
         for layer in {r for ch in chains for r in ch.footprints}:
             scan.copper(layer)  # built once here, shared with the workers by fork
     n = workers * 8  # many small slices: the pool balances uneven chains
-    parts = forking.fork_map(lambda k: [(i, scan.chain(chains[i])) for i in range(k, len(chains), n)], n, workers)
-    out = [None] * len(chains)
-    for part in parts:
-        for i, r in part:
-            out[i] = r
-    return out
+    tasks = [functools.partial(_scan_slice, scan, chains, k, n) for k in range(n)]
+
+    def combine(parts):
+        out = [None] * len(chains)
+        for part in parts:
+            for i, r in part:
+                out[i] = r
+        findings, seen = [], set()
+        for found in out:
+            for key, f in found:
+                if key not in seen:
+                    seen.add(key)
+                    findings.append(f)
+        return findings
+    return tasks, combine, workers
+
+
+def _scan_slice(scan, chains, k, n):
+    return [(i, scan.chain(chains[i])) for i in range(k, len(chains), n)]
 
 
 def detect_gap_crossings(board, nets, refs, chains, settings):
     """All gap-crossing findings, as dicts (see report.FINDING_FIELDS). Chains are scanned in two
     processes on a large board; the result is the same as one process's, in the same order."""
-    scan = _GapScan(board, nets, refs, settings)
-    findings, seen = [], set()
-    for found in _scan_all(scan, chains, _auto_workers(settings, len(chains))):
-        for key, f in found:
-            if key not in seen:
-                seen.add(key)
-                findings.append(f)
-    return findings
+    tasks, combine, workers = gap_scan_tasks(board, nets, refs, chains, settings)
+    return combine(forking.fork_map(lambda k: tasks[k](), len(tasks), workers))
 
 
 def _footprint_overlap(line, hw, region):
@@ -689,7 +708,7 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
     open_one_end = False
     if not void.enclosed and gap_type == "slot":
         open_one_end = True
-        e1_open = shapely.Point(geo["end1"]).distance(rc.edge) < 0.05 or not rc.outline.buffer(-0.01).contains(shapely.Point(geo["end1"]))
+        e1_open = shapely.Point(geo["end1"]).distance(rc.edge) < 0.05 or not rc.inset_outline.contains(shapely.Point(geo["end1"]))
         # the open end is the one that reaches the plane's outer edge; the stub model keeps the closed one
         l_closed = geo["l2"] if e1_open else geo["l1"]
         l_open = geo["l1"] if e1_open else geo["l2"]

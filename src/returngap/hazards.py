@@ -425,7 +425,12 @@ def return_splits(board, gap_findings, settings, hs):
 
 def detect_all(board, nets, refs, chains, settings, hs=None, gap_findings=()):
     hs = hs or HazardSettings()
+    return detect_without_gaps(board, nets, refs, chains, settings, hs) + return_splits(board, gap_findings, settings, hs)
+
+
+def detect_without_gaps(board, nets, refs, chains, settings, hs=None):
+    """The checks that do not need the gap crossings (they can run beside the gap scan)."""
+    hs = hs or HazardSettings()
     return (reference_changes(board, nets, refs, settings) + edge_runs(board, nets, refs, chains, settings, hs)
             + floating_copper(board, nets, refs, chains, settings, hs)
-            + stitching_spacing(board, nets, refs, chains, settings, hs)
-            + return_splits(board, gap_findings, settings, hs))
+            + stitching_spacing(board, nets, refs, chains, settings, hs))

@@ -2,7 +2,7 @@
 
 from dataclasses import dataclass
 
-from . import config, connectivity, detector, hazards, importer, projector, stackup
+from . import config, connectivity, detector, forking, hazards, importer, projector, stackup
 
 
 @dataclass
@@ -29,6 +29,11 @@ def run_check(sources, stackup_file=None, settings=None, scratch=None):
     nets = connectivity.build_nets(board, cfg)
     refs, planes = projector.references(board, nets, settings)
     chains = projector.chains(board, nets, refs, settings)
-    findings = detector.detect_gap_crossings(board, nets, refs, chains, settings)
-    findings += hazards.detect_all(board, nets, refs, chains, settings, gap_findings=findings)
+    # the gap scan's slices and the checks that do not need its findings share the processes
+    tasks, combine, workers = detector.gap_scan_tasks(board, nets, refs, chains, settings)
+    hs = hazards.HazardSettings()
+    jobs = [lambda: hazards.detect_without_gaps(board, nets, refs, chains, settings, hs)] + tasks
+    done = forking.fork_map(lambda k: jobs[k](), len(jobs), workers)
+    findings = combine(done[1:])
+    findings += done[0] + hazards.return_splits(board, findings, settings, hs)
     return CheckResult(board, nets, refs, planes, chains, findings, settings)
