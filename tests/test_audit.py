@@ -24,9 +24,13 @@ def _zip_folder(folder, target, rename=None):
             z.write(p, (rename(p.name) if rename else p.name))
 
 
+N_ZIPS = 12                  # every kind of good board at least once, some twice, some renamed
+N_BOARDS = N_ZIPS + 4 + 6    # the zips, four plain folders, six bad inputs
+
+
 @pytest.fixture(scope="module")
 def batch(tmp_path_factory):
-    """34 inputs: 28 good (zips and folders, some renamed), 6 bad."""
+    """22 inputs: 16 good (zips and folders, some renamed), 6 bad."""
     root = tmp_path_factory.mktemp("batch")
     src = root / "archives"
     src.mkdir()
@@ -39,9 +43,9 @@ def batch(tmp_path_factory):
     kinds["hazard"] = hazard_board(seeds / "hazard")
     good = []
     n = 0
-    while len(good) < 24:
+    while len(good) < N_ZIPS:
         for name, folder in kinds.items():
-            if len(good) >= 24:
+            if len(good) >= N_ZIPS:
                 break
             n += 1
             target = src / f"rev{n:02d}-{name}.zip"
@@ -101,7 +105,7 @@ def test_batch_reports_good_and_fails_bad_and_writes_only_out(batch):
     p = _audit(src, "--out", out, "--jobs", "2", "--time-limit", "120")
     assert p.returncode == 1, p.stderr
     data, rows = _rows(out)
-    assert data["boards"] == len(good) + len(bad) == 34
+    assert data["boards"] == len(good) + len(bad) == N_BOARDS
     for name in good:
         assert rows[name]["status"] in ("ok", "findings"), (name, rows[name]["reason"])
         assert (out / rows[name]["report"]).is_file()
@@ -114,7 +118,7 @@ def test_batch_reports_good_and_fails_bad_and_writes_only_out(batch):
     assert not (root.parent / "escaped.gbr").exists()
     assert not (out / ".work").exists()
     lines = (out / "summary.csv").read_text().splitlines()
-    assert len(lines) == 35 and lines[0].startswith("board,source,status")
+    assert len(lines) == N_BOARDS + 1 and lines[0].startswith("board,source,status")
 
 
 def test_killed_audit_resumes_without_redoing(batch, tmp_path):
@@ -129,18 +133,18 @@ def test_killed_audit_resumes_without_redoing(batch, tmp_path):
     os.killpg(proc.pid, signal.SIGKILL)
     proc.wait()
     done = {p.parent.name: p.stat().st_mtime_ns for p in out.glob("boards/*/status.json")}
-    assert 5 <= len(done) < 34
+    assert 5 <= len(done) < N_BOARDS
     p = _audit(src, "--out", out, "--jobs", "2")
     assert "unchanged" in p.stdout
     after = {p.parent.name: p.stat().st_mtime_ns for p in out.glob("boards/*/status.json")}
     assert all(after[k] == v for k, v in done.items())  # nothing redone
-    assert len(after) == 34  # nothing lost
+    assert len(after) == N_BOARDS  # nothing lost
     ref = root / "out"
     if (ref / "summary.json").exists():
         strip = lambda d: [{k: v for k, v in r.items() if k not in ("source", "report")} for r in d["rows"]]
         assert strip(json.loads((out / "summary.json").read_text())) == strip(json.loads((ref / "summary.json").read_text()))
     p2 = _audit(src, "--out", out, "--force", "--jobs", "2")
-    assert f"34 run" in p2.stdout
+    assert f"{N_BOARDS} run" in p2.stdout
 
 
 def test_dask_path_gives_the_same_summary(batch, tmp_path):
