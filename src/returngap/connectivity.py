@@ -249,11 +249,8 @@ def classify(names, user_cfg):
 
 def _tally(votes, li, islands, names, weight):
     """Add `weight` votes for each named object's net to its island (counted in numpy, not one by one)."""
-    code, uniq = {}, []
-    for n in names:
-        if n and n not in code:
-            code[n] = len(uniq)
-            uniq.append(n)
+    uniq = sorted({n for n in names if n})
+    code = {n: k for k, n in enumerate(uniq)}
     if not uniq:
         return
     c = np.fromiter((code.get(n, -1) if n else -1 for n in names), int, len(names))
@@ -382,7 +379,8 @@ def build_nets(board, user_cfg=None):
         """Pour segments and plane-sized islands of one layer (the unions here release the GIL)."""
         layer = board.copper[li]
         ln = layers[layer.name]
-        ln.segment_fill = _fill_segments(layer, ln, per_layer[layer.name][2], per_layer[layer.name][5])
+        _, _, seg_isl, _, _, pairs = per_layer[layer.name]
+        ln.segment_fill = _fill_segments(layer, ln, seg_isl, pairs)
         # an island is at least as large as its largest piece and at most the sum of them: only
         # islands between the two bounds are unioned here
         upper, lower = ln.piece_area_bounds()

@@ -294,17 +294,6 @@ class _GapScan:
         self.own_hole_pts = {n: shapely.points(np.array(v)) for n, v in own_holes.items()}
         self.ref_by_layer = {(s, r.layer): r for s, rs in refs.items() for r in rs}
         self._copper = {}
-        self._ref_net = {}  # (reference layer, id of chain) -> its majority plane net there
-
-    def find_ref_nets(self, chains):
-        """Each chain's majority plane net on each of its reference layers, one query per layer."""
-        by_ref = {}
-        for ch in chains:
-            for r in ch.footprints:
-                by_ref.setdefault(r, []).append(ch)
-        for r, chs in by_ref.items():
-            found = majority_nets(self.nets.layers[r], self.nets.plane_nets, [ch.line for ch in chs])
-            self._ref_net.update(((r, id(ch)), n) for ch, n in zip(chs, found))
 
     def copper(self, ref_layer):
         rc = self._copper.get(ref_layer)
@@ -313,13 +302,13 @@ class _GapScan:
                                                            self.board.outline)
         return rc
 
-    def chain(self, ch):
-        """(key, finding) of every gap one chain's footprints meet."""
+    def chain(self, ch, ref_nets):
+        """(key, finding) of every gap one chain's footprints meet; ref_nets: {reference layer: the
+        plane net under most of the chain} (see chain_plane_nets)."""
         out = []
         for ref_layer in ch.footprints:
             hw = ch.footprints.halfwidth(ref_layer)
             ref = self.ref_by_layer[(ch.layer, ref_layer)]
-            ln = self.nets.layers[ref_layer]
             rc = self.copper(ref_layer)
             if not rc.voids:
                 continue
@@ -331,8 +320,7 @@ class _GapScan:
             if not len(near):
                 continue
             # the reference net: the plane net under most of the centre line
-            key = (ref_layer, id(ch))
-            ref_net = self._ref_net[key] if key in self._ref_net else majority_net(ln, self.nets.plane_nets, line)
+            ref_net = ref_nets[ref_layer]
             if ref_net is None:
                 continue
             lx0, ly0, lx1, ly1 = line.bounds
@@ -383,18 +371,32 @@ def _auto_workers(settings, n_chains):
     return 1 if n_chains < PARALLEL_MIN_CHAINS else forking.workers_for(settings.workers)
 
 
-def gap_scan_tasks(board, nets, refs, chains, settings):
+def chain_plane_nets(nets, chains):
+    """Per chain, {reference layer: the plane net under most of its centre line (or None)}, with one
+    tree query per reference layer for all chains; the gap scan and the edge check both use it."""
+    out = [{} for _ in chains]
+    by_ref = {}
+    for i, ch in enumerate(chains):
+        for r in ch.footprints:
+            by_ref.setdefault(r, []).append(i)
+    for r, idx in by_ref.items():
+        for i, n in zip(idx, majority_nets(nets.layers[r], nets.plane_nets, [chains[i].line for i in idx])):
+            out[i][r] = n
+    return out
+
+
+def gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of):
     """The gap scan cut into independent slices of chains, for `forking.fork_map`: returns (tasks,
-    combine, workers); combine(results of the tasks, in order) gives the findings, as
-    detect_gap_crossings does."""
+    combine, workers); combine(results of the tasks, in order) gives the gap-crossing findings, as
+    dicts (see report.FINDING_FIELDS), the same and in the same order however many processes ran.
+    plane_nets_of: chain_plane_nets(nets, chains)."""
     scan = _GapScan(board, nets, refs, settings)
-    scan.find_ref_nets(chains)
     workers = _auto_workers(settings, len(chains))
     if workers > 1:
         for layer in {r for ch in chains for r in ch.footprints}:
             scan.copper(layer)  # built once here, shared with the workers by fork
     n = workers * 8  # many small slices: the pool balances uneven chains
-    tasks = [functools.partial(_scan_slice, scan, chains, k, n) for k in range(n)]
+    tasks = [functools.partial(_scan_slice, scan, chains, plane_nets_of, k, n) for k in range(n)]
 
     def combine(parts):
         out = [None] * len(chains)
@@ -411,15 +413,8 @@ def gap_scan_tasks(board, nets, refs, chains, settings):
     return tasks, combine, workers
 
 
-def _scan_slice(scan, chains, k, n):
-    return [(i, scan.chain(chains[i])) for i in range(k, len(chains), n)]
-
-
-def detect_gap_crossings(board, nets, refs, chains, settings):
-    """All gap-crossing findings, as dicts (see report.FINDING_FIELDS). Chains are scanned in two
-    processes on a large board; the result is the same as one process's, in the same order."""
-    tasks, combine, workers = gap_scan_tasks(board, nets, refs, chains, settings)
-    return combine(forking.fork_map(lambda k: tasks[k](), len(tasks), workers))
+def _scan_slice(scan, chains, plane_nets_of, k, n):
+    return [(i, scan.chain(chains[i], plane_nets_of[i])) for i in range(k, len(chains), n)]
 
 
 def _footprint_overlap(line, hw, region):
@@ -586,14 +581,9 @@ def _local_geodesic(rc, pa, pb, void_pos, hw, budget=40):
     return (shorter, None, "hull-estimate") if shorter is not None else None
 
 
-def points_along(line, s):
-    """Points at distances s along a LineString, interpolated in numpy (one pass over its vertices,
-    where shapely walks the line again for every point)."""
-    return shapely.points(coords_along(line, s))
-
-
 def coords_along(line, s):
-    """(x, y) at distances s along a LineString, as an (n, 2) array."""
+    """(x, y) at distances s along a LineString, as an (n, 2) array, interpolated in numpy (one pass
+    over its vertices, where shapely walks the line again for every point)."""
     return coords_along_lines([line], [s])
 
 
@@ -632,11 +622,6 @@ def majority_nets(ln, plane_nets, lines, samples=17):
         for p, k in sorted(zip(pair.tolist(), count.tolist()), key=lambda t: (t[1], t[0] % len(names))):
             out[p // len(names)] = names[p % len(names)]  # the last written wins: most samples, then name
     return out
-
-
-def majority_net(ln, plane_nets, line, samples=17):
-    """Plane net under most sample points of one centre line (None when no plane copper is under it)."""
-    return majority_nets(ln, plane_nets, [line], samples)[0]
 
 
 def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, settings, ref_net):

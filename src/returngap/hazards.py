@@ -10,7 +10,7 @@ import numpy as np
 import shapely
 
 from . import physics
-from .detector import coords_along_lines, majority_nets, stable_id
+from .detector import coords_along_lines, stable_id
 from .projector import line_z0
 
 DEFAULT_PART_LOOP_NH = 1.0  # mounted two-terminal capacitor loop, typically 0.5-1.5 nH (from memory)
@@ -195,7 +195,7 @@ def _segment_tree(lines):
     return shapely.STRtree(segs)
 
 
-def edge_runs(board, nets, refs, chains, settings, hs):
+def edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of):
     """Tracks whose return footprint runs along the edge of their reference plane's copper, or off it
     at a track end. (A track crossing a gap between plane islands is a gap crossing, not an edge run.)"""
     findings = []
@@ -210,7 +210,7 @@ def edge_runs(board, nets, refs, chains, settings, hs):
             continue
         ln = nets.layers[ref.layer]
         lines = np.array([chains[k].line for k in idx], dtype=object)
-        ref_nets = majority_nets(ln, nets.plane_nets, lines)
+        ref_nets = [plane_nets_of[k][ref.layer] for k in idx]
         keep = np.array([n is not None for n in ref_nets])
         if not keep.any():
             continue
@@ -423,14 +423,10 @@ def return_splits(board, gap_findings, settings, hs):
     return out
 
 
-def detect_all(board, nets, refs, chains, settings, hs=None, gap_findings=()):
-    hs = hs or HazardSettings()
-    return detect_without_gaps(board, nets, refs, chains, settings, hs) + return_splits(board, gap_findings, settings, hs)
-
-
-def detect_without_gaps(board, nets, refs, chains, settings, hs=None):
-    """The checks that do not need the gap crossings (they can run beside the gap scan)."""
-    hs = hs or HazardSettings()
-    return (reference_changes(board, nets, refs, settings) + edge_runs(board, nets, refs, chains, settings, hs)
+def detect_without_gaps(board, nets, refs, chains, settings, hs, plane_nets_of):
+    """The checks that do not need the gap crossings (they can run beside the gap scan; return_splits
+    follows it). plane_nets_of: detector.chain_plane_nets(nets, chains)."""
+    return (reference_changes(board, nets, refs, settings)
+            + edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of)
             + floating_copper(board, nets, refs, chains, settings, hs)
             + stitching_spacing(board, nets, refs, chains, settings, hs))

@@ -30,9 +30,10 @@ def run_check(sources, stackup_file=None, settings=None, scratch=None):
     refs, planes = projector.references(board, nets, settings)
     chains = projector.chains(board, nets, refs, settings)
     # the gap scan's slices and the checks that do not need its findings share the processes
-    tasks, combine, workers = detector.gap_scan_tasks(board, nets, refs, chains, settings)
+    plane_nets_of = detector.chain_plane_nets(nets, chains)
+    tasks, combine, workers = detector.gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of)
     hs = hazards.HazardSettings()
-    jobs = [lambda: hazards.detect_without_gaps(board, nets, refs, chains, settings, hs)] + tasks
+    jobs = [lambda: hazards.detect_without_gaps(board, nets, refs, chains, settings, hs, plane_nets_of)] + tasks
     done = forking.fork_map(lambda k: jobs[k](), len(jobs), workers)
     findings = combine(done[1:])
     findings += done[0] + hazards.return_splits(board, findings, settings, hs)

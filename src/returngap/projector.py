@@ -197,10 +197,10 @@ def chains(board, nets, refs, settings):
         net_ok = {n: nets.is_signal(n) and wanted(n, settings) for n in set(ln.segment_net)}
         ok = np.fromiter((net_ok[n] for n in ln.segment_net), bool, len(seg))
         ok &= np.fromiter((fn not in NON_TRACK_FUNCTIONS for fn in layer.segment_function), bool, len(seg))
-        ok &= ~np.asarray(fill, dtype=bool) & (seg[:, 4] > 0) & ((seg[:, 0] != seg[:, 2]) | (seg[:, 1] != seg[:, 3]))
-        # ends snapped to a 10 nm grid so that strokes drawn end to end meet exactly
+        # ends snapped to a 10 nm grid so that strokes drawn end to end meet exactly; strokes that
+        # shrink to a point there are dropped
         xy = np.round(seg[:, :4], 5)
-        ok &= (xy[:, 0] != xy[:, 2]) | (xy[:, 1] != xy[:, 3])
+        ok &= ~np.asarray(fill, dtype=bool) & (seg[:, 4] > 0) & ((xy[:, 0] != xy[:, 2]) | (xy[:, 1] != xy[:, 3]))
         groups = defaultdict(list)
         for k, w in zip(np.flatnonzero(ok).tolist(), np.round(seg[ok, 4], 4).tolist()):
             groups[(ln.segment_net[k], w)].append(k)
