@@ -137,7 +137,13 @@ def test_check_runs_to_completion(slug):
     path, stack, _ = BOARDS[slug]
     r = pipeline.run_check(corpus_board(path), stack)
     assert r.chains
+    copper = {}
     for f in r.findings:
+        if f.get("detour_path_mm"):  # every detour stays in plane copper (a path may hug an edge by 6 um)
+            ref = f["reference_layer"]
+            if ref not in copper:
+                copper[ref] = r.nets.layers[ref].union_of(r.nets.plane_nets).buffer(0.006)
+            assert shapely.LineString(f["detour_path_mm"]).difference(copper[ref]).length < 1e-3, f["id"]
         assert f["severity"] in ("error", "warning", "info")
         if f["kind"] != "gap-crossing":
             continue

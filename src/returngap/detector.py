@@ -11,7 +11,6 @@ the layer-change and plane-edge checks.
 
 import functools
 import hashlib
-import heapq
 import math
 from dataclasses import dataclass
 
@@ -19,6 +18,8 @@ import numpy as np
 import shapely
 
 from . import forking, physics
+from .cuts import cut_intervals, ring_edges
+from .gridpath import window_path
 from .projector import footprint_polygon, line_z0
 
 EPS = 1e-6
@@ -36,6 +37,10 @@ class Void:
     @functools.cached_property
     def rect(self):
         return self.geom.minimum_rotated_rectangle  # one per void, however many tracks cross it
+
+    @functools.cached_property
+    def edges(self):
+        return ring_edges(self.geom)
 
 
 class ReferenceCopper:
@@ -62,10 +67,9 @@ class ReferenceCopper:
         self.edge = edge
         shapely.prepare(outline)
 
-    def passable(self, segs, blockers=None):
+    def passable(self, segs):
         """True for each straight piece of path that stays on the board and out of every void (a piece may
-        run along a void's edge: each void is shrunk by a hair for the test). The voids in the way are
-        added to `blockers` when given."""
+        run along a void's edge: each void is shrunk by a hair for the test)."""
         ok = shapely.covers(self.outline, segs)
         q = self.void_tree.query(segs)
         if q.shape[1]:
@@ -75,8 +79,6 @@ class ReferenceCopper:
                 shapely.prepare(self._shrunk[need])
             hit = shapely.intersects(self._shrunk[q[1]], segs[q[0]])
             ok[q[0][hit]] = False
-            if blockers is not None:
-                blockers.update(q[1][hit].tolist())
         return ok
 
     def voids_near(self, line, distance):
@@ -85,11 +87,6 @@ class ReferenceCopper:
         x0, y0, x1, y1 = line.bounds
         c = self.void_tree.query(shapely.box(x0 - distance, y0 - distance, x1 + distance, y1 + distance))
         return np.sort(c[shapely.dwithin(self.void_geoms[c], line, distance)])
-
-    def free(self, xy):
-        """True for points on the board and in no void's interior: places a path can pass."""
-        pts = shapely.points(xy)
-        return self.passable(pts)
 
     @functools.cached_property
     def inset_outline(self):
@@ -108,69 +105,6 @@ class ReferenceCopper:
             if shapely.intersects(self.islands[i], point):
                 return int(i)
         return None
-
-
-def _shortest(nodes, passable):
-    """Shortest path from node 0 to node 1 over the visibility graph of `nodes`; passable(segments) -> bools.
-
-    Lazy A* (as in Lazy Theta*, Nash et al. 2010): an edge is tested only when its far node comes off
-    the queue; if it is blocked, the node takes the best visible closed node as parent instead. So
-    the tests grow with the nodes expanded, not with all pairs."""
-    n = len(nodes)
-    h = np.hypot(nodes[:, 0] - nodes[1, 0], nodes[:, 1] - nodes[1, 1])
-    g = np.full(n, np.inf)
-    g[0] = 0.0
-    parent = np.full(n, -1)
-    closed = np.zeros(n, dtype=bool)
-    heap = [(h[0], 0)]
-
-    def seg(a, b):
-        return shapely.linestrings(np.stack([nodes[a], nodes[b]], axis=-2))
-
-    blocked = np.zeros((n, n), dtype=bool)  # edges found blocked, never tested twice
-    closed_order = []
-    while heap:
-        f, u = heapq.heappop(heap)
-        if closed[u] or parent[u] < 0 and u != 0 or f > g[u] + h[u] + 1e-9:  # stale, or u lost its parent
-            continue
-        if u != 0 and not passable(np.array([seg(parent[u], u)]))[0]:
-            blocked[u, parent[u]] = blocked[parent[u], u] = True
-            cl = np.array(closed_order)
-            cl = cl[~blocked[u, cl]]
-            d = np.hypot(nodes[cl, 0] - nodes[u, 0], nodes[cl, 1] - nodes[u, 1])
-            order = np.argsort(g[cl] + d, kind="stable")
-            k, lo, size = None, 0, 8
-            while lo < len(order) and k is None:  # cheapest candidates first, in growing batches
-                batch = order[lo:lo + size]
-                ok = passable(seg(cl[batch], np.full(len(batch), u)))
-                if ok.any():
-                    k = int(batch[np.argmax(ok)])
-                    ok[np.argmax(ok):] = True  # the rest of the batch: not known either way
-                blocked[u, cl[batch[~ok]]] = blocked[cl[batch[~ok]], u] = True
-                lo, size = lo + size, size * 4
-            if k is None:
-                g[u], parent[u] = np.inf, -1  # reachable later, perhaps, from nodes not yet closed
-                continue
-            g[u], parent[u] = g[cl[k]] + d[k], cl[k]
-            if g[u] + h[u] > f + 1e-9:
-                heapq.heappush(heap, (g[u] + h[u], int(u)))
-                continue
-        closed[u] = True
-        closed_order.append(u)
-        if u == 1:
-            path = [1]
-            while path[-1] != 0:
-                path.append(int(parent[path[-1]]))
-            return float(g[1]), [tuple(map(float, nodes[k])) for k in reversed(path)]
-        cand = np.nonzero(~closed)[0]
-        d = np.hypot(nodes[cand, 0] - nodes[u, 0], nodes[cand, 1] - nodes[u, 1])
-        better = (g[u] + d < g[cand] - 1e-12) & ~blocked[u, cand]
-        cand, d = cand[better], d[better]
-        g[cand] = g[u] + d
-        parent[cand] = u
-        for v, fv in zip(cand.tolist(), (g[cand] + h[cand]).tolist()):
-            heapq.heappush(heap, (fv, v))
-    return None
 
 
 def interval_fraction(x1, x2, width, ref):
@@ -194,22 +128,13 @@ def interrupted_share(line, s_from, s_to, halfwidth, width, ref, gap):
     t = q - r
     t /= np.maximum(np.hypot(t[:, 0], t[:, 1]), EPS)[:, None]
     nrm = np.column_stack([-t[:, 1], t[:, 0]])
-    ends = np.stack([p - halfwidth * nrm, p + halfwidth * nrm], axis=1)
-    cuts = shapely.linestrings(ends)
-    lo, hi = ends.reshape(-1, 2).min(axis=0) - 0.01, ends.reshape(-1, 2).max(axis=0) + 0.01
+    lo = (p - halfwidth * np.abs(nrm)).min(axis=0) - 0.01
+    hi = (p + halfwidth * np.abs(nrm)).max(axis=0) + 0.01
     gap = shapely.clip_by_rect(gap, lo[0], lo[1], hi[0], hi[1])  # only the cuts' neighbourhood matters
-    parts, of_cut = shapely.get_parts(shapely.intersection(cuts, gap), return_index=True)
-    keep = (shapely.get_type_id(parts) == 1) & ~shapely.is_empty(parts)  # touching points carry no width
-    parts, of_cut = parts[keep], of_cut[keep]
-    if not len(parts):
+    of_cut, x1, x2 = cut_intervals(ring_edges(gap), p, nrm, -halfwidth, halfwidth)
+    if not len(of_cut):
         return 0.0, float(ss[0])
-    xy, of_part = shapely.get_coordinates(parts, return_index=True)
-    x = np.einsum("ij,ij->i", xy - p[of_cut[of_part]], nrm[of_cut[of_part]])
-    start = np.flatnonzero(np.r_[True, of_part[1:] != of_part[:-1]])
-    x1, x2 = np.minimum.reduceat(x, start), np.maximum.reduceat(x, start)
-    share = np.zeros(n)
-    for k, a, b in zip(of_cut.tolist(), x1.tolist(), x2.tolist()):
-        share[k] += interval_fraction(a, b, width, ref)
+    share = np.bincount(of_cut, weights=interval_fraction(x1, x2, width, ref), minlength=n)
     k = int(np.argmax(share))
     return float(share[k]), float(ss[k])
 
@@ -218,30 +143,18 @@ def stable_id(*parts):
     return hashlib.sha1("|".join(str(p) for p in parts).encode()).hexdigest()[:12]
 
 
-def _extent_across(void_geom, mid, direction, reach):
-    """Where a line through mid along direction leaves the void, both ways: (l1, l2, end1, end2).
-    Looked for in a growing window first: a large void costs its whole outline only when the cut
-    really runs that far."""
+def _extent_across(void, mid, direction, reach):
+    """Where a line through mid along direction leaves the void, both ways: (l1, l2, end1, end2),
+    from the piece of the line inside the void that reaches mid (0, 0, mid, mid if none does)."""
     u = np.asarray(direction, dtype=float)
     m = np.asarray(mid, dtype=float)
-    pm = shapely.Point(mid)
-    r = 2.0
-    while True:
-        r = min(r, reach)
-        last = r >= reach
-        g = void_geom if last else shapely.clip_by_rect(void_geom, m[0] - r, m[1] - r, m[0] + r, m[1] + r)
-        inter = shapely.LineString([m - r * u, m + r * u]).intersection(g)
-        for part in shapely.get_parts(inter):
-            if part.geom_type == "LineString" and part.distance(pm) < 1e-3:
-                s = (np.asarray(part.coords) - m) @ u
-                lo, hi = float(s.min()), float(s.max())
-                if last or max(-lo, hi) < r - 1e-6:
-                    return max(0.0, -lo), max(0.0, hi), tuple(m + lo * u), tuple(m + hi * u)
-                break
-        else:
-            if last:
-                return 0.0, 0.0, mid, mid
-        r *= 4
+    _, t1, t2 = cut_intervals(void.edges, m, u, -reach, reach)
+    gap = np.maximum(0.0, np.maximum(t1, -t2))  # each piece's distance from mid
+    if not len(gap) or gap.min() >= 1e-3:
+        return 0.0, 0.0, mid, mid
+    k = int(np.argmin(gap))
+    lo, hi = float(t1[k]), float(t2[k])
+    return max(0.0, -lo), max(0.0, hi), tuple(m + lo * u), tuple(m + hi * u)
 
 
 def _tangent(line, s):
@@ -268,7 +181,7 @@ def slot_geometry(void, mid, tangent, reach, aspect_limit):
         l1, l2 = max(0.0, length / 2 + s), max(0.0, length / 2 - s)
         elongated = width > 0 and length / width >= aspect_limit
         return dict(length=length, width=width, l1=l1, l2=l2, elongated=elongated)
-    l1, l2, end1, end2 = _extent_across(void.geom, mid, perp, reach)
+    l1, l2, end1, end2 = _extent_across(void, mid, perp, reach)
     if l1 + l2 <= 0:  # the cut missed (the crossing runs along the gap): size it by its local outline
         near = void.geom.intersection(shapely.Point(mid).buffer(max(reach / 20, 1.0)))
         if not near.is_empty:
@@ -428,69 +341,6 @@ def _footprint_overlap(line, hw, region):
     return float(shapely.area(shapely.intersection(footprint_polygon(piece, hw), region)))
 
 
-def _obstacle_nodes(geom, limit=24, tol=0.02):
-    """Where a path round an obstacle can bend: its convex corners (round, near-convex shapes such as
-    antipads: corners of their hull, coarsened to about `limit` and kept outside)."""
-    hull = shapely.convex_hull(geom)
-    if hull.geom_type != "Polygon":
-        return shapely.get_coordinates(hull)
-    if geom.area < 0.9 * hull.area:
-        corners = [np.zeros((0, 2))]
-        # plain Douglas-Peucker: only the corners are wanted, and it is many times cheaper here
-        for poly in shapely.get_parts(shapely.simplify(geom, tol, preserve_topology=False)):
-            if poly.geom_type != "Polygon":
-                continue
-            c = np.asarray(shapely.orient_polygons(poly).exterior.coords)[:-1]
-            if len(c) < 3:
-                continue
-            prev, nxt = np.roll(c, 1, axis=0), np.roll(c, -1, axis=0)
-            cross = (c[:, 0] - prev[:, 0]) * (nxt[:, 1] - c[:, 1]) - (c[:, 1] - prev[:, 1]) * (nxt[:, 0] - c[:, 0])
-            corners.append(c[cross > 0])
-        c = np.vstack(corners)
-        return c[np.linspace(0, len(c) - 1, 400).astype(int)] if len(c) > 400 else c
-    c = np.asarray(hull.exterior.coords)[:-1]
-    if len(c) > limit:
-        size = math.sqrt(hull.area) or 1e-3
-        coarse = hull.simplify(0.03 * size).buffer(0.03 * size, join_style="mitre", mitre_limit=3.0)
-        if coarse.geom_type == "Polygon":
-            c = np.asarray(coarse.exterior.coords)[:-1]
-    return c
-
-
-def _visibility_detour(rc, pa, pb, box, void_pos, passable, rounds=4, per_round=12):
-    """Shortest path from pa to pb over hull corners of the crossed void and, round by round, of the
-    voids found in the way (nearest first), each straight piece tested against all voids and the board
-    outline. Exact round convex obstacles; a close upper bound round others."""
-    ends = np.array([[pa.x, pa.y], [pb.x, pb.y]])
-    mid = ends.mean(axis=0)
-    obstacles = [void_pos]
-    corners = {}
-    for _ in range(rounds):
-        for o in obstacles:
-            if o not in corners:
-                g = shapely.clip_by_rect(rc.void_geoms[o], *box)
-                corners[o] = _obstacle_nodes(g) if not g.is_empty else np.zeros((0, 2))
-        blockers = set()
-        extra = np.vstack([corners[o] for o in obstacles])
-        found = _shortest(np.vstack([ends, extra[rc.free(extra)]]), lambda segs: passable(segs, blockers))
-        if found is not None:
-            return found
-        new = [b for b in blockers if b not in corners]
-        if not new:
-            return None
-        geoms = shapely.clip_by_rect(rc.void_geoms[new], *box)
-        d = shapely.distance(geoms, shapely.Point(*mid))
-        new = [new[k] for k in np.argsort(d) if not geoms[k].is_empty][:per_round]
-        if not new:
-            return None
-        obstacles += new
-    return None
-
-
-class _OutOfBudget(Exception):
-    pass
-
-
 def _hull_detour(rc, pa, pb, gap_hull):
     """The two ways round `gap_hull` (a gap's convex hull) and both ends, shorter first: the geodesic when the
     gap is convex (or the ends lie outside its hull) and nothing else is in the way. An end in a pocket
@@ -541,13 +391,13 @@ def _hull_detour(rc, pa, pb, gap_hull):
     return None, ways[0][0]
 
 
-def _local_geodesic(rc, pa, pb, void_pos, hw, budget=40):
+def _local_geodesic(rc, pa, pb, void_pos, hw):
     """Detour path round the gap, in two small windows and then round the whole gap, so that large
-    voids stay cheap: in each window the taut way round the gap's hull when it is clear, else a
-    visibility-graph search over the corners of the voids in the way (at most `budget` batched tests);
-    last, the taut way round the whole gap's hull. Returns (length, path, method) or None; method is
-    "taut-hull", "corner-graph", or "hull-estimate" where no way is proven and the shorter way round
-    the whole hull serves as the estimate."""
+    voids stay cheap: in each window the taut way round the gap's hull when it is clear, else the
+    shortest way on a grid of the window's copper, pulled taut (gridpath); last, the taut way round
+    the whole gap's hull. Returns (length, path, method) or None; method is "taut-hull",
+    "grid-path", or "hull-estimate" where no way is found nearby and the shorter way round the
+    whole hull serves as the estimate."""
     void_geom = rc.void_geoms[void_pos]
     vx0, vy0, vx1, vy1 = void_geom.bounds
     r = max(5.0, 4 * hw)
@@ -559,19 +409,9 @@ def _local_geodesic(rc, pa, pb, void_pos, hw, budget=40):
         way, shorter = _hull_detour(rc, pa, pb, hull)
         if way is not None:
             return way[0], way[1], "taut-hull"
-        calls = [0]
-
-        def counted(segs, blockers):
-            calls[0] += 1
-            if calls[0] > budget:
-                raise _OutOfBudget
-            return rc.passable(segs, blockers)
-        try:
-            g = _visibility_detour(rc, pa, pb, box, void_pos, counted)
-        except _OutOfBudget:
-            g = None
+        g = window_path(rc.outline, rc.void_geoms[rc.void_tree.query(shapely.box(*box))], pa, pb, box, rc.passable)
         if g is not None:
-            return g[0], g[1], "corner-graph"
+            return g[0], g[1], "grid-path"
         if whole:
             return (shorter, None, "hull-estimate") if shorter is not None else None
         r *= 3

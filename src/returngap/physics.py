@@ -6,6 +6,8 @@ published result. All of them are estimates for review, not field-solver results
 
 import math
 
+import numpy as np
+
 C_MM_PER_NS = 299.792458          # speed of light
 MU0_NH_PER_MM = 0.4 * math.pi     # 4*pi*1e-7 H/m = 0.4*pi nH/mm
 ETA0_OHM = 376.730313
@@ -38,36 +40,40 @@ def stripline_plane_share(h_self_mm, h_other_mm):
 
 def _prim_atan(u, h):
     # antiderivative of atan(u/h) du
-    return u * math.atan2(u, h) - 0.5 * h * math.log(h * h + u * u)
+    return u * np.arctan2(u, h) - 0.5 * h * np.log(h * h + u * u)
+
+
+def _scalar_or_array(v):
+    return float(v) if np.ndim(v) == 0 else v
 
 
 def microstrip_fraction_between(x1_mm, x2_mm, width_mm, h_mm):
     """Share of a microstrip's return current at lateral offsets x1..x2 from the trace centre.
     Uniform current across the strip (Holloway & Kuester, IEEE T-MTT 43(5), 1995, first closed
     form): J(x) = (I/(pi*w)) * [atan((x+w/2)/h) - atan((x-w/2)/h)]; integrated in closed form.
-    Reduces to the 1/(1+(x/h)^2) filament law as w -> 0."""
-    if x2_mm <= x1_mm:
-        return 0.0
+    Reduces to the 1/(1+(x/h)^2) filament law as w -> 0. x1, x2: numbers or arrays."""
+    x1, x2 = np.asarray(x1_mm, dtype=float), np.asarray(x2_mm, dtype=float)
     if width_mm < 1e-6 * h_mm:
-        return (math.atan2(x2_mm, h_mm) - math.atan2(x1_mm, h_mm)) / math.pi
-    a = width_mm / 2.0
-    v = (_prim_atan(x2_mm + a, h_mm) - _prim_atan(x1_mm + a, h_mm)
-         - _prim_atan(x2_mm - a, h_mm) + _prim_atan(x1_mm - a, h_mm))
-    return v / (math.pi * width_mm)
+        v = (np.arctan2(x2, h_mm) - np.arctan2(x1, h_mm)) / math.pi
+    else:
+        a = width_mm / 2.0
+        v = (_prim_atan(x2 + a, h_mm) - _prim_atan(x1 + a, h_mm)
+             - _prim_atan(x2 - a, h_mm) + _prim_atan(x1 - a, h_mm)) / (math.pi * width_mm)
+    return _scalar_or_array(np.where(x2 > x1, v, 0.0))
 
 
 def stripline_fraction_between(x1_mm, x2_mm, h_self_mm, h_other_mm):
     """Share of a stripline's total return current on one plane at lateral offsets x1..x2.
     Filament between plates b = h1 + h2 apart: J1 = (I/2b) sin(a)/(cosh(pi x/b) - cos a),
-    a = pi*h1/b; its integral is (1/pi)*atan(tanh(u/2)/tan(a/2)), u = pi*x/b (derived)."""
-    if x2_mm <= x1_mm:
-        return 0.0
+    a = pi*h1/b; its integral is (1/pi)*atan(tanh(u/2)/tan(a/2)), u = pi*x/b (derived).
+    x1, x2: numbers or arrays."""
+    x1, x2 = np.asarray(x1_mm, dtype=float), np.asarray(x2_mm, dtype=float)
     b = h_self_mm + h_other_mm
     t = math.tan(math.pi * h_self_mm / b / 2.0)
 
     def prim(x):
-        return math.atan(math.tanh(math.pi * x / b / 2.0) / t) / math.pi
-    return prim(x2_mm) - prim(x1_mm)
+        return np.arctan(np.tanh(math.pi * x / b / 2.0) / t) / math.pi
+    return _scalar_or_array(np.where(x2 > x1, prim(x2) - prim(x1), 0.0))
 
 
 def stripline_halfwidth_for_fraction(fraction, h_self_mm, h_other_mm):

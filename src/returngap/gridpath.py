@@ -1,0 +1,167 @@
+"""Shortest way between two points of a plane through a square window, on a grid, pulled taut.
+
+The window's free copper (on the board, outside every void) is rasterised by the crossing-number
+rule at the cell centres; Dijkstra over the 8-neighbour moves between free cells (no corner
+cutting) finds the way, and the way is then pulled taut against the true outlines: the turning
+cells are joined by the longest straight pieces that stay clear, and each bend is slid towards
+its neighbours' chord as far as it stays clear. Every piece of the result is tested against the
+exact geometry, so the way is real; its length exceeds the geodesic by a fraction of a cell per
+bend. A passage narrower than about a cell can be missed (the way then found, if any, is longer).
+"""
+
+import numpy as np
+import shapely
+from scipy import ndimage
+from scipy.sparse import csr_matrix
+from scipy.sparse.csgraph import dijkstra
+
+from .cuts import ring_edges
+
+CELLS = 128          # grid cells along the window's side
+END_REACH = 2        # cells round each end searched for a free cell in clear sight of it
+NEAR_MM = 4.0        # the first search stops this far from pa; most ways are shorter
+SLIDES = (1.0, 0.5, 0.25, 0.125, 0.0625)  # how far a bend may slide towards its chord, tried together
+_R2 = np.sqrt(2.0)
+_MOVES = [(0, 1, 1.0), (1, 0, 1.0), (0, -1, 1.0), (-1, 0, 1.0), (1, 1, _R2), (1, -1, _R2), (-1, 1, _R2), (-1, -1, _R2)]
+
+
+def parity_grid(edges, x0, y0, size, cells):
+    """cells x cells booleans [row, column]: True where the cell centre lies inside an odd number of
+    the rings whose edges are `edges` (see cuts.ring_edges). Half-open rule on each row."""
+    xa, ya, xb, yb = edges.T
+    lo = np.maximum(np.ceil((np.minimum(ya, yb) - y0) / size - 0.5).astype(int), 0)
+    hi = np.minimum(np.ceil((np.maximum(ya, yb) - y0) / size - 0.5).astype(int) - 1, cells - 1)
+    count = np.maximum(hi - lo + 1, 0)
+    e = np.repeat(np.arange(len(edges)), count)
+    row = lo[e] + np.arange(len(e)) - np.repeat(np.cumsum(count) - count, count)
+    yc = y0 + (row + 0.5) * size
+    x = xa[e] + (xb[e] - xa[e]) * (yc - ya[e]) / (yb[e] - ya[e])
+    col = np.clip(np.floor((x - x0) / size - 0.5).astype(int) + 1, 0, cells)
+    flips = np.zeros((cells, cells + 1), dtype=np.int32)
+    np.add.at(flips, (row, col), 1)
+    return (np.cumsum(flips, axis=1)[:, :cells] & 1).astype(bool)
+
+
+def _moves(free, size):
+    """The grid's moves as CSR rows: (moves per cell, target cells, lengths)."""
+    h, w = free.shape
+    pad = np.zeros((h + 2, w + 2), dtype=bool)
+    pad[1:-1, 1:-1] = free
+    ok = np.empty((8, h, w), dtype=bool)
+    for k, (di, dj, _) in enumerate(_MOVES):
+        np.logical_and(free, pad[1 + di:h + 1 + di, 1 + dj:w + 1 + dj], out=ok[k])
+        if di and dj:  # a diagonal needs both side cells free
+            ok[k] &= pad[1 + di:h + 1 + di, 1:w + 1]
+            ok[k] &= pad[1:h + 1, 1 + dj:w + 1 + dj]
+    cell, k = np.divmod(np.flatnonzero(ok.reshape(8, h * w).T), 8)
+    step = np.array([di * w + dj for di, dj, _ in _MOVES])
+    length = np.array([c for _, _, c in _MOVES]) * size
+    return np.bincount(cell, minlength=h * w), cell + step[k], length[k]
+
+
+def _segments(a, b):
+    return shapely.linestrings(np.stack(np.broadcast_arrays(a, b), axis=-2))
+
+
+def _cells_round(p, x0, y0, size, cells):
+    """Numbers of the cells within END_REACH cells of point p."""
+    i0, j0 = int(np.floor((p[1] - y0) / size)), int(np.floor((p[0] - x0) / size))
+    ii, jj = np.mgrid[i0 - END_REACH:i0 + END_REACH + 1, j0 - END_REACH:j0 + END_REACH + 1].reshape(2, -1)
+    keep = (ii >= 0) & (ii < cells) & (jj >= 0) & (jj < cells)
+    return ii[keep] * cells + jj[keep]
+
+
+def _in_sight(free, near, p, x0, y0, size, passable):
+    """The free cells of `near` in clear sight of p: (cell numbers, distances)."""
+    cells = free.shape[0]
+    near = near[free.ravel()[near]]
+    c = np.column_stack([x0 + (near % cells + 0.5) * size, y0 + (near // cells + 0.5) * size])
+    seen = passable(_segments(c, p)) if len(c) else np.zeros(0, dtype=bool)
+    return near[seen], np.hypot(*(c[seen] - p).T)
+
+
+def _pull_taut(pts, passable):
+    """From each kept point, the farthest later point in clear sight; then each bend slid towards
+    the chord of its neighbours as far as both its pieces stay clear. Returns the points, or the
+    position of a point from which no later one is in sight."""
+    keep, i = [0], 0
+    while i < len(pts) - 1:
+        later = np.arange(i + 1, len(pts))
+        seen = np.flatnonzero(passable(_segments(pts[i], pts[later])))
+        if not len(seen):
+            return i
+        i = int(later[seen[-1]])
+        keep.append(i)
+    p = pts[keep].copy()
+    f = np.array(SLIDES)[:, None]
+    for _ in range(2):
+        for k in range(1, len(p) - 1):
+            to = p[k] + f * ((p[k - 1] + p[k + 1]) / 2 - p[k])
+            ok = passable(np.concatenate([_segments(p[k - 1], to), _segments(to, p[k + 1])])).reshape(2, -1).all(axis=0)
+            if ok.any():
+                p[k] = to[int(np.argmax(ok))]
+    return p
+
+
+def window_path(outline, void_geoms, pa, pb, box, passable):
+    """Shortest way from pa to pb inside box (x0, y0, x1, y1, square) that stays on `outline` and out
+    of `void_geoms` (those meeting the box suffice); passable(segments) -> bools tests pieces against
+    the exact geometry. Returns (length, [(x, y), ...]) or None where no way is found in the window.
+    A window whose grid shows no way through is looked at once more on a grid twice as fine, for a
+    passage narrower than a cell."""
+    rings = ring_edges(shapely.clip_by_rect(np.concatenate([[outline], void_geoms]), *box))
+    ends = np.array([[pa.x, pa.y], [pb.x, pb.y]])
+    for cells in (CELLS, 2 * CELLS):
+        found = _grid_way(rings, ends, box, cells, passable)
+        if found is not False:
+            return found
+    return None
+
+
+def _grid_way(rings, ends, box, cells, passable):
+    """The way on one grid: (length, points), None if its search or pulling failed, False where the
+    grid shows the two ends apart."""
+    x0, y0, x1, _ = box
+    size = (x1 - x0) / cells
+    free = parity_grid(rings, x0, y0, size, cells)  # inside the outline xor inside a void
+    part, _ = ndimage.label(free, structure=np.ones((3, 3)))
+    near = [_cells_round(p, x0, y0, size, cells) for p in ends]
+    if not np.intersect1d(part.ravel()[near[0]], part.ravel()[near[1]]).any():
+        return False  # no way round on this grid: spare the search
+    (src, src_d), (dst, dst_d) = [_in_sight(free, c, p, x0, y0, size, passable) for c, p in zip(near, ends)]
+    if not np.intersect1d(part.ravel()[src], part.ravel()[dst]).any():
+        return False
+    n = cells * cells
+    for _ in range(4):  # a thin void the grid cannot see blocks a step: close that cell, search again
+        per_cell, to, length = _moves(free, size)
+        start = np.concatenate([[0], np.cumsum(per_cell), [per_cell.sum() + len(src)]])
+        g = csr_matrix((np.concatenate([length, src_d]), np.concatenate([to, src]), start), shape=(n + 1, n + 1))
+        for limit in (NEAR_MM, np.inf):  # most ways are short: a bounded search first
+            d, pred = dijkstra(g, directed=True, indices=n, return_predecessors=True, limit=limit)  # n: pa
+            total = d[dst] + dst_d
+            k = int(np.argmin(total))
+            if np.isfinite(total[k]):
+                break
+        else:
+            return None
+        seq = [int(dst[k])]
+        while seq[-1] != n:
+            seq.append(int(pred[seq[-1]]))
+        seq = np.array(seq[-2::-1])
+        pts = np.vstack([ends[:1], np.column_stack([x0 + (seq % cells + 0.5) * size, y0 + (seq // cells + 0.5) * size]),
+                         ends[1:]])
+        dp = np.diff(pts, axis=0)
+        turns = np.flatnonzero(np.abs(dp[1:, 0] * dp[:-1, 1] - dp[1:, 1] * dp[:-1, 0]) > 1e-12) + 1
+        at = np.r_[0, turns, len(pts) - 1]
+        p = _pull_taut(pts[at], passable)
+        if not isinstance(p, int):
+            return float(np.hypot(*np.diff(p, axis=0).T).sum()), [tuple(map(float, q)) for q in p]
+        # from turning point p nothing later is in sight: close the cells either side of the blocked steps
+        j = np.arange(at[p], at[p + 1])
+        hit = j[~passable(_segments(pts[j], pts[j + 1]))]
+        cells_hit = np.concatenate([hit - 1, hit])
+        cells_hit = seq[cells_hit[(cells_hit >= 0) & (cells_hit < len(seq))]]
+        if not len(cells_hit):
+            return None
+        free.ravel()[cells_hit] = False
+    return None
