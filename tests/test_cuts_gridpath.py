@@ -81,15 +81,16 @@ def test_way_round_a_wall_is_the_two_piece_geodesic():
 
 
 def test_narrow_passage_found_on_the_finer_grid():
-    # two walls leaving a 0.05 mm slit (narrower than a 10/128 mm cell): the way goes through it
-    walls = [shapely.box(-0.1, 0.025, 0.1, 5), shapely.box(-0.1, -5, 0.1, -0.025)]
-    outline = shapely.box(-5, -5, 5, 5)
+    # a 0.6 mm wall across a 30 mm window with a 0.15 mm slit: no row of the 30/128 mm grid runs
+    # through the slit, two rows of the twice finer grid do; the way goes through it
+    walls = [shapely.box(-0.3, 0.075, 0.3, 15), shapely.box(-0.3, -15, 0.3, -0.075)]
+    outline = shapely.box(-15, -15, 15, 15)
     plane = _Plane(outline, walls)
-    got = window_path(outline, plane.voids, shapely.Point(-1, 0.3), shapely.Point(1, 0.3), (-5, -5, 5, 5),
+    got = window_path(outline, plane.voids, shapely.Point(-1, 0.3), shapely.Point(1, 0.3), (-15, -15, 15, 15),
                       plane.passable)
     assert got is not None
-    exact = 2 * math.hypot(0.9, 0.3 - 0.025) + 0.2  # round the slit's two corners (geometry)
-    assert exact - 1e-6 <= got[0] <= exact + 0.1
+    exact = 2 * math.hypot(0.7, 0.3 - 0.075) + 0.6  # round the slit's two near corners (geometry)
+    assert exact - 1e-6 <= got[0] <= exact + 0.15
 
 
 def test_no_way_through_a_closed_wall():

@@ -122,9 +122,8 @@ def interrupted_share(line, s_from, s_to, halfwidth, width, ref, gap):
         return 0.0, s_from
     n = int(min(MAX_STATIONS, max(3, (s_to - s_from) / max(ref.h_mm / 4, 0.02))))
     ss = np.linspace(s_from, s_to, n)
-    p = coords_along(line, ss)
-    q = coords_along(line, np.minimum(ss + 1e-3, line.length))
-    r = coords_along(line, np.maximum(ss - 1e-3, 0.0))
+    p, q, r = coords_along(line, np.concatenate([ss, np.minimum(ss + 1e-3, line.length),
+                                                 np.maximum(ss - 1e-3, 0.0)])).reshape(3, n, 2)
     t = q - r
     t /= np.maximum(np.hypot(t[:, 0], t[:, 1]), EPS)[:, None]
     nrm = np.column_stack([-t[:, 1], t[:, 0]])

@@ -19,6 +19,7 @@ from .cuts import ring_edges
 
 CELLS = 128          # grid cells along the window's side
 END_REACH = 2        # cells round each end searched for a free cell in clear sight of it
+FINE_MM = 0.1        # cells this fine need no second look: a narrower neck carries little return (our judgement)
 NEAR_MM = 4.0        # the first search stops this far from pa; most ways are shorter
 SLIDES = (1.0, 0.5, 0.25, 0.125, 0.0625)  # how far a bend may slide towards its chord, tried together
 _R2 = np.sqrt(2.0)
@@ -37,8 +38,7 @@ def parity_grid(edges, x0, y0, size, cells):
     yc = y0 + (row + 0.5) * size
     x = xa[e] + (xb[e] - xa[e]) * (yc - ya[e]) / (yb[e] - ya[e])
     col = np.clip(np.floor((x - x0) / size - 0.5).astype(int) + 1, 0, cells)
-    flips = np.zeros((cells, cells + 1), dtype=np.int32)
-    np.add.at(flips, (row, col), 1)
+    flips = np.bincount(row * (cells + 1) + col, minlength=cells * (cells + 1)).reshape(cells, cells + 1)
     return (np.cumsum(flips, axis=1)[:, :cells] & 1).astype(bool)
 
 
@@ -93,13 +93,17 @@ def _pull_taut(pts, passable):
         i = int(later[seen[-1]])
         keep.append(i)
     p = pts[keep].copy()
-    f = np.array(SLIDES)[:, None]
-    for _ in range(2):
-        for k in range(1, len(p) - 1):
-            to = p[k] + f * ((p[k - 1] + p[k + 1]) / 2 - p[k])
-            ok = passable(np.concatenate([_segments(p[k - 1], to), _segments(to, p[k + 1])])).reshape(2, -1).all(axis=0)
-            if ok.any():
-                p[k] = to[int(np.argmax(ok))]
+    f = np.array(SLIDES)[None, :, None]
+    for k0 in (1, 2, 1, 2):  # every other bend at once: its neighbours stay put meanwhile
+        k = np.arange(k0, len(p) - 1, 2)
+        if not len(k):
+            continue
+        to = p[k, None] + f * ((p[k - 1] + p[k + 1]) / 2 - p[k])[:, None]  # (bend, slide, xy)
+        ok = passable(np.concatenate([_segments(p[k - 1, None], to), _segments(to, p[k + 1, None])]).ravel())
+        ok = ok.reshape(2, len(k), len(SLIDES)).all(axis=0)
+        best = np.argmax(ok, axis=1)
+        moved = ok.any(axis=1)
+        p[k[moved]] = to[moved, best[moved]]
     return p
 
 
@@ -107,15 +111,48 @@ def window_path(outline, void_geoms, pa, pb, box, passable):
     """Shortest way from pa to pb inside box (x0, y0, x1, y1, square) that stays on `outline` and out
     of `void_geoms` (those meeting the box suffice); passable(segments) -> bools tests pieces against
     the exact geometry. Returns (length, [(x, y), ...]) or None where no way is found in the window.
-    A window whose grid shows no way through is looked at once more on a grid twice as fine, for a
-    passage narrower than a cell."""
+    A window whose grid cells are coarser than FINE_MM and show no way through is looked at once
+    more on a grid twice as fine, for a passage narrower than a cell."""
     rings = ring_edges(shapely.clip_by_rect(np.concatenate([[outline], void_geoms]), *box))
     ends = np.array([[pa.x, pa.y], [pb.x, pb.y]])
-    for cells in (CELLS, 2 * CELLS):
-        found = _grid_way(rings, ends, box, cells, passable)
-        if found is not False:
-            return found
-    return None
+    found = _grid_way(rings, ends, box, CELLS, passable)
+    if found is False and (box[2] - box[0]) / CELLS > FINE_MM:
+        found = _grid_way(rings, ends, box, 2 * CELLS, passable)
+    return found or None
+
+
+def _search(free, size, src, src_d, dst, dst_d, rows_cols, limit):
+    """Dijkstra from pa (joined to the cells src at distances src_d) to pb (joined to dst) over the
+    free cells of the sub-grid rows_cols = (r0, r1, c0, c1), at most `limit` long: the cells of the
+    way (numbered in the whole grid), or None."""
+    cells = free.shape[1]
+    r0, r1, c0, c1 = rows_cols
+    sub = free[r0:r1, c0:c1]
+    w = c1 - c0
+
+    def local(c):
+        i, j = c // cells - r0, c % cells - c0
+        ok = (i >= 0) & (i < r1 - r0) & (j >= 0) & (j < w)
+        return i * w + j, ok
+    s_loc, s_ok = local(src)
+    t_loc, t_ok = local(dst)
+    if not s_ok.any() or not t_ok.any():
+        return None
+    n = sub.size
+    per_cell, to, length = _moves(sub, size)
+    start = np.concatenate([[0], np.cumsum(per_cell), [per_cell.sum() + s_ok.sum()]])
+    g = csr_matrix((np.concatenate([length, src_d[s_ok]]), np.concatenate([to, s_loc[s_ok]]), start),
+                   shape=(n + 1, n + 1))
+    d, pred = dijkstra(g, directed=True, indices=n, return_predecessors=True, limit=limit)  # node n: pa
+    total = d[t_loc[t_ok]] + dst_d[t_ok]
+    k = int(np.argmin(total))
+    if not np.isfinite(total[k]):
+        return None
+    seq = [int(t_loc[t_ok][k])]
+    while seq[-1] != n:
+        seq.append(int(pred[seq[-1]]))
+    seq = np.array(seq[-2::-1])
+    return (seq // w + r0) * cells + seq % w + c0
 
 
 def _grid_way(rings, ends, box, cells, passable):
@@ -131,23 +168,16 @@ def _grid_way(rings, ends, box, cells, passable):
     (src, src_d), (dst, dst_d) = [_in_sight(free, c, p, x0, y0, size, passable) for c, p in zip(near, ends)]
     if not np.intersect1d(part.ravel()[src], part.ravel()[dst]).any():
         return False
-    n = cells * cells
+    i0, j0 = int((ends[0, 1] - y0) / size), int((ends[0, 0] - x0) / size)
+    reach = int(NEAR_MM / size) + END_REACH + 2
+    near_box = (max(0, i0 - reach), min(cells, i0 + reach + 1), max(0, j0 - reach), min(cells, j0 + reach + 1))
     for _ in range(4):  # a thin void the grid cannot see blocks a step: close that cell, search again
-        per_cell, to, length = _moves(free, size)
-        start = np.concatenate([[0], np.cumsum(per_cell), [per_cell.sum() + len(src)]])
-        g = csr_matrix((np.concatenate([length, src_d]), np.concatenate([to, src]), start), shape=(n + 1, n + 1))
-        for limit in (NEAR_MM, np.inf):  # most ways are short: a bounded search first
-            d, pred = dijkstra(g, directed=True, indices=n, return_predecessors=True, limit=limit)  # n: pa
-            total = d[dst] + dst_d
-            k = int(np.argmin(total))
-            if np.isfinite(total[k]):
-                break
-        else:
+        # most ways are short: first a search bounded to NEAR_MM from pa, on the cells that far round it
+        seq = _search(free, size, src, src_d, dst, dst_d, near_box, NEAR_MM)
+        if seq is None:
+            seq = _search(free, size, src, src_d, dst, dst_d, (0, cells, 0, cells), np.inf)
+        if seq is None:
             return None
-        seq = [int(dst[k])]
-        while seq[-1] != n:
-            seq.append(int(pred[seq[-1]]))
-        seq = np.array(seq[-2::-1])
         pts = np.vstack([ends[:1], np.column_stack([x0 + (seq % cells + 0.5) * size, y0 + (seq // cells + 0.5) * size]),
                          ends[1:]])
         dp = np.diff(pts, axis=0)
