@@ -391,10 +391,20 @@ def build_nets(board, user_cfg=None):
         big = set().union(*pool.map(finish, range(len(board.copper))))
     notes = []
     if not any(c == "ground" for c in net_class.values()) and any(ln.n_islands for ln in layers.values()):
+        # each island's area lies between its largest piece's and its pieces' sum: only nets whose
+        # upper bound reaches the best lower bound can have the most copper, so only theirs are unioned
+        upper, lower = Counter(), Counter()
+        for ln in layers.values():
+            up, lo = ln.piece_area_bounds()
+            for n, u, l in zip(ln.island_net, up.tolist(), lo.tolist()):
+                upper[n] += u
+                lower[n] += l
+        best = max(lower.values())
         area_by_net = Counter()
         for ln in layers.values():
-            for n, a in zip(ln.island_net, ln.island_areas()):
-                area_by_net[n] += float(a)
+            for i, n in enumerate(ln.island_net):
+                if upper[n] >= best:
+                    area_by_net[n] += ln.island_area(i)
         gnd = max(area_by_net.items(), key=lambda kv: (kv[1], kv[0]))[0]
         net_class[gnd] = "ground"
         notes.append(f"no net is named like a ground: {gnd}, the net with the most copper "

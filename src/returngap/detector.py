@@ -241,7 +241,7 @@ class _GapScan:
                 void = rc.voids[int(vi)]
                 # clip first: the void outside all plane copper can be as large as the board
                 local = shapely.clip_by_rect(void.geom, box[0] - 0.1, box[1] - 0.1, box[2] + 0.1, box[3] + 0.1)
-                if local.is_empty or _footprint_overlap(line, hw, local) < 1e-4:
+                if local.is_empty:
                     continue
                 crossing = line.intersection(local)
                 pieces = []
@@ -477,6 +477,8 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         d = line.distance(local)
         if interval_fraction(d, hw, w, ref) < settings.min_interrupted_fraction:
             return None  # even a void filling the footprint beyond d holds less (|x| >= d there)
+        if _footprint_overlap(line, hw, local) < 1e-4:
+            return None  # it only touches the footprint
         near_line, near_void = shapely.shortest_line(line, local).coords
         mid_s = line.project(shapely.Point(near_line))
         near = local.intersection(line.buffer(hw, cap_style="flat"))
