@@ -2,7 +2,8 @@
 
 Each measurement runs in its own process; reported per case: both times, their ratio, peak memory
 of the check, and the fitted scaling exponent of the check time against segment count. Each side is
-the best of up to three runs, the two sides alternating.
+the best of up to five runs (fewer when the check takes long), the two sides alternating: on a
+shared machine a short case's times jitter by a third from run to run.
 """
 
 import json
@@ -75,10 +76,10 @@ def main():
     rows = []
     print(f"{'case':26} {'segments':>9} {'parse s':>8} {'check s':>8} {'ratio':>6} {'check MiB':>9} {'findings':>8}")
     for name, path, stack, _ in cases:
-        # timings on a shared machine jitter: each side is the best of up to three fresh runs
+        # timings on a shared machine jitter: each side is the best of up to five fresh runs
         # (fewer when one run of the check already takes long), alternating the two sides
         tp, tc, mem = math.inf, math.inf, 0.0
-        for k in range(3):
+        for k in range(5):
             tp = min(tp, float(run(PARSE, path)[0]))
             t, segs, nf, m = run(CHECK, path, stack or "")
             tc, mem = min(tc, float(t)), max(mem, float(m))

@@ -376,8 +376,9 @@ def build_layer(fab, g, role, outline, tol):
                 fl_part.append((p[0], p[1] if len(p) > 1 else "") if p else None)
         elif isinstance(obj, go.Region):
             ring = shapes.ring_points(obj.outline, obj.arc_centers or [], tol, k)
-            poly = shapes.polygon_from_points(ring)
-            if len(ring) > 3 and not shapely.Polygon(ring).is_valid and not _only_touches(ring):
+            raw = shapes.ring_polygon(ring) if len(ring) >= 3 else None
+            poly = shapes.polygon_from_points(ring, raw)
+            if len(ring) > 3 and poly is not raw and not _only_touches(raw):
                 layer.repaired_regions += 1
             runs[-1][1].append(poly)
             if dark and not poly.is_empty:
@@ -426,10 +427,11 @@ def resolve_pieces(runs, negative_in=None):
     return np.array(out, dtype=object)
 
 
-def _only_touches(ring):
+def _only_touches(raw):
     """A cut-in region touches itself along a seam ("Ring Self-intersection" in GEOS terms); that is
-    allowed and not worth a note. Edges that cross ("Self-intersection") are."""
-    reason = shapely.is_valid_reason(shapely.Polygon(ring))
+    allowed and not worth a note. Edges that cross ("Self-intersection") are. raw: the region's
+    polygon as drawn."""
+    reason = shapely.is_valid_reason(raw)
     return not reason.startswith("Self-intersection")
 
 

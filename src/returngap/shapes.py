@@ -15,7 +15,6 @@ from gerbonara import graphic_objects as go
 from gerbonara import graphic_primitives as gp
 from gerbonara.utils import MM
 from shapely import affinity
-from shapely.geometry import Polygon
 
 DEFAULT_CHORD_TOL_MM = 0.001
 
@@ -67,16 +66,22 @@ def ring_points(outline, arc_centers, tol, scale=1.0):
     return pts
 
 
-def polygon_from_points(pts):
-    """A valid polygonal geometry from a possibly self-touching ring (Gerber cut-ins)."""
+def polygon_from_points(pts, raw=None):
+    """A valid polygonal geometry from a possibly self-touching ring (Gerber cut-ins); raw: the ring's
+    polygon as drawn, when the caller already has it."""
     if len(pts) < 3:
         return shapely.Polygon()
-    poly = Polygon(pts)
+    poly = raw if raw is not None else ring_polygon(pts)
     if not poly.is_valid:
         # "structure" repair: the ring's enclosed area (cut-ins become holes, a ring that doubles over
         # itself stays filled), polygons only, and many times faster than rebuilding from linework
         poly = shapely.make_valid(poly, method="structure", keep_collapsed=False)
     return poly
+
+
+def ring_polygon(pts):
+    """The polygon of a ring of points as drawn (closed if open), built from one array."""
+    return shapely.polygons(np.asarray(pts, dtype=float))
 
 
 def primitive_shape(prim, tol):
