@@ -352,8 +352,10 @@ def stitching_spacing(board, nets, refs, chains, settings, hs):
                 continue
             edges = [(g, a, b) for g, a, b in _mst_edges(pts) if g > limit]
             # only gaps that tracks run past: the gap's middle within a few mm of a track using this copper
-            edges = [e for e in edges if len(utree.query(shapely.Point(*(pts[e[1]] + pts[e[2]]) / 2),
-                                                         predicate="dwithin", distance=max(3.0, e[0] / 4)))]
+            if edges:  # nearest-track distances of all the gaps' middles in one bounded-nearest query
+                mids = shapely.points(np.array([(pts[a] + pts[b]) / 2 for _, a, b in edges]))
+                (_, _), dist = utree.query_nearest(mids, return_distance=True, all_matches=False)
+                edges = [e for e, d in zip(edges, dist) if d <= max(3.0, e[0] / 4)]
             if not edges:
                 continue
             gap, a, b = max(edges)
