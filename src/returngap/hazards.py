@@ -11,6 +11,7 @@ import shapely
 
 from . import physics
 from .detector import coords_along_lines, stable_id
+from .shapes import disjoint_union
 from .projector import line_z0
 
 DEFAULT_PART_LOOP_NH = 1.0  # mounted two-terminal capacitor loop, typically 0.5-1.5 nH (from memory)
@@ -49,10 +50,17 @@ def _plane_net_near(ln, plane_nets, x, y, reach=2.0):
     # would walk every edge of a large pour
     c = ln.tree.query(shapely.box(x - reach, y - reach, x + reach, y + reach))
     c = np.array([k for k in c if ln.island_net[ln.piece_island[k]] in plane_nets], dtype=int)
-    c = c[shapely.dwithin(ln.pieces[c], p, reach)]
-    if not len(c):
+    # the nearest piece lies within the smallest radius that holds any: when those are all of one
+    # net, that is the answer, with no exact distance to a large pour's many edges
+    for r in (0.5, 1.0, reach):
+        near = c[shapely.dwithin(ln.pieces[c], p, r)]
+        if len(near):
+            break
+    else:
         return None
-    return ln.island_net[ln.piece_island[c[int(np.argmin(shapely.distance(ln.pieces[c], p)))]]]
+    if len({ln.island_net[ln.piece_island[k]] for k in near}) == 1:
+        return ln.island_net[ln.piece_island[near[0]]]
+    return ln.island_net[ln.piece_island[near[int(np.argmin(shapely.distance(ln.pieces[near], p)))]]]
 
 
 def _parts_bridging(board, nets, net_a, net_b):
@@ -195,6 +203,18 @@ def _segment_tree(lines):
     return shapely.STRtree(segs)
 
 
+def _filled(copper):
+    """Plane copper with its holes filled in. The islands are disjoint, so their filled outlines are
+    disjoint or nested: the outermost ones, side by side, are the union, with no overlay work."""
+    filled = shapely.polygons(shapely.get_exterior_ring(shapely.get_parts(copper)))
+    inner, outer = shapely.STRtree(filled).query(filled)
+    b = shapely.bounds(filled)
+    maybe = (inner != outer) & (b[outer, :2] <= b[inner, :2]).all(axis=1) & (b[outer, 2:] >= b[inner, 2:]).all(axis=1)
+    inner, outer = inner[maybe], outer[maybe]
+    nested = np.unique(inner[shapely.within(filled[inner], filled[outer])])
+    return disjoint_union(np.delete(filled, nested))
+
+
 def edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of):
     """Tracks whose return footprint runs along the edge of their reference plane's copper, or off it
     at a track end. (A track crossing a gap between plane islands is a gap crossing, not an edge run.)"""
@@ -216,7 +236,7 @@ def edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of):
             continue
         if ref.layer not in edges:
             copper = ln.union_of(nets.plane_nets)
-            outer = shapely.union_all([shapely.Polygon(p.exterior) for p in shapely.get_parts(copper)])
+            outer = _filled(copper)
             shapely.prepare(outer)
             edges[ref.layer] = (outer, _segment_tree(outer.boundary))
         outer, edge_tree = edges[ref.layer]
