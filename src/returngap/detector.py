@@ -243,14 +243,11 @@ class _GapScan:
                 local = shapely.clip_by_rect(void.geom, box[0] - 0.1, box[1] - 0.1, box[2] + 0.1, box[3] + 0.1)
                 if local.is_empty:
                     continue
-                crossing = line.intersection(local)
-                pieces = []
-                for part in shapely.get_parts(crossing):
-                    if part.geom_type != "LineString" or part.length <= 0:
-                        continue
-                    s = sorted((line.project(shapely.Point(part.coords[0])), line.project(shapely.Point(part.coords[-1]))))
-                    pieces.append(s)
-                pieces.sort()
+                parts = shapely.get_parts(line.intersection(local))
+                parts = parts[(shapely.get_type_id(parts) == 1) & (shapely.length(parts) > 0)]
+                ends = shapely.line_locate_point(line, np.concatenate([shapely.get_point(parts, 0),
+                                                                       shapely.get_point(parts, -1)]))
+                pieces = sorted(sorted(se) for se in ends.reshape(2, -1).T.tolist())
                 merged = []
                 for s0, s1 in pieces:  # pieces of one crossing closer than the footprint merge
                     if merged and s0 - merged[-1][1] < hw:
@@ -482,9 +479,9 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         near_line, near_void = shapely.shortest_line(line, local).coords
         mid_s = line.project(shapely.Point(near_line))
         near = local.intersection(line.buffer(hw, cap_style="flat"))
-        span = [line.project(shapely.Point(c)) for c in near.exterior.coords] if near.geom_type == "Polygon" else \
-            [line.project(shapely.Point(c)) for c in shapely.get_coordinates(near)]
-        s_lo, s_hi = (min(span), max(span)) if span else (mid_s, mid_s)
+        corners = np.asarray(near.exterior.coords) if near.geom_type == "Polygon" else shapely.get_coordinates(near)
+        span = shapely.line_locate_point(line, shapely.points(corners)) if len(corners) else []
+        s_lo, s_hi = (float(min(span)), float(max(span))) if len(span) else (mid_s, mid_s)
         share, _ = interrupted_share(line, s_lo, s_hi, hw, w, ref, local)
         path_line = None
         for side in (1, -1):
@@ -499,7 +496,10 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         if path_line is not None:
             cr = [p for p in shapely.get_parts(path_line.intersection(local)) if p.geom_type == "LineString"]
             if cr:
-                ss = sorted(path_line.project(shapely.Point(c)) for p in cr for c in (p.coords[0], p.coords[-1]))
+                cr = np.array(cr, dtype=object)
+                ss = np.sort(shapely.line_locate_point(path_line, np.concatenate([shapely.get_point(cr, 0),
+                                                                                  shapely.get_point(cr, -1)])))
+                ss = ss.tolist()
                 if ss[0] > STEP_OFF_MM and ss[-1] < path_line.length - STEP_OFF_MM:
                     pa = path_line.interpolate(ss[0] - STEP_OFF_MM)
                     pb = path_line.interpolate(ss[-1] + STEP_OFF_MM)
