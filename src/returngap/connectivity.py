@@ -50,6 +50,7 @@ class LayerNets:
         self._start = np.searchsorted(piece_island[order], np.arange(len(island_net) + 1))
         self._poly = {}
         self._union = {}
+        self._area_bounds = None
         self.island_tied = np.zeros(len(island_net), dtype=bool)
 
     @property
@@ -105,11 +106,17 @@ class LayerNets:
             if self.n_islands else np.zeros(0)
 
     def piece_area_bounds(self):
-        """Per island, (sum of its pieces' areas, largest piece's area): its area lies between."""
-        area = shapely.area(self.pieces)
-        largest = np.zeros(self.n_islands)
-        np.maximum.at(largest, self.piece_island, area)
-        return np.bincount(self.piece_island, weights=area, minlength=self.n_islands), largest
+        """Per island, (sum of its pieces' areas, largest piece's area): its area lies between.
+        Worked out once (the pour test, the plane checks and the ground choice all ask), read-only."""
+        if self._area_bounds is None:
+            area = shapely.area(self.pieces)
+            largest = np.zeros(self.n_islands)
+            np.maximum.at(largest, self.piece_island, area)
+            total = np.bincount(self.piece_island, weights=area, minlength=self.n_islands)
+            for a in (total, largest):
+                a.setflags(write=False)
+            self._area_bounds = (total, largest)
+        return self._area_bounds
 
     def islands_of(self, nets):
         """(index, polygon) of every island whose net is in `nets`."""

@@ -245,9 +245,7 @@ class _GapScan:
                     continue
                 parts = shapely.get_parts(line.intersection(local))
                 parts = parts[(shapely.get_type_id(parts) == 1) & (shapely.length(parts) > 0)]
-                ends = shapely.line_locate_point(line, np.concatenate([shapely.get_point(parts, 0),
-                                                                       shapely.get_point(parts, -1)]))
-                pieces = sorted(sorted(se) for se in ends.reshape(2, -1).T.tolist())
+                pieces = sorted(sorted(se) for se in _ends_along(line, parts).T.tolist())
                 merged = []
                 for s0, s1 in pieces:  # pieces of one crossing closer than the footprint merge
                     if merged and s0 - merged[-1][1] < hw:
@@ -324,6 +322,13 @@ def gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of):
 
 def _scan_slice(scan, chains, plane_nets_of, k, n):
     return [(i, scan.chain(chains[i], plane_nets_of[i])) for i in range(k, len(chains), n)]
+
+
+def _ends_along(line, parts):
+    """Distances along `line` of the first and last points of each LineString in `parts`, as a
+    (2, len(parts)) array, located in one vectorised call."""
+    ends = np.concatenate([shapely.get_point(parts, 0), shapely.get_point(parts, -1)])
+    return shapely.line_locate_point(line, ends).reshape(2, -1)
 
 
 def _footprint_overlap(line, hw, region):
@@ -496,10 +501,7 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         if path_line is not None:
             cr = [p for p in shapely.get_parts(path_line.intersection(local)) if p.geom_type == "LineString"]
             if cr:
-                cr = np.array(cr, dtype=object)
-                ss = np.sort(shapely.line_locate_point(path_line, np.concatenate([shapely.get_point(cr, 0),
-                                                                                  shapely.get_point(cr, -1)])))
-                ss = ss.tolist()
+                ss = np.sort(_ends_along(path_line, np.array(cr, dtype=object)), axis=None).tolist()
                 if ss[0] > STEP_OFF_MM and ss[-1] < path_line.length - STEP_OFF_MM:
                     pa = path_line.interpolate(ss[0] - STEP_OFF_MM)
                     pb = path_line.interpolate(ss[-1] + STEP_OFF_MM)

@@ -63,6 +63,11 @@ def _segments(a, b):
     return shapely.linestrings(np.stack(np.broadcast_arrays(a, b), axis=-2))
 
 
+def _centres(cell, x0, y0, size, cells):
+    """(x, y) of the centres of the cells numbered `cell` (row-major, `cells` per row)."""
+    return np.column_stack([x0 + (cell % cells + 0.5) * size, y0 + (cell // cells + 0.5) * size])
+
+
 def _cells_round(p, x0, y0, size, cells):
     """Numbers of the cells within END_REACH cells of point p."""
     i0, j0 = int(np.floor((p[1] - y0) / size)), int(np.floor((p[0] - x0) / size))
@@ -75,7 +80,7 @@ def _in_sight(free, near, p, x0, y0, size, passable):
     """The free cells of `near` in clear sight of p: (cell numbers, distances)."""
     cells = free.shape[0]
     near = near[free.ravel()[near]]
-    c = np.column_stack([x0 + (near % cells + 0.5) * size, y0 + (near // cells + 0.5) * size])
+    c = _centres(near, x0, y0, size, cells)
     seen = passable(_segments(c, p)) if len(c) else np.zeros(0, dtype=bool)
     return near[seen], np.hypot(*(c[seen] - p).T)
 
@@ -178,8 +183,7 @@ def _grid_way(rings, ends, box, cells, passable):
             seq = _search(free, size, src, src_d, dst, dst_d, (0, cells, 0, cells), np.inf)
         if seq is None:
             return None
-        pts = np.vstack([ends[:1], np.column_stack([x0 + (seq % cells + 0.5) * size, y0 + (seq // cells + 0.5) * size]),
-                         ends[1:]])
+        pts = np.vstack([ends[:1], _centres(seq, x0, y0, size, cells), ends[1:]])
         dp = np.diff(pts, axis=0)
         turns = np.flatnonzero(np.abs(dp[1:, 0] * dp[:-1, 1] - dp[1:, 1] * dp[:-1, 0]) > 1e-12) + 1
         at = np.r_[0, turns, len(pts) - 1]
