@@ -19,7 +19,8 @@ from .cuts import ring_edges
 
 CELLS = 128          # grid cells along the window's side
 END_REACH = 2        # cells round each end searched for a free cell in clear sight of it
-FINE_MM = 0.1        # cells this fine need no second look: a narrower neck carries little return (our judgement)
+FINE_MM = 0.1        # cells this fine get no second look: a narrower neck carries little return
+                     # current (our judgement, no source)
 NEAR_MM = 4.0        # the first search stops this far from pa; most ways are shorter
 SLIDES = (1.0, 0.5, 0.25, 0.125, 0.0625)  # how far a bend may slide towards its chord, tried together
 _R2 = np.sqrt(2.0)
