@@ -142,8 +142,8 @@ def test_two_processes_give_the_same_findings(tmp_path, monkeypatch):
     monkeypatch.setattr(detector, "PARALLEL_MIN_CHAINS", 1)
     monkeypatch.setattr(forking.threading, "active_count", lambda: 1)  # other tests' threads aside
     pools = []
-    real_pool = forking.ProcessPoolExecutor
-    monkeypatch.setattr(forking, "ProcessPoolExecutor", lambda *a, **k: pools.append(1) or real_pool(*a, **k))
+    real_fork = forking._fork
+    monkeypatch.setattr(forking, "_fork", lambda: pools.append(1) or real_fork())
     two = run_check(demo, stack, settings=Settings(workers=2)).findings
     assert pools, "the two-process path did not run"
     assert len(one) > 5 and one == two

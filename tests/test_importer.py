@@ -163,8 +163,8 @@ def test_layers_read_in_two_processes_match_one(tmp_path, monkeypatch):
     monkeypatch.setattr(importer, "PARALLEL_MIN_BYTES", 1)
     monkeypatch.setattr(forking.threading, "active_count", lambda: 1)  # other tests' threads aside
     pools = []
-    real_pool = forking.ProcessPoolExecutor
-    monkeypatch.setattr(forking, "ProcessPoolExecutor", lambda *a, **k: pools.append(1) or real_pool(*a, **k))
+    real_fork = forking._fork
+    monkeypatch.setattr(forking, "_fork", lambda: pools.append(1) or real_fork())
     two = importer.load_board(demo)
     assert pools, "the two-process path did not run"
     assert [l.name for l in one.copper] == [l.name for l in two.copper]

@@ -54,8 +54,8 @@ def test_pictures_drawn_in_two_processes_match_one(tmp_path, monkeypatch):
     cli.write_outputs(result, rep, tmp_path / "one", "never")
     monkeypatch.setattr(forking.threading, "active_count", lambda: 1)  # other tests' threads aside
     pools = []
-    real_pool = forking.ProcessPoolExecutor
-    monkeypatch.setattr(forking, "ProcessPoolExecutor", lambda *a, **k: pools.append(1) or real_pool(*a, **k))
+    real_fork = forking._fork
+    monkeypatch.setattr(forking, "_fork", lambda: pools.append(1) or real_fork())
     result.settings = Settings(workers=2)
     cli.write_outputs(result, rep, tmp_path / "two", "never")
     assert pools, "the two-process path did not run"

@@ -326,8 +326,15 @@ def build_layer(fab, g, role, outline, tol):
             runs[-1][1].extend(shapely.buffer(lines, radii, quad_segs=q))
             round_lines.clear()
 
+    Line, Arc, Flash, Region = go.Line, go.Arc, go.Flash, go.Region
+    unit_k = {}                     # id(unit) -> mm per unit (gerbonara's unit comparison is slow)
+    net_of = {}                     # .N value -> net name
+    seg_add, net_add, fn_add = segs.append, seg_net.append, seg_fn.append
     for obj in g.objects:
-        if not isinstance(obj, go.Region) and getattr(obj, "aperture", None) is None:
+        kind = type(obj)
+        if kind is not Line and kind is not Flash and kind is not Arc and kind is not Region:
+            kind = next((c for c in (Line, Arc, Flash, Region) if isinstance(obj, c)), kind)
+        if kind is not Region and getattr(obj, "aperture", None) is None:
             layer.skipped_objects += 1  # drawn before any aperture was selected
             continue
         dark = bool(obj.polarity_dark)
@@ -335,10 +342,20 @@ def build_layer(fab, g, role, outline, tol):
             if runs:
                 flush_round()
             runs.append((dark, []))
-        k = 25.4 if obj.unit == Inch else 1.0
-        net = _attr_net(getattr(obj, "attrs", None))
-        if isinstance(obj, (go.Line, go.Arc)):
-            if isinstance(obj, go.Line):
+        k = unit_k.get(id(obj.unit))
+        if k is None:
+            k = unit_k[id(obj.unit)] = 25.4 if obj.unit == Inch else 1.0
+        attrs = getattr(obj, "attrs", None)
+        v = attrs.get(".N") if isinstance(attrs, dict) else None
+        if v:
+            net = net_of.get(v)
+            if net is None:
+                net = net_of[v] = _attr_net(attrs) or ""
+            net = net or None
+        else:
+            net = None
+        if kind is Line or kind is Arc:
+            if kind is Line:
                 pts = [(obj.x1 * k, obj.y1 * k), (obj.x2 * k, obj.y2 * k)]
             else:
                 c = obj.center
@@ -359,11 +376,17 @@ def build_layer(fab, g, role, outline, tol):
             else:
                 runs[-1][1].append(shapes.stroke_shape(pts, obj.aperture, aps, tol))
             if dark:
-                for (xa, ya), (xb, yb) in zip(pts[:-1], pts[1:]):
-                    segs.append((xa, ya, xb, yb, w))
-                    seg_net.append(net)
-                    seg_fn.append(fn)
-        elif isinstance(obj, go.Flash):
+                if len(pts) == 2:
+                    (xa, ya), (xb, yb) = pts
+                    seg_add((xa, ya, xb, yb, w))
+                    net_add(net)
+                    fn_add(fn)
+                else:
+                    for (xa, ya), (xb, yb) in zip(pts[:-1], pts[1:]):
+                        seg_add((xa, ya, xb, yb, w))
+                        net_add(net)
+                        fn_add(fn)
+        elif kind is Flash:
             base = aps.shape(obj.aperture)
             x, y = obj.x * k, obj.y * k
             flash_at.append((base, x, y))
@@ -372,9 +395,9 @@ def build_layer(fab, g, role, outline, tol):
                 flashes.append((x, y, max(b[2] - b[0], b[3] - b[1]) if not base.is_empty else 0.0))
                 fl_net.append(net)
                 fl_fn.append(_aper_function(obj))
-                p = (getattr(obj, "attrs", None) or {}).get(".P") if isinstance(getattr(obj, "attrs", None), dict) else None
+                p = attrs.get(".P") if isinstance(attrs, dict) else None
                 fl_part.append((p[0], p[1] if len(p) > 1 else "") if p else None)
-        elif isinstance(obj, go.Region):
+        elif kind is Region:
             ring = shapes.ring_points(obj.outline, obj.arc_centers or [], tol, k)
             raw = shapes.ring_polygon(ring) if len(ring) >= 3 else None
             poly = shapes.polygon_from_points(ring, raw)
@@ -615,7 +638,7 @@ def _guarded(name, fn, *args):
         raise InputError(name, f"cannot build its geometry ({type(e).__name__}: {str(e)[:120]})")
 
 
-PARALLEL_MIN_BYTES = 150_000  # copper text below which a second process costs more than it saves
+PARALLEL_MIN_BYTES = 20_000  # copper text below which a second process costs more than it saves
 
 
 def _copper_layer(fab, text, role, provisional, tol):
@@ -645,12 +668,12 @@ def _copper_layers(by_name, texts, copper_roles, provisional, tol, want):
     def task(j):
         name, role = copper_roles[order[j]]
         layer, notes = _copper_layer(by_name[name], texts[name], role, provisional, tol)
-        return (_wkb_packed(layer) if workers > 1 else layer), notes
+        return (_wkb_packed(layer) if forking.in_child else layer), notes
     done = forking.fork_map(task, len(order), workers)
     out = [None] * len(order)
     for j, k in enumerate(order):
         layer, notes = done[j]
-        out[k] = (_wkb_unpacked(layer) if workers > 1 else layer), notes
+        out[k] = (_wkb_unpacked(layer) if isinstance(layer.regions, tuple) else layer), notes
     return out
 
 
