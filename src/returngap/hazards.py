@@ -250,21 +250,28 @@ def edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of):
         if not len(todo):
             continue
         step = max(0.05, min(0.25, ref.h_mm / 2))
-        length = shapely.length(lines[todo])
-        dists = [np.linspace(0, L, max(2, int(L / step) + 1)) for L in length]
-        pts = shapely.points(coords_along_lines(lines[todo], dists))
-        inside = shapely.intersects(outer, pts)
-        near = np.zeros(len(pts), dtype=bool)
-        near[edge_tree.query(pts, predicate="dwithin", distance=limit)[0]] = True
-        look = np.flatnonzero(~inside | near)  # exact distances only here
-        d = np.full(len(pts), np.inf)
-        if len(look):
-            (at, _), dist = edge_tree.query_nearest(pts[look], return_distance=True, all_matches=False)
-            d[look[at]] = dist
+        sub = lines[todo]
+        dists = [np.linspace(0, L, max(2, int(L / step) + 1)) for L in shapely.length(sub)]
+        xy = coords_along_lines(sub, dists)
+        # only samples on pieces of line that come within reach of the edge, or lie off the plane, are
+        # looked at: the rest are on the plane and farther than the limit from its edge
+        at = np.flatnonzero(_samples_to_look_at(sub, dists, outer, edge_tree, limit))
+        inside = np.ones(len(xy), dtype=bool)
+        d = np.full(len(xy), np.inf)
+        if len(at):
+            pts = shapely.points(xy[at])
+            inside[at] = shapely.intersects(outer, pts)
+            # distances within the limit from a bounded nearest search; off the plane, all of them
+            (k, _), dist = edge_tree.query_nearest(pts, max_distance=limit, return_distance=True, all_matches=False)
+            d[at[k]] = dist
+            off = np.flatnonzero(~inside[at] & np.isinf(d[at]))
+            if len(off):
+                (k, _), dist = edge_tree.query_nearest(pts[off], return_distance=True, all_matches=False)
+                d[at[off[k]]] = dist
         ends = np.cumsum([0] + [len(x) for x in dists])
         for j, t in enumerate(todo):
             a, b = ends[j], ends[j + 1]
-            sampled[idx[t]] = (ref_nets[t], ref, limit, dists[j], pts[a:b], inside[a:b], d[a:b])
+            sampled[idx[t]] = (ref_nets[t], ref, limit, dists[j], xy[a:b], inside[a:b], d[a:b])
     for ci in sorted(sampled):
         ch = chains[ci]
         net, ref, limit, s, pts, inside, d = sampled[ci]
@@ -285,16 +292,42 @@ def edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of):
             share = physics.microstrip_fraction_beyond_edge(signed, ref.h_mm) if ref.other_h_mm is None else \
                 physics.stripline_fraction_between(signed, 1e3 * ref.h_mm, ref.h_mm, ref.other_h_mm) / ref.share
             sev = "error" if c == 2 else ("warning" if signed < ref.h_mm else "info")
-            p = pts[k]
+            px, py = pts[k]
             where = "runs off" if c == 2 else "runs along"
             findings.append(_finding(
-                "edge-run", sev, ch.net, ch.layer, p.x, p.y,
+                "edge-run", sev, ch.net, ch.layer, px, py,
                 f"{ch.net} on {ch.layer} {where} the edge of the plane copper on {ref.layer} for {length:.1f} mm, "
                 f"{'as far as' if c == 2 else 'closest'} {abs(signed):.2f} mm ({signed / ref.h_mm:.1f} h): about "
                 f"{share:.0%} of its return current on that plane lies beyond the edge",
                 reference_layer=ref.layer, reference_net=net, run_length_mm=length, edge_distance_mm=signed,
                 edge_distance_h=signed / ref.h_mm, beyond_edge_fraction=float(min(1.0, share)), height_mm=ref.h_mm))
     return findings
+
+
+def _samples_to_look_at(lines, dists, outer, edge_tree, limit):
+    """For samples at distances dists[i] along lines[i] (laid end to end, as coords_along_lines lays
+    them): True where the straight piece of line a sample lies on comes within `limit` of the plane's
+    edge or lies off the plane (`outer`). A piece farther than that from the edge does not cross it,
+    so one point tells whether all of it is on the plane."""
+    xy, idx = shapely.get_coordinates(lines, return_index=True)
+    same = idx[1:] == idx[:-1]
+    a, b, of_line = xy[:-1][same], xy[1:][same], idx[:-1][same]
+    flag = np.zeros(len(a), dtype=bool)
+    # a bounded nearest search prunes more of the tree than a distance query (long pieces, large boxes)
+    flag[edge_tree.query_nearest(shapely.linestrings(np.stack([a, b], axis=1)), max_distance=limit,
+                                 all_matches=False)[0]] = True
+    far = np.flatnonzero(~flag)
+    mid = (a[far] + b[far]) / 2
+    flag[far] = ~shapely.intersects_xy(outer, mid[:, 0], mid[:, 1])
+    # the piece under each sample, by its distance along the pieces of all lines laid end to end
+    run = np.concatenate([[0.0], np.cumsum(np.hypot(*(b - a).T))])
+    first = np.searchsorted(of_line, np.arange(len(dists)))
+    last = np.searchsorted(of_line, np.arange(len(dists)), side="right") - 1
+    count = [len(x) for x in dists]
+    pos = np.concatenate([x + run[f] for x, f in zip(dists, first)] or [np.zeros(0)])
+    piece = np.searchsorted(run, pos, side="right") - 1
+    piece = np.clip(piece, np.repeat(first, count), np.repeat(last, count))
+    return flag[piece]
 
 
 def floating_copper(board, nets, refs, chains, settings, hs):
