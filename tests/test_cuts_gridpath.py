@@ -72,7 +72,7 @@ def test_way_round_a_wall_is_the_two_piece_geodesic():
     wall = shapely.box(-0.1, -3, 0.1, 3)
     plane = _Plane(shapely.box(-20, -20, 20, 20), [wall])
     pa, pb = shapely.Point(-1, 0), shapely.Point(1, 0)
-    got = window_path(plane.outline, plane.voids, pa, pb, (-5, -5, 5, 5), plane.passable)
+    got = window_path(plane.outline, plane.voids, pa, pb, 5, plane.passable)
     exact = 2 * math.hypot(0.9, 3.0) + 0.2
     assert got is not None
     length, path = got
@@ -86,8 +86,7 @@ def test_narrow_passage_found_on_the_finer_grid():
     walls = [shapely.box(-0.3, 0.075, 0.3, 15), shapely.box(-0.3, -15, 0.3, -0.075)]
     outline = shapely.box(-15, -15, 15, 15)
     plane = _Plane(outline, walls)
-    got = window_path(outline, plane.voids, shapely.Point(-1, 0.3), shapely.Point(1, 0.3), (-15, -15, 15, 15),
-                      plane.passable)
+    got = window_path(outline, plane.voids, shapely.Point(-1, 0.3), shapely.Point(1, 0.3), 15, plane.passable)
     assert got is not None
     exact = 2 * math.hypot(0.7, 0.3 - 0.075) + 0.6  # round the slit's two near corners (geometry)
     assert exact - 1e-6 <= got[0] <= exact + 0.15
@@ -96,5 +95,4 @@ def test_narrow_passage_found_on_the_finer_grid():
 def test_no_way_through_a_closed_wall():
     outline = shapely.box(-5, -5, 5, 5)
     plane = _Plane(outline, [shapely.box(-0.1, -6, 0.1, 6)])
-    assert window_path(outline, plane.voids, shapely.Point(-1, 0), shapely.Point(1, 0), (-5, -5, 5, 5),
-                       plane.passable) is None
+    assert window_path(outline, plane.voids, shapely.Point(-1, 0), shapely.Point(1, 0), 5, plane.passable) is None

@@ -19,13 +19,14 @@ import shapely
 
 from . import forking, physics
 from .cuts import cut_intervals, ring_edges
-from .gridpath import window_path
+from .gridpath import CELLS, Lattice, lattice_way
 from .projector import footprint_polygon, line_z0
 
 EPS = 1e-6
 STEP_OFF_MM = 0.01     # how far beyond a gap's edge the detour path starts and ends
 MAX_STATIONS = 160     # transverse cuts per crossing for the interrupted share
 EDGE_HAIR_MM = 0.005   # a detour may graze a gap's edge by this much
+WINDOW_MM = 10.0       # side of the first detour window (at least); the second is three times as wide
 
 
 @dataclass
@@ -62,7 +63,9 @@ class ReferenceCopper:
         self.void_tree = shapely.STRtree(self.void_geoms)
         shapely.prepare(self.void_geoms)  # a distance test against a large void then skips most of its edges
         self._shrunk = np.full(len(self.voids), None, dtype=object)
+        self._have_shrunk = np.zeros(len(self.voids), dtype=bool)
         self._hulls = [None] * len(self.voids)
+        self._lattices = {}
         self.outline = outline
         self.edge = edge
         shapely.prepare(outline)
@@ -73,10 +76,12 @@ class ReferenceCopper:
         ok = shapely.covers(self.outline, segs)
         q = self.void_tree.query(segs)
         if q.shape[1]:
-            need = np.unique(q[1][shapely.is_missing(self._shrunk[q[1]])])
+            need = q[1][~self._have_shrunk[q[1]]]
             if len(need):
+                need = np.unique(need)
                 self._shrunk[need] = shapely.buffer(self.void_geoms[need], -EDGE_HAIR_MM, quad_segs=2)
                 shapely.prepare(self._shrunk[need])
+                self._have_shrunk[need] = True
             hit = shapely.intersects(self._shrunk[q[1]], segs[q[0]])
             ok[q[0][hit]] = False
         return ok
@@ -94,6 +99,13 @@ class ReferenceCopper:
         inset = self.outline.buffer(-0.01)
         shapely.prepare(inset)
         return inset
+
+    def lattice(self, size):
+        """The plane's free copper on a lattice of cells `size` mm (gridpath.Lattice), kept."""
+        lat = self._lattices.get(size)
+        if lat is None:
+            lat = self._lattices[size] = Lattice(self.outline, self.void_geoms, size, self.void_tree)
+        return lat
 
     def hull(self, k):
         if self._hulls[k] is None:
@@ -190,7 +202,7 @@ def slot_geometry(void, mid, tangent, reach, aspect_limit):
     return dict(length=l1 + l2, width=None, l1=l1, l2=l2, end1=end1, end2=end2, elongated=True)
 
 
-PARALLEL_MIN_CHAINS = 100  # below this a second process costs more than it saves (measured by make bench)
+PARALLEL_MIN_CHAINS = 10  # below this a second process costs more than it saves (measured by make bench)
 
 
 class _GapScan:
@@ -350,10 +362,9 @@ def _hull_detour(rc, pa, pb, gap_hull):
     ends = np.array([[pa.x, pa.y], [pb.x, pb.y]])
     lead = [None, None]
     if gap_hull.geom_type == "Polygon":
-        for k in (0, 1):
+        inside = shapely.contains_xy(gap_hull, ends[:, 0], ends[:, 1])
+        for k in np.flatnonzero(inside):
             p, other = ends[k], ends[1 - k]
-            if not gap_hull.contains(shapely.Point(p)):
-                continue
             u = (p - other) / max(float(np.hypot(*(p - other))), 1e-12)
             reach = float(np.hypot(gap_hull.bounds[2] - gap_hull.bounds[0], gap_hull.bounds[3] - gap_hull.bounds[1]))
             ray = shapely.LineString([p, p + u * (reach + 1.0)])
@@ -366,7 +377,7 @@ def _hull_detour(rc, pa, pb, gap_hull):
     hull = shapely.convex_hull(shapely.multipoints(np.vstack([shapely.get_coordinates(gap_hull), ends])))
     if hull.geom_type != "Polygon":
         return None, None
-    ring = np.asarray(hull.exterior.coords)[:-1]
+    ring = shapely.get_coordinates(hull.exterior)[:-1]
     ia = np.flatnonzero(np.hypot(*(ring - ends[0]).T) < 1e-9)
     ib = np.flatnonzero(np.hypot(*(ring - ends[1]).T) < 1e-9)
     if not len(ia) or not len(ib):
@@ -375,19 +386,18 @@ def _hull_detour(rc, pa, pb, gap_hull):
     n = len(ring)
     ways = []
     for step in (1, -1):
-        idx = [ia]
-        while idx[-1] != ib:
-            idx.append((idx[-1] + step) % n)
-        c = ring[idx]
+        c = ring[(ia + step * np.arange((step * (ib - ia)) % n + 1)) % n]
         if lead[0] is not None:
             c = np.vstack([lead[0], c])
         if lead[1] is not None:
             c = np.vstack([c, lead[1]])
         ways.append((float(np.hypot(*np.diff(c, axis=0).T).sum()), c))
     ways.sort(key=lambda w: w[0])
-    for length, c in ways:
-        segs = shapely.linestrings(np.stack([c[:-1], c[1:]], axis=1))
-        if rc.passable(segs).all():
+    # both ways' pieces in one test
+    ok = rc.passable(shapely.linestrings(np.concatenate([np.stack([c[:-1], c[1:]], axis=1) for _, c in ways])))
+    first = len(ways[0][1]) - 1
+    for (length, c), clear in zip(ways, (ok[:first].all(), ok[first:].all())):
+        if clear:
             return (length, [tuple(map(float, p)) for p in c]), ways[0][0]
     return None, ways[0][0]
 
@@ -401,16 +411,20 @@ def _local_geodesic(rc, pa, pb, void_pos, hw):
     whole hull serves as the estimate."""
     void_geom = rc.void_geoms[void_pos]
     vx0, vy0, vx1, vy1 = void_geom.bounds
-    r = max(5.0, 4 * hw)
+    r = max(WINDOW_MM / 2, 4 * hw)
+    # cells of a fixed family of lattices (nearby crossings share their cells), coarser for a wider
+    # window so that a window keeps about gridpath.CELLS cells a side
+    cell = WINDOW_MM / CELLS * 2 ** max(0, math.ceil(math.log2(2 * r / WINDOW_MM) - 1e-9))
     cx, cy = (pa.x + pb.x) / 2, (pa.y + pb.y) / 2
-    for _ in range(2):
+    for level in range(2):
         box = (cx - r, cy - r, cx + r, cy + r)
         whole = box[0] <= vx0 and box[1] <= vy0 and box[2] >= vx1 and box[3] >= vy1
         hull = rc.hull(void_pos) if whole else shapely.convex_hull(shapely.clip_by_rect(void_geom, *box))
         way, shorter = _hull_detour(rc, pa, pb, hull)
         if way is not None:
             return way[0], way[1], "taut-hull"
-        g = window_path(rc.outline, rc.void_geoms[rc.void_tree.query(shapely.box(*box))], pa, pb, box, rc.passable)
+        size = cell * 3 ** level
+        g = lattice_way(rc.lattice(size), rc.lattice(size / 2), pa, pb, r, rc.passable)
         if g is not None:
             return g[0], g[1], "grid-path"
         if whole:
