@@ -361,13 +361,18 @@ def build_nets(board, user_cfg=None):
     # stable generated names: order by layer and position (the centre of an island's bounds) of the
     # component's first island in that order, whatever order the pieces were drawn in
 
-    def place(li, i):
-        ln = layers[board.copper[li].name]
-        b = shapely.bounds(ln.pieces[ln.members(i)])
-        return (li, round((b[:, 0].min() + b[:, 2].max()) / 2, 3), round((b[:, 1].min() + b[:, 3].max()) / 2, 3))
+    centre = {}  # layer position -> per island, the centre of its bounds (all islands at once)
+    for li, layer in enumerate(board.copper):
+        piece_island, count = per_layer[layer.name][0], per_layer[layer.name][4]
+        b = shapely.bounds(layer.pieces)
+        lo = np.full((count, 2), np.inf)
+        hi = np.full((count, 2), -np.inf)
+        np.minimum.at(lo, piece_island, b[:, :2])
+        np.maximum.at(hi, piece_island, b[:, 2:])
+        centre[li] = np.round((lo + hi) / 2, 3).tolist()
 
     def key(comp):
-        return min(place(li, i) for li, i in comp)
+        return min((li, *centre[li][i]) for li, i in comp)
     for k, comp in enumerate(sorted(unnamed, key=key)):
         for node in comp:
             node_net[node] = f"UNNAMED_{k + 1:04d}"
@@ -408,10 +413,14 @@ def build_nets(board, user_cfg=None):
                 lower[n] += l
         best = max(lower.values())
         area_by_net = Counter()
-        for ln in layers.values():
-            for i, n in enumerate(ln.island_net):
-                if upper[n] >= best:
-                    area_by_net[n] += ln.island_area(i)
+
+        def areas(ln):  # each layer's candidate islands unioned in one call (in two threads)
+            idx = [i for i, n in enumerate(ln.island_net) if upper[n] >= best]
+            return [(ln.island_net[i], a) for i, a in zip(idx, shapely.area(ln.island_polygons(idx)))]
+        with ThreadPoolExecutor(2) as pool:
+            for found in pool.map(areas, layers.values()):
+                for n, a in found:
+                    area_by_net[n] += a
         gnd = max(area_by_net.items(), key=lambda kv: (kv[1], kv[0]))[0]
         net_class[gnd] = "ground"
         notes.append(f"no net is named like a ground: {gnd}, the net with the most copper "

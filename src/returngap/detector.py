@@ -12,6 +12,7 @@ the layer-change and plane-edge checks.
 import functools
 import hashlib
 import math
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -298,9 +299,12 @@ def chain_plane_nets(nets, chains):
     for i, ch in enumerate(chains):
         for r in ch.footprints:
             by_ref.setdefault(r, []).append(i)
-    for r, idx in by_ref.items():
-        for i, n in zip(idx, majority_nets(nets.layers[r], nets.plane_nets, [chains[i].line for i in idx])):
-            out[i][r] = n
+    def one(r):
+        return majority_nets(nets.layers[r], nets.plane_nets, [chains[i].line for i in by_ref[r]])
+    with ThreadPoolExecutor(2) as pool:  # shapely lets go of the GIL in the tree queries
+        for r, found in zip(by_ref, pool.map(one, by_ref)):
+            for i, n in zip(by_ref[r], found):
+                out[i][r] = n
     return out
 
 
@@ -311,9 +315,10 @@ def gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of):
     plane_nets_of: chain_plane_nets(nets, chains)."""
     scan = _GapScan(board, nets, refs, settings)
     workers = _auto_workers(settings, len(chains))
-    if workers > 1:
-        for layer in {r for ch in chains for r in ch.footprints}:
-            scan.copper(layer)  # built once here, shared with the workers by fork
+    if workers > 1:  # built once here (in two threads: shapely lets go of the GIL), shared by fork
+        shapely.prepare(board.outline)  # shared by the threads: prepared once, beforehand
+        with ThreadPoolExecutor(2) as pool:
+            list(pool.map(scan.copper, sorted({r for ch in chains for r in ch.footprints})))
     n = workers * 8  # many small slices: the pool balances uneven chains
     tasks = [functools.partial(_scan_slice, scan, chains, plane_nets_of, k, n) for k in range(n)]
 
@@ -412,9 +417,9 @@ def _local_geodesic(rc, pa, pb, void_pos, hw):
     void_geom = rc.void_geoms[void_pos]
     vx0, vy0, vx1, vy1 = void_geom.bounds
     r = max(WINDOW_MM / 2, 4 * hw)
-    # cells of a fixed family of lattices (nearby crossings share their cells), coarser for a wider
-    # window so that a window keeps about gridpath.CELLS cells a side
-    cell = WINDOW_MM / CELLS * 2 ** max(0, math.ceil(math.log2(2 * r / WINDOW_MM) - 1e-9))
+    # cells of a fixed family of lattices (nearby crossings share their cells), coarser only for a
+    # window so wide that it would have more than 1.5 gridpath.CELLS cells a side
+    cell = WINDOW_MM / CELLS * 2 ** max(0, math.ceil(math.log2(2 * r / (1.5 * WINDOW_MM)) - 1e-9))
     cx, cy = (pa.x + pb.x) / 2, (pa.y + pb.y) / 2
     for level in range(2):
         box = (cx - r, cy - r, cx + r, cy + r)
@@ -483,11 +488,7 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
     w = ch.width_mm
     if ev == "cross":
         mid_s = (s0 + s1) / 2
-        pa = line.interpolate(max(0.0, s0 - STEP_OFF_MM))
-        pb = line.interpolate(min(line.length, s1 + STEP_OFF_MM))
-        ia, ib = rc.island_at(pa), rc.island_at(pb)
-        share, _ = interrupted_share(line, s0 - hw, s1 + hw, hw, w, ref, local)
-        path_line = line
+        span = (s0 - hw, s1 + hw)
     else:
         # graze: measure along the filament just inside the void's nearest edge
         d = line.distance(local)
@@ -499,9 +500,22 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         mid_s = line.project(shapely.Point(near_line))
         near = local.intersection(line.buffer(hw, cap_style="flat"))
         corners = np.asarray(near.exterior.coords) if near.geom_type == "Polygon" else shapely.get_coordinates(near)
-        span = shapely.line_locate_point(line, shapely.points(corners)) if len(corners) else []
-        s_lo, s_hi = (float(min(span)), float(max(span))) if len(span) else (mid_s, mid_s)
-        share, _ = interrupted_share(line, s_lo, s_hi, hw, w, ref, local)
+        at = shapely.line_locate_point(line, shapely.points(corners)) if len(corners) else []
+        span = (float(min(at)), float(max(at))) if len(at) else (mid_s, mid_s)
+    # the gap's size first: a short enclosed gap (an antipad) is not reported, whatever it interrupts
+    mid = line.interpolate(mid_s)
+    tangent = _tangent(line, mid_s)
+    geo = slot_geometry(void, (mid.x, mid.y), tangent, reach, settings.slot_aspect_ratio)
+    if geo["length"] < settings.min_gap_length_mm and void.enclosed:
+        return None
+    share, _ = interrupted_share(line, span[0], span[1], hw, w, ref, local)
+    if share < settings.min_interrupted_fraction:
+        return None
+    if ev == "cross":
+        pa = line.interpolate(max(0.0, s0 - STEP_OFF_MM))
+        pb = line.interpolate(min(line.length, s1 + STEP_OFF_MM))
+        ia, ib = rc.island_at(pa), rc.island_at(pb)
+    else:
         path_line = None
         for side in (1, -1):
             off = line.offset_curve(side * (d + 0.02))
@@ -520,13 +534,6 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
                     pa = path_line.interpolate(ss[0] - STEP_OFF_MM)
                     pb = path_line.interpolate(ss[-1] + STEP_OFF_MM)
                     ia, ib = rc.island_at(pa), rc.island_at(pb)
-    if share < settings.min_interrupted_fraction:
-        return None
-    mid = line.interpolate(mid_s)
-    tangent = _tangent(line, mid_s)
-    geo = slot_geometry(void, (mid.x, mid.y), tangent, reach, settings.slot_aspect_ratio)
-    if geo["length"] < settings.min_gap_length_mm and void.enclosed:
-        return None
     detour, path, detour_method = None, None, None
     split = ev == "cross" and (ia is None or ib is None or ia != ib)
     if not split and pa is not None and ia is not None and ia == ib:

@@ -33,8 +33,12 @@ def run_check(sources, stackup_file=None, settings=None, scratch=None):
     plane_nets_of = detector.chain_plane_nets(nets, chains)
     tasks, combine, workers = detector.gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of)
     hs = hazards.HazardSettings()
-    jobs = [lambda: hazards.detect_without_gaps(board, nets, refs, chains, settings, hs, plane_nets_of)] + tasks
+    # the copper area of each layer (for the report: every island unioned) alongside them, too
+    jobs = [lambda: hazards.detect_without_gaps(board, nets, refs, chains, settings, hs, plane_nets_of),
+            lambda: [layer.copper_area_mm2 for layer in board.copper]] + tasks
     done = forking.fork_map(lambda k: jobs[k](), len(jobs), workers)
-    findings = combine(done[1:])
+    for layer, area in zip(board.copper, done[1]):
+        layer._area = area
+    findings = combine(done[2:])
     findings += done[0] + hazards.return_splits(board, findings, settings, hs)
     return CheckResult(board, nets, refs, planes, chains, findings, settings)
