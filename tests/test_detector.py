@@ -64,10 +64,12 @@ def test_full_split(tmp_path):
     assert f[0]["gap_length_mm"] == pytest.approx(40.0, abs=0.01)
 
 
-def test_via_fence_detour_walks_out_of_the_pocket(tmp_path):
+def test_via_fence_detour_is_the_geodesic_round_the_fence(tmp_path):
     """Ten vias of another net, 1 mm pitch, antipads 1.1 mm: the antipads merge into a slot and the
-    track passes between two of them. The return walks out of the pocket between the two antipads,
-    along the fence, round the end antipad (a half circle) and back: geometry gives the length."""
+    track passes between two of them, so each end of the crossing sits in a pocket between two
+    antipads. The shortest way: a tangent from the end to the next antipad, round it to its outer
+    side, along the fence, half round the end antipad and back the same way (geometry)."""
+    from returngap.detector import STEP_OFF_MM
     from returngap.synth import SynthBoard, Via, rect
     b = SynthBoard("f", 60, 40, n_layers=4, dielectrics=[(H, 4.3), (1.0, 4.3), (H, 4.3)])
     b.planes += [(2, "GND", rect(0, 0, 60, 40)), (3, "GND", rect(0, 0, 60, 40))]
@@ -77,10 +79,13 @@ def test_via_fence_detour_walks_out_of_the_pocket(tmp_path):
     f = gaps(b.write(tmp_path) or tmp_path)
     assert len(f) == 1 and f[0]["net"] == "CLK" and f[0]["gap_type"] != "split"
     r, dy = 0.55, 0.5
-    half = math.sqrt(r * r - dy * dy)         # half the opening between two antipads at the track
-    expect = 2 * (r - half) + 2 * 4.5 + math.pi * r - 2 * half
-    assert f[0]["detour_mm"] == pytest.approx(expect, rel=0.03)
-    assert f[0]["detour_method"] == "taut-hull"
+    ax = math.sqrt(r * r - dy * dy) + STEP_OFF_MM  # the crossing's end, left of the fence's axis
+    d = math.hypot(ax, dy)                        # from the end to the next antipad's centre
+    tangent = math.sqrt(d * d - r * r)
+    # round the antipad from the tangent point to its outermost point
+    arc = r * (math.atan2(dy, ax) - math.acos(r / d))
+    way = 2 * (tangent + arc + 4.0) + math.pi * r  # 4 mm along the fence to the end antipad's centre
+    assert f[0]["detour_mm"] == pytest.approx(way - 2 * ax, abs=0.05)
 
 
 @pytest.mark.parametrize("d", [0.3, 0.6, 1.0])
@@ -169,3 +174,92 @@ def test_geos_failure_on_a_gap_is_retried_on_a_snapped_outline(monkeypatch):
     again = run_check(demo, stack, settings=Settings(workers=1)).findings
     assert len(calls) > 1
     assert [f["id"] for f in again] == [f["id"] for f in plain]
+
+
+class _Plane:
+    """The copper round some voids, with the same clear-sight test as the gap scan (each void shrunk
+    by a hair), for the exact way round one gap."""
+
+    def __init__(self, outline, voids, enclosed=True):
+        import numpy as np
+        import shapely
+        from returngap.detector import EDGE_HAIR_MM, Void
+        self.outline = outline
+        self.voids = [Void(v, enclosed, k) for k, v in enumerate(voids)]
+        self._shrunk = shapely.buffer(np.array(voids, dtype=object), -EDGE_HAIR_MM, quad_segs=2)
+        self.edge = outline.boundary
+
+    def shrunk(self, k):
+        return self._shrunk[k]
+
+    def along_edge(self, void):
+        import numpy as np
+        import shapely
+        return shapely.dwithin(self.edge, shapely.points(void.ring_points(0)[0][:-1]), 1e-4)
+
+    def passable(self, segs):
+        import shapely
+        ok = shapely.covers(self.outline, segs)
+        for v in self._shrunk:
+            ok &= ~shapely.intersects(v, segs)
+        return ok
+
+
+def _chain(plane, k, a, b):
+    import shapely
+    from returngap.detector import _chain_detour
+    return _chain_detour(plane, plane.voids[k], shapely.Point(a), shapely.Point(b))
+
+
+def test_exact_way_round_a_lone_slot():
+    """Round the nearer end of a 1 x 10 mm slot: straight to its corners, across, back (geometry)."""
+    import shapely
+    plane = _Plane(shapely.box(-20, -20, 20, 20), [shapely.box(-0.5, -5, 0.5, 5)])
+    got = _chain(plane, 0, (-0.51, 1.0), (0.51, 1.0))
+    assert got is not None
+    assert got[0] == pytest.approx(2 * math.hypot(0.01, 4.0) + 1.0, abs=1e-9)
+    assert got[1][1:-1] == [(-0.5, 5.0), (0.5, 5.0)]
+
+
+# a gap with two arms down, 5 mm below the track, and its top 6 mm above it: a bay between the arms
+ARMS = (-3, -5, 3, 6), (-2, -6, 2, -3)
+
+
+def test_exact_way_round_a_concave_gap_skips_its_bay():
+    """Round the arms' ends, 5 mm down, the way goes straight across the mouth of the bay between
+    them, corner to corner (2 x 5 + 6 mm, geometry), shorter than over the top (2 x 6 + 6 mm)."""
+    import shapely
+    gap = shapely.box(*ARMS[0]).difference(shapely.box(*ARMS[1]))
+    plane = _Plane(shapely.box(-20, -20, 20, 20), [gap])
+    got = _chain(plane, 0, (-3.01, 0.0), (3.01, 0.0))
+    assert got is not None
+    assert got[0] == pytest.approx(2 * math.hypot(0.01, 5.0) + 6.0, abs=1e-9)
+    assert got[1][1:-1] == [(-3.0, -5.0), (3.0, -5.0)]
+
+
+def test_no_exact_way_when_another_void_is_in_the_way():
+    import shapely
+    gap = shapely.box(*ARMS[0]).difference(shapely.box(*ARMS[1]))
+    plane = _Plane(shapely.box(-20, -20, 20, 20), [gap, shapely.box(-0.5, -5.5, 0.5, -4.5)])  # in the mouth
+    assert _chain(plane, 0, (-3.01, 0.0), (3.01, 0.0)) is None
+
+
+def test_no_exact_way_from_a_pocket():
+    """An end under an overhang of the gap (a bar, a wall and a roof over the end) lies inside the hull
+    of the outline it must go round: not a plain hull way (the grid takes over)."""
+    import shapely
+    hook = shapely.union_all([shapely.box(-2, -2, 10, -1), shapely.box(-2, -1, -1.5, 1), shapely.box(-2, 1, 1, 1.5)])
+    plane = _Plane(shapely.box(-20, -20, 20, 20), [hook])
+    assert _chain(plane, 0, (0.0, -0.99), (0.0, -2.01)) is None
+
+
+def test_exact_way_round_a_notch_in_an_island_of_the_gap():
+    """The ends sit on an island of copper inside the gap (a hole of it), either side of a notch cut
+    into the island from its edge: the way goes round the notch's inner end, inside the island."""
+    import shapely
+    island = shapely.box(-5, -5, 5, 5).difference(shapely.box(-0.5, 1, 0.5, 6))  # notch from the top
+    gap = shapely.box(-10, -10, 10, 10).difference(island)
+    plane = _Plane(shapely.box(-10, -10, 10, 10), [gap], enclosed=False)
+    got = _chain(plane, 0, (-0.51, 3.0), (0.51, 3.0))
+    assert got is not None
+    assert got[0] == pytest.approx(2 * math.hypot(0.01, 2.0) + 1.0, abs=1e-9)

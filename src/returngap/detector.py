@@ -44,6 +44,50 @@ class Void:
     def edges(self):
         return ring_edges(self.geom)
 
+    @functools.cached_property
+    def rings(self):
+        """Its rings (outer first) as LineStrings, and a tree of them."""
+        rings = shapely.get_rings(self.geom)
+        return rings, shapely.STRtree(rings)
+
+    def ring_points(self, k):
+        """Points of ring k (closed) and their distances along it (kept)."""
+        cache = self.__dict__.setdefault("_ring_points", {})
+        if k not in cache:
+            xy = shapely.get_coordinates(self.rings[0][k])
+            cache[k] = xy, np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(xy, axis=0).T))])
+        return cache[k]
+
+    def locate(self, k, pts):
+        """Distances along ring k of the points nearest to pts, from the ring's nearest edges (found
+        in a tree of its edges when it has many)."""
+        xy, run = self.ring_points(k)
+        cache = self.__dict__.setdefault("_edge_trees", {})
+        if len(xy) > 65:
+            tree = cache.get(k)
+            if tree is None:
+                tree = cache[k] = shapely.STRtree(shapely.linestrings(np.stack([xy[:-1], xy[1:]], axis=1)))
+            e = tree.query_nearest(shapely.points(pts), all_matches=False)[1]
+        else:
+            e = None
+        a, d = xy[:-1], np.diff(xy, axis=0)
+        out = []
+        for p, near in zip(pts, e if e is not None else [None] * len(pts)):
+            idx = np.arange(len(a)) if near is None else np.array([near])
+            den = np.maximum((d[idx] ** 2).sum(axis=1), 1e-300)
+            t = np.clip(((p - a[idx]) * d[idx]).sum(axis=1) / den, 0.0, 1.0)
+            gap = np.hypot(*(a[idx] + t[:, None] * d[idx] - p).T)
+            best = int(np.argmin(gap))
+            out.append(float(run[idx[best]] + t[best] * np.sqrt(den[best])))
+        return out
+
+    def ring_by(self, pts, tol):
+        """The ring both points lie within tol of, or None."""
+        rings, tree = self.rings
+        near = tree.query(pts, predicate="dwithin", distance=tol)
+        both = np.intersect1d(near[1][near[0] == 0], near[1][near[0] == 1])
+        return int(both[0]) if len(both) else None
+
 
 class ReferenceCopper:
     """The plane copper (every plane net) of one reference layer, its voids and islands, indexed."""
@@ -67,6 +111,7 @@ class ReferenceCopper:
         self._have_shrunk = np.zeros(len(self.voids), dtype=bool)
         self._hulls = [None] * len(self.voids)
         self._lattices = {}
+        self._along_edge = {}
         self.outline = outline
         self.edge = edge
         shapely.prepare(outline)
@@ -77,15 +122,19 @@ class ReferenceCopper:
         ok = shapely.covers(self.outline, segs)
         q = self.void_tree.query(segs)
         if q.shape[1]:
-            need = q[1][~self._have_shrunk[q[1]]]
-            if len(need):
-                need = np.unique(need)
-                self._shrunk[need] = shapely.buffer(self.void_geoms[need], -EDGE_HAIR_MM, quad_segs=2)
-                shapely.prepare(self._shrunk[need])
-                self._have_shrunk[need] = True
-            hit = shapely.intersects(self._shrunk[q[1]], segs[q[0]])
+            hit = shapely.intersects(self.shrunk(q[1]), segs[q[0]])
             ok[q[0][hit]] = False
         return ok
+
+    def shrunk(self, k):
+        """The voids at positions k shrunk by a hair (EDGE_HAIR_MM), prepared; each built once."""
+        need = k[~self._have_shrunk[k]]
+        if len(need):
+            need = np.unique(need)
+            self._shrunk[need] = shapely.buffer(self.void_geoms[need], -EDGE_HAIR_MM, quad_segs=2)
+            shapely.prepare(self._shrunk[need])
+            self._have_shrunk[need] = True
+        return self._shrunk[k]
 
     def voids_near(self, line, distance):
         """Positions (ascending) of the voids within `distance` of a line: boxes from the tree, then the
@@ -107,6 +156,14 @@ class ReferenceCopper:
         if lat is None:
             lat = self._lattices[size] = Lattice(self.outline, self.void_geoms, size, self.void_tree)
         return lat
+
+    def along_edge(self, void):
+        """Per point of a gap's outer ring (the closing one aside), whether it lies on the board's edge."""
+        flags = self._along_edge.get(void.index)
+        if flags is None:
+            xy = void.ring_points(0)[0][:-1]
+            flags = self._along_edge[void.index] = shapely.dwithin(self.edge, shapely.points(xy), 1e-4)
+        return flags
 
     def hull(self, k):
         if self._hulls[k] is None:
@@ -407,14 +464,87 @@ def _hull_detour(rc, pa, pb, gap_hull):
     return None, ways[0][0]
 
 
+def _chain_detour(rc, void, pa, pb):
+    """The geodesic round one gap when nothing else is in the way, or None. The way round a single
+    obstacle turns only towards it, so the shortest way that keeps the gap's outline between the two
+    ends on one side is the convex hull of that stretch of outline and the ends (when the straight
+    line between the ends is an edge of that hull); of the two stretches (either way round) the one
+    with the shorter hull is taken, and only when it stays clear of every other void is it returned,
+    as then nothing shorter exists. A way is at least |pa q| + |q pb| long for any point q it goes
+    round, which spares the longer stretch's hull where that bound already exceeds the shorter way."""
+    ends = np.array([[pa.x, pa.y], [pb.x, pb.y]])
+    if not shapely.intersects(rc.shrunk(np.array([void.index]))[0], shapely.LineString(ends)):
+        return None  # the straight line between the ends misses this gap: the way is not round it
+    k = void.ring_by(shapely.points(ends), 2 * STEP_OFF_MM)
+    if k is None:
+        return None  # the ends lie by different rings of the gap
+    xy, run = void.ring_points(k)
+    m = len(xy) - 1  # the ring's points, the last repeating the first
+    lo, hi = sorted(void.locate(k, ends))
+    i, j = int(np.searchsorted(run[:m], lo, side="right")), int(np.searchsorted(run[:m], hi))
+    if i == j or (i == 0 and j == m):
+        return None  # a stretch without a corner: the ends sit by one edge
+    edge = rc.along_edge(void) if k == 0 and not void.enclosed else None
+    stretches = []
+    for q, flags in ((xy[i:j], edge[i:j] if edge is not None else None),
+                     (np.concatenate([xy[j:m], xy[:i]]),
+                      np.concatenate([edge[j:m], edge[:i]]) if edge is not None else None)):
+        if flags is not None and flags.any():
+            continue  # this way runs along the board's edge: off the board
+        step = max(1, len(q) // 256)  # a bound from some of the points is a bound still
+        bound = float(np.max(np.hypot(*(q[::step] - ends[0]).T) + np.hypot(*(q[::step] - ends[1]).T)))
+        stretches.append((bound, q))
+    stretches.sort(key=lambda t: t[0])
+    best = None
+    for bound, q in stretches:
+        if best is not None and bound >= best[0]:
+            break
+        way = _hull_arc(ends, q)
+        if way is None:
+            return None  # an end in a pocket of the stretch: not a plain hull
+        if best is None or way[0] < best[0]:
+            best = way
+    if best is None:
+        return None
+    length, path = best
+    if not rc.passable(shapely.linestrings(np.stack([path[:-1], path[1:]], axis=1))).all():
+        return None
+    return length, [tuple(map(float, p)) for p in path]
+
+
+def _hull_arc(ends, pts):
+    """The way from ends[0] to ends[1] along the convex hull of them and pts, round pts: (length,
+    points), or None where the straight line between the ends is not an edge of that hull."""
+    hull = shapely.convex_hull(shapely.multipoints(np.vstack([ends, pts])))
+    if hull.geom_type != "Polygon":
+        return None
+    ring = shapely.get_coordinates(hull.exterior)[:-1]
+    n = len(ring)
+    ia = np.flatnonzero((ring == ends[0]).all(axis=1))
+    ib = np.flatnonzero((ring == ends[1]).all(axis=1))
+    if not len(ia) or not len(ib):
+        return None
+    ia, ib = int(ia[0]), int(ib[0])
+    if (ib - ia) % n == 1:  # the direct edge runs forwards: the way round goes backwards
+        c = ring[(ia - np.arange((ia - ib) % n + 1)) % n]
+    elif (ia - ib) % n == 1:
+        c = ring[(ia + np.arange((ib - ia) % n + 1)) % n]
+    else:
+        return None
+    return float(np.hypot(*np.diff(c, axis=0).T).sum()), c
+
+
 def _local_geodesic(rc, pa, pb, void_pos, hw):
-    """Detour path round the gap, in two small windows and then round the whole gap, so that large
-    voids stay cheap: in each window the taut way round the gap's hull when it is clear, else the
-    shortest way on a grid of the window's copper, pulled taut (gridpath); last, the taut way round
-    the whole gap's hull. Returns (length, path, method) or None; method is "taut-hull",
-    "grid-path", or "hull-estimate" where no way is found nearby and the shorter way round the
-    whole hull serves as the estimate."""
+    """Detour path round the gap: first the exact way round the gap alone when nothing else is in the
+    way (_chain_detour); else the shortest way on a grid of the copper in a window round the
+    crossing, pulled taut (gridpath), in a small window and then one three times as wide, so that
+    large voids stay cheap; last, the taut way round the whole gap's hull. Returns (length, path,
+    method) or None; method is "taut-hull", "grid-path", or "hull-estimate" where no way is found
+    nearby and the shorter way round the whole hull serves as the estimate."""
     void_geom = rc.void_geoms[void_pos]
+    chain = _chain_detour(rc, rc.voids[void_pos], pa, pb)
+    if chain is not None:
+        return chain[0], chain[1], "taut-hull"
     vx0, vy0, vx1, vy1 = void_geom.bounds
     r = max(WINDOW_MM / 2, 4 * hw)
     # cells of a fixed family of lattices (nearby crossings share their cells), coarser only for a
@@ -422,18 +552,11 @@ def _local_geodesic(rc, pa, pb, void_pos, hw):
     cell = WINDOW_MM / CELLS * 2 ** max(0, math.ceil(math.log2(2 * r / (1.5 * WINDOW_MM)) - 1e-9))
     cx, cy = (pa.x + pb.x) / 2, (pa.y + pb.y) / 2
     for level in range(2):
-        box = (cx - r, cy - r, cx + r, cy + r)
-        whole = box[0] <= vx0 and box[1] <= vy0 and box[2] >= vx1 and box[3] >= vy1
-        hull = rc.hull(void_pos) if whole else shapely.convex_hull(shapely.clip_by_rect(void_geom, *box))
-        way, shorter = _hull_detour(rc, pa, pb, hull)
-        if way is not None:
-            return way[0], way[1], "taut-hull"
-        size = cell * 3 ** level
-        g = lattice_way(rc.lattice(size), rc.lattice(size / 2), pa, pb, r, rc.passable)
+        g = lattice_way(rc.lattice(cell * 3 ** level), rc.lattice(cell * 3 ** level / 2), pa, pb, r, rc.passable)
         if g is not None:
             return g[0], g[1], "grid-path"
-        if whole:
-            return (shorter, None, "hull-estimate") if shorter is not None else None
+        if cx - r <= vx0 and cy - r <= vy0 and cx + r >= vx1 and cy + r >= vy1:
+            break  # the window held the whole gap: a wider one shows nothing more
         r *= 3
     way, shorter = _hull_detour(rc, pa, pb, rc.hull(void_pos))
     if way is not None:
