@@ -306,16 +306,25 @@ class _GapScan:
             if ref_net is None:
                 continue
             lx0, ly0, lx1, ly1 = line.bounds
-            box = (lx0 - hw, ly0 - hw, lx1 + hw, ly1 + hw)  # the footprint's bounds
-            for vi in near:
+            # clip first: the void outside all plane copper can be as large as the board (all the
+            # chain's voids at once)
+            near = np.asarray(near, dtype=int)
+            local_all = shapely.clip_by_rect(rc.void_geoms[near], lx0 - hw - 0.1, ly0 - hw - 0.1,
+                                             lx1 + hw + 0.1, ly1 + hw + 0.1)
+            keep = ~shapely.is_empty(local_all)
+            near, local_all = near[keep], local_all[keep]
+            try:
+                crossed = shapely.intersection(line, local_all)
+            except shapely.errors.GEOSException:  # a nearly degenerate outline: snapped to 1 nm
+                crossed = shapely.intersection(line, shapely.set_precision(local_all, 1e-6))
+            parts, of = shapely.get_parts(crossed, return_index=True)
+            ok = (shapely.get_type_id(parts) == 1) & (shapely.length(parts) > 0)
+            parts, of = parts[ok], of[ok]
+            along = np.sort(_ends_along(line, parts), axis=0).T if len(parts) else np.zeros((0, 2))
+            for j, vi in enumerate(near):
                 void = rc.voids[int(vi)]
-                # clip first: the void outside all plane copper can be as large as the board
-                local = shapely.clip_by_rect(void.geom, box[0] - 0.1, box[1] - 0.1, box[2] + 0.1, box[3] + 0.1)
-                if local.is_empty:
-                    continue
-                parts = shapely.get_parts(line.intersection(local))
-                parts = parts[(shapely.get_type_id(parts) == 1) & (shapely.length(parts) > 0)]
-                pieces = sorted(sorted(se) for se in _ends_along(line, parts).T.tolist())
+                local = local_all[j]
+                pieces = sorted(along[of == j].tolist())
                 merged = []
                 for s0, s1 in pieces:  # pieces of one crossing closer than the footprint merge
                     if merged and s0 - merged[-1][1] < hw:

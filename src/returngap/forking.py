@@ -93,9 +93,9 @@ def _shared(task, n):
         stop()  # the child finishes the task in hand and reports
         error = e
     with os.fdopen(r, "rb") as f:
-        data = f.read()
-    os.waitpid(pid, 0)
+        data = f.read()  # the end comes when the child has written all: it only has to exit now
     os.close(q)
+    _reap(pid)
     if error is not None:
         raise error
     try:
@@ -104,6 +104,24 @@ def _shared(task, n):
         theirs = []  # the child died
     done.update(theirs)
     return [done[k] if k in done else task(k) for k in range(n)]
+
+
+_exiting = []  # children that have sent their results and are still exiting
+
+
+def _reap(pid):
+    """Collect this child and any earlier one that has exited since; one still exiting (a large
+    process takes milliseconds to unmap) is collected later instead of waited for."""
+    for p in _exiting + [pid]:
+        try:
+            done = os.waitpid(p, os.WNOHANG)[0] != 0
+        except ChildProcessError:
+            done = True
+        if done:
+            if p in _exiting:
+                _exiting.remove(p)
+        elif p == pid:
+            _exiting.append(p)
 
 
 def _child(task, n, claim, stop, r, w):

@@ -478,10 +478,11 @@ def return_splits(board, gap_findings, settings, hs):
     return out
 
 
-def detect_without_gaps(board, nets, refs, chains, settings, hs, plane_nets_of):
-    """The checks that do not need the gap crossings (they can run beside the gap scan; return_splits
-    follows it). plane_nets_of: detector.chain_plane_nets(nets, chains)."""
-    return (reference_changes(board, nets, refs, settings)
-            + edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of)
-            + floating_copper(board, nets, refs, chains, settings, hs)
-            + stitching_spacing(board, nets, refs, chains, settings, hs))
+def checks_without_gaps(board, nets, refs, chains, settings, hs, plane_nets_of):
+    """The checks that do not need the gap crossings, as separate tasks (they run beside the gap scan;
+    return_splits follows it): their findings, concatenated in this order, are the whole of them.
+    plane_nets_of: detector.chain_plane_nets(nets, chains)."""
+    return [lambda: reference_changes(board, nets, refs, settings),
+            lambda: edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of),
+            lambda: floating_copper(board, nets, refs, chains, settings, hs),
+            lambda: stitching_spacing(board, nets, refs, chains, settings, hs)]

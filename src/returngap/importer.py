@@ -435,12 +435,8 @@ def resolve_pieces(runs, negative_in=None):
         acc = shapely.make_valid(acc)
     out = [p for p in shapely.get_parts(acc) if p.geom_type == "Polygon" and p.area > 0]
     for _, pieces in runs[last_clear + 1:]:
+        # buffers, placed aperture shapes and repaired regions: valid as built
         arr = np.array([p for p in pieces if p is not None], dtype=object)
-        if not len(arr):
-            continue
-        bad = ~shapely.is_valid(arr)
-        if bad.any():
-            arr[bad] = shapely.make_valid(arr[bad])
         for p in arr:  # flashes of macro apertures can be multi-part
             if p.geom_type == "Polygon":
                 if p.area > 0:

@@ -33,12 +33,13 @@ def run_check(sources, stackup_file=None, settings=None, scratch=None):
     plane_nets_of = detector.chain_plane_nets(nets, chains)
     tasks, combine, workers = detector.gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of)
     hs = hazards.HazardSettings()
-    # the copper area of each layer (for the report: every island unioned) alongside them, too
-    jobs = [lambda: hazards.detect_without_gaps(board, nets, refs, chains, settings, hs, plane_nets_of),
-            lambda: [layer.copper_area_mm2 for layer in board.copper]] + tasks
+    checks = hazards.checks_without_gaps(board, nets, refs, chains, settings, hs, plane_nets_of)
+    # and the copper area of each layer, for the report (every island unioned)
+    areas = [lambda layer=layer: layer.copper_area_mm2 for layer in board.copper]
+    jobs = checks + areas + tasks
     done = forking.fork_map(lambda k: jobs[k](), len(jobs), workers)
-    for layer, area in zip(board.copper, done[1]):
+    for layer, area in zip(board.copper, done[len(checks):len(checks) + len(areas)]):
         layer._area = area
-    findings = combine(done[2:])
-    findings += done[0] + hazards.return_splits(board, findings, settings, hs)
+    findings = combine(done[len(checks) + len(areas):])
+    findings += sum(done[:len(checks)], []) + hazards.return_splits(board, findings, settings, hs)
     return CheckResult(board, nets, refs, planes, chains, findings, settings)
