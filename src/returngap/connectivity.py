@@ -267,8 +267,10 @@ def _tally(votes, li, islands, names, weight):
         votes[(li, p // len(uniq))][uniq[p % len(uniq)]] += weight * k
 
 
-def _layer_islands(layer):
-    """Islands of one layer's pieces, and the island under each segment, flash and region."""
+def layer_islands(layer):
+    """Islands of one layer's pieces, and the island under each segment, flash and region; kept on the
+    layer (as layer.islands_found, with its pieces' tree as layer.piece_tree), so that the import can
+    work them out for each layer as it reads it, on either core."""
     pieces = layer.pieces
     shapely.prepare(pieces)  # point and hole tests below and in later stages
     tree = shapely.STRtree(pieces)
@@ -281,7 +283,20 @@ def _layer_islands(layer):
         reg_xy = shapely.get_coordinates(shapely.point_on_surface(
             np.array([r[0] for r in layer.regions], dtype=object))).reshape(-1, 2)
         reg_isl = _island_index(piece_island, tree, reg_xy)
-    return piece_island, tree, seg_isl, fl_isl, reg_isl, count, pairs
+    layer.islands_found = (piece_island, seg_isl, fl_isl, reg_isl, count, pairs)
+    layer.piece_tree = tree
+
+
+def _layer_islands(layer):
+    """layer_islands' results, worked out here unless the import did (a tree rebuilt where the layer
+    came from another process, which sends no tree)."""
+    if getattr(layer, "islands_found", None) is None:
+        layer_islands(layer)
+    elif getattr(layer, "piece_tree", None) is None:
+        shapely.prepare(layer.pieces)
+        layer.piece_tree = shapely.STRtree(layer.pieces)
+    piece_island, seg_isl, fl_isl, reg_isl, count, pairs = layer.islands_found
+    return piece_island, layer.piece_tree, seg_isl, fl_isl, reg_isl, count, pairs
 
 
 def build_nets(board, user_cfg=None):

@@ -508,20 +508,27 @@ def _inside_fraction(pts, region):
     return float(len(np.unique(hit)) / len(pts))
 
 
-def parse_drill(fab, text, copper_region, notes):
+def _first_drill_read(fab, text):
+    """gerbonara's reading of a drill file as it declares itself: (ExcellonFile or None, the error
+    message or None)."""
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return ExcellonFile.from_string(text, filename=fab.name), None
+    except Exception as e:
+        return None, str(e)
+
+
+def parse_drill(fab, text, copper_region, notes, first=None):
     """Excellon via gerbonara; when the header is silent or the holes land off the board,
-    try the usual number formats and keep the one whose holes fall on the copper."""
+    try the usual number formats and keep the one whose holes fall on the copper. first: the
+    file's first reading (_first_drill_read), when already done."""
     def attempt(settings):
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             return ExcellonFile.from_string(text, settings=settings, filename=fab.name)
 
-    first_error = None
-    d = None
-    try:
-        d = attempt(None)
-    except Exception as e:
-        first_error = e
+    d, first_error = first if first is not None else _first_drill_read(fab, text)
     if d is not None:
         score = _inside_fraction(_drill_points(d), copper_region)
         if score >= 0.9 or len(d.objects) == 0 or copper_region is None:
@@ -543,7 +550,7 @@ def parse_drill(fab, text, copper_region, notes):
             best, best_score = cand, sc
             best_desc = f"{unit} {nf[0]}.{nf[1]} with {zeros} zeros omitted"
     if best is None:
-        msg = str(first_error) if first_error else "no holes found"
+        msg = first_error or "no holes found"
         m = re.match(r".*?:(\d+) \"(.*?)\": (.*)", msg, re.S)
         line = int(m.group(1)) if m else None
         reason = m.group(3) if m else msg
@@ -654,27 +661,36 @@ def _copper_layer(fab, text, role, provisional, tol):
     return layer, notes
 
 
-def _copper_layers(by_name, texts, copper_roles, provisional, tol, want):
-    """Every copper layer, top to bottom; the layers are independent, so a large board's are read on
-    both cores, largest file first so the two processes finish together."""
+def _copper_layers(by_name, texts, copper_roles, provisional, tol, want, per_layer=None, drills=()):
+    """Every copper layer, top to bottom, each passed to per_layer (when given) as soon as it is
+    built; and the first reading of each drill file in `drills` ({name: (ExcellonFile or None, error
+    message or None)}). The tasks are independent, so a large board's are done on both cores,
+    largest file first so the two processes finish together."""
     size = sum(len(texts[name]) for name, _ in copper_roles)
     workers = forking.workers_for(want) if size >= PARALLEL_MIN_BYTES else 1
     order = sorted(range(len(copper_roles)), key=lambda k: -len(texts[copper_roles[k][0]]))
+    drills = list(drills)
 
     def task(j):
+        if j >= len(order):
+            name = drills[j - len(order)]
+            return _first_drill_read(by_name[name], texts[name])
         name, role = copper_roles[order[j]]
         layer, notes = _copper_layer(by_name[name], texts[name], role, provisional, tol)
+        if per_layer is not None:
+            per_layer(layer)
         return (_wkb_packed(layer) if forking.in_child else layer), notes
-    done = forking.fork_map(task, len(order), workers)
+    done = forking.fork_map(task, len(order) + len(drills), workers)
     out = [None] * len(order)
     for j, k in enumerate(order):
         layer, notes = done[j]
         out[k] = (_wkb_unpacked(layer) if isinstance(layer.regions, tuple) else layer), notes
-    return out
+    return out, dict(zip(drills, done[len(order):]))
 
 
 # geometry crosses between processes as WKB: pickling shapely objects one by one costs five times more
 def _wkb_packed(layer):
+    layer.piece_tree = None  # rebuilt where it is needed
     layer.pieces = shapely.to_wkb(layer.pieces)
     layer.regions = (shapely.to_wkb(np.array([r[0] for r in layer.regions], dtype=object)),
                      [r[1:] for r in layer.regions])
@@ -688,9 +704,11 @@ def _wkb_unpacked(layer):
     return layer
 
 
-def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_MM, scratch=None, workers=0):
+def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_MM, scratch=None, workers=0,
+               per_layer=None):
     """Read a board (folder, zip or file list) into the board model; copper layers in `workers`
-    processes (0: both cores on a large board)."""
+    processes (0: both cores on a large board), each passed to per_layer (when given) in the process
+    that built it, for work of later stages that needs one layer only."""
     with BoardFiles(sources, scratch) as bf:
         texts = {f.name: read_text(f) for f in bf.fab if f.kind in ("gerber", "excellon", "job")}
         notes = []
@@ -719,7 +737,10 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
                     break
         provisional = outline
         layers = []
-        for layer, layer_notes in _copper_layers(by_name, texts, copper_roles, provisional, chord_tol_mm, workers):
+        drills = [name for name, role in roles.items() if role.kind == "drill"]
+        built, first_reads = _copper_layers(by_name, texts, copper_roles, provisional, chord_tol_mm, workers,
+                                            per_layer, drills)
+        for layer, layer_notes in built:
             layers.append(layer)
             notes.extend(layer_notes)
         if outline is None:
@@ -740,7 +761,7 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
         for name, role in roles.items():
             if role.kind == "drill":
                 f = by_name[name]
-                d, fmt = parse_drill(f, texts[name], region, notes)
+                d, fmt = parse_drill(f, texts[name], region, notes, first_reads.get(name))
                 drill, tool_plating = _guarded(name, build_drill, f, d, role, n, texts[name], fmt)
                 if drill.skipped:
                     notes.append(f"{name}: {drill.skipped} hole(s) given before any tool was selected were left out")

@@ -18,7 +18,9 @@ class CheckResult:
 
 def load(sources, stackup_file=None, scratch=None, workers=0):
     cfg = config.load_stackup_file(stackup_file)
-    board = importer.load_board(sources, user_layers=cfg.get("layers"), scratch=scratch, workers=workers)
+    # each layer's copper islands are found as it is read, on whichever core read it
+    board = importer.load_board(sources, user_layers=cfg.get("layers"), scratch=scratch, workers=workers,
+                                per_layer=connectivity.layer_islands)
     stackup.build_stackup(board, cfg)
     return board, cfg
 
