@@ -1,15 +1,18 @@
 """make bench: gerbonara's parse of the same files (the floor) against the full check, side by side.
 
 Each measurement runs in its own process; reported per case: both times, their ratio, peak memory
-of the check, and the fitted scaling exponent of the check time against segment count. Each side is
-the best of up to five runs (fewer when the check takes long), the two sides alternating: on a
-shared machine a short case's times jitter by a third from run to run.
+of the check, and the fitted scaling exponent of the check time against segment count. The two
+sides run in turns, a parse then a check, at least three pairs and up to seven (fewer of the long
+cases); the ratio is the median of the pairs' own ratios and each time the median of its side. On a
+shared machine a run's speed drifts by a third within seconds: a pair, run back to back, shares
+the drift, where the best of each side may come from different moments.
 """
 
 import json
 import math
 import os
 import shutil
+import statistics
 import subprocess
 import sys
 import tempfile
@@ -74,21 +77,21 @@ def main():
         if (CORPUS / slug).exists():
             cases.append((slug, CORPUS / slug, stack, None))
     rows = []
-    print(f"{'case':26} {'segments':>9} {'parse s':>8} {'check s':>8} {'ratio':>6} {'check MiB':>9} {'findings':>8}")
+    print(f"{'case':26} {'segments':>9} {'parse s':>8} {'check s':>8} {'ratio':>6} {'check MiB':>9} {'findings':>8} {'pairs':>5}")
     for name, path, stack, _ in cases:
-        # timings on a shared machine jitter: each side is the best of up to five fresh runs
-        # (fewer when one run of the check already takes long), alternating the two sides
-        tp, tc, mem = math.inf, math.inf, 0.0
-        for k in range(5):
-            tp = min(tp, float(run(PARSE, path)[0]))
+        pairs, mem, spent = [], 0.0, 0.0
+        while len(pairs) < 3 or (len(pairs) < 7 and spent < 30.0):
+            tp = float(run(PARSE, path)[0])
             t, segs, nf, m = run(CHECK, path, stack or "")
-            tc, mem = min(tc, float(t)), max(mem, float(m))
-            if tc * (k + 1) > 8.0:
-                break
-        rows.append({"case": name, "segments": int(segs), "parse_s": tp, "check_s": tc, "ratio": tc / tp,
-                     "check_peak_MiB": mem, "findings": int(nf)})
+            pairs.append((tp, float(t)))
+            mem, spent = max(mem, float(m)), spent + tp + float(t)
+        tp = statistics.median(p for p, _ in pairs)
+        tc = statistics.median(c for _, c in pairs)
+        ratio = statistics.median(c / p for p, c in pairs)
+        rows.append({"case": name, "segments": int(segs), "parse_s": tp, "check_s": tc, "ratio": ratio,
+                     "pairs": len(pairs), "check_peak_MiB": mem, "findings": int(nf)})
         r = rows[-1]
-        print(f"{name:26} {r['segments']:>9} {tp:>8.2f} {tc:>8.2f} {r['ratio']:>6.1f} {mem:>9.0f} {r['findings']:>8}")
+        print(f"{name:26} {r['segments']:>9} {tp:>8.2f} {tc:>8.2f} {ratio:>6.2f} {mem:>9.0f} {r['findings']:>8} {len(pairs):>5}")
     synth = [r for r in rows if r["case"].startswith("synthetic")]
     if len(synth) >= 2:
         xs = [math.log(r["segments"]) for r in synth]

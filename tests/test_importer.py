@@ -173,6 +173,7 @@ def test_layers_read_in_two_processes_match_one(tmp_path, monkeypatch):
         assert np.array_equal(a.segments, b.segments) and a.segment_net == b.segment_net
         assert [(shapely.to_wkb(p), n) for p, n, _ in a.regions] == [(shapely.to_wkb(p), n) for p, n, _ in b.regions]
     assert one.assumptions == two.assumptions
+    assert [d.holes.tolist() for d in one.drills] == [d.holes.tolist() for d in two.drills]
     (tmp_path / "top.gbr").write_text(gerber(SQUARE))
     (tmp_path / "bottom.gbr").write_text("%TF.FileFunction,Copper,L2,Bot*%\n%FSLAX46Y46*%\n%MOMM*%\n%ADD10C,0.2*%\n"
                                          "D10*\nX0Y0D02*\nG37*\nM02*\n")

@@ -519,16 +519,15 @@ def _first_drill_read(fab, text):
         return None, str(e)
 
 
-def parse_drill(fab, text, copper_region, notes, first=None):
+def parse_drill(fab, text, copper_region, notes):
     """Excellon via gerbonara; when the header is silent or the holes land off the board,
-    try the usual number formats and keep the one whose holes fall on the copper. first: the
-    file's first reading (_first_drill_read), when already done."""
+    try the usual number formats and keep the one whose holes fall on the copper."""
     def attempt(settings):
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             return ExcellonFile.from_string(text, settings=settings, filename=fab.name)
 
-    d, first_error = first if first is not None else _first_drill_read(fab, text)
+    d, first_error = _first_drill_read(fab, text)
     if d is not None:
         score = _inside_fraction(_drill_points(d), copper_region)
         if score >= 0.9 or len(d.objects) == 0 or copper_region is None:
@@ -661,31 +660,27 @@ def _copper_layer(fab, text, role, provisional, tol):
     return layer, notes
 
 
-def _copper_layers(by_name, texts, copper_roles, provisional, tol, want, per_layer=None, drills=()):
+def _copper_layers(by_name, texts, copper_roles, provisional, tol, want, per_layer=None):
     """Every copper layer, top to bottom, each passed to per_layer (when given) as soon as it is
-    built; and the first reading of each drill file in `drills` ({name: (ExcellonFile or None, error
-    message or None)}). The tasks are independent, so a large board's are done on both cores,
-    largest file first so the two processes finish together."""
+    built. The layers are independent, so a large board's are read on both cores, largest file
+    first so the two processes finish together. (Only shapely geometry and plain arrays come back
+    from the other process: gerbonara's objects compare units by identity, which pickling breaks.)"""
     size = sum(len(texts[name]) for name, _ in copper_roles)
     workers = forking.workers_for(want) if size >= PARALLEL_MIN_BYTES else 1
     order = sorted(range(len(copper_roles)), key=lambda k: -len(texts[copper_roles[k][0]]))
-    drills = list(drills)
 
     def task(j):
-        if j >= len(order):
-            name = drills[j - len(order)]
-            return _first_drill_read(by_name[name], texts[name])
         name, role = copper_roles[order[j]]
         layer, notes = _copper_layer(by_name[name], texts[name], role, provisional, tol)
         if per_layer is not None:
             per_layer(layer)
         return (_wkb_packed(layer) if forking.in_child else layer), notes
-    done = forking.fork_map(task, len(order) + len(drills), workers)
+    done = forking.fork_map(task, len(order), workers)
     out = [None] * len(order)
     for j, k in enumerate(order):
         layer, notes = done[j]
         out[k] = (_wkb_unpacked(layer) if isinstance(layer.regions, tuple) else layer), notes
-    return out, dict(zip(drills, done[len(order):]))
+    return out
 
 
 # geometry crosses between processes as WKB: pickling shapely objects one by one costs five times more
@@ -737,10 +732,8 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
                     break
         provisional = outline
         layers = []
-        drills = [name for name, role in roles.items() if role.kind == "drill"]
-        built, first_reads = _copper_layers(by_name, texts, copper_roles, provisional, chord_tol_mm, workers,
-                                            per_layer, drills)
-        for layer, layer_notes in built:
+        for layer, layer_notes in _copper_layers(by_name, texts, copper_roles, provisional, chord_tol_mm,
+                                                 workers, per_layer):
             layers.append(layer)
             notes.extend(layer_notes)
         if outline is None:
@@ -761,7 +754,7 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
         for name, role in roles.items():
             if role.kind == "drill":
                 f = by_name[name]
-                d, fmt = parse_drill(f, texts[name], region, notes, first_reads.get(name))
+                d, fmt = parse_drill(f, texts[name], region, notes)
                 drill, tool_plating = _guarded(name, build_drill, f, d, role, n, texts[name], fmt)
                 if drill.skipped:
                     notes.append(f"{name}: {drill.skipped} hole(s) given before any tool was selected were left out")
