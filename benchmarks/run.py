@@ -68,7 +68,7 @@ def run(code, *args):
 
 
 def main():
-    sizes = [int(x) for x in os.environ.get("BENCH_SIZES", "2500,10000,40000").split(",")]
+    sizes = [int(x) for x in os.environ.get("BENCH_SIZES", "2500,10000,40000,160000").split(",")]
     tmp = Path(tempfile.mkdtemp(prefix="returngap-bench-"))  # removed at the end
     subprocess.run([sys.executable, str(HERE / "make_boards.py"), str(tmp), *map(str, sizes)], check=True,
                    capture_output=True)

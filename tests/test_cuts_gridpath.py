@@ -96,3 +96,27 @@ def test_no_way_through_a_closed_wall():
     outline = shapely.box(-5, -5, 5, 5)
     plane = _Plane(outline, [shapely.box(-0.1, -6, 0.1, 6)])
     assert window_path(outline, plane.voids, shapely.Point(-1, 0), shapely.Point(1, 0), 5, plane.passable) is None
+
+
+# a large gap (thousands of edges): a wavy disc with wavy holes, as big pour voids are
+_T = np.linspace(0, 2 * np.pi, 3000, endpoint=False)
+_WAVY = shapely.Polygon(np.column_stack([(20 + np.sin(40 * _T)) * np.cos(_T), (20 + np.sin(40 * _T)) * np.sin(_T)]),
+                        [np.column_stack([cx + (3 + 0.3 * np.sin(25 * _T[::5])) * np.cos(_T[::5]),
+                                          cy + (3 + 0.3 * np.sin(25 * _T[::5])) * np.sin(_T[::5])])
+                         for cx, cy in ((-8, 0), (8, 3), (0, -10))])
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.floats(-25, 25), st.floats(-25, 25), st.floats(0, 2 * math.pi))
+def test_cut_through_a_large_gap_from_its_nearby_edges_alone(x, y, angle):
+    """The edges a large gap's tree finds near a line give the same pieces of that line as all its
+    edges do (the shortcut the slot extents take)."""
+    from returngap.detector import Void
+    void = Void(_WAVY, True, 0)
+    assert len(void.edges) >= 2000
+    u = (math.cos(angle), math.sin(angle))
+    near = void.edges_by(np.array([x, y]), np.array(u), 100.0)
+    assert len(near) < len(void.edges)
+    k, t1, t2 = cut_intervals(near, [(x, y)], [u], -100.0, 100.0)
+    k0, s1, s2 = cut_intervals(void.edges, [(x, y)], [u], -100.0, 100.0)
+    assert t1.tolist() == pytest.approx(s1.tolist(), abs=1e-9) and t2.tolist() == pytest.approx(s2.tolist(), abs=1e-9)

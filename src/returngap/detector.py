@@ -44,6 +44,33 @@ class Void:
     def edges(self):
         return ring_edges(self.geom)
 
+    def edges_by(self, m, u, reach):
+        """Its edges that can meet the line m + t u, |t| <= reach (which starts and ends off the
+        void): all of them for a small void; for a large one those whose boxes meet short pieces of
+        the stretch of line inside its box, from a tree of its edges (a single cut through all the
+        edges of a large void costs more than the lookup)."""
+        if len(self.edges) < 2000:
+            return self.edges
+        x0, y0, x1, y1 = self.geom.bounds
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):  # the stretch of line in the box
+            ta = np.where(u != 0, (np.array([x0, y0]) - m) / u, -np.inf)
+            tb = np.where(u != 0, (np.array([x1, y1]) - m) / u, np.inf)
+        inside = (u != 0) | ((m >= (x0, y0)) & (m <= (x1, y1)))
+        if not inside.all():
+            return self.edges[:0]
+        lo, hi = np.minimum(ta, tb).max() - 1e-3, np.maximum(ta, tb).min() + 1e-3
+        if lo > hi:
+            return self.edges[:0]
+        tree = self.__dict__.get("_edge_tree")
+        if tree is None:
+            tree = self.__dict__["_edge_tree"] = shapely.STRtree(
+                shapely.linestrings(self.edges.reshape(-1, 2, 2)))
+        t = np.linspace(lo, hi, max(2, int((hi - lo) / 2.0) + 2))  # pieces about 2 mm long
+        a, b = m + t[:-1, None] * u, m + t[1:, None] * u
+        # each piece's box, a hair larger: an edge through a piece's end is found from both sides
+        boxes = shapely.box(*(np.minimum(a, b) - 1e-6).T, *(np.maximum(a, b) + 1e-6).T)
+        return self.edges[np.unique(tree.query(boxes)[1])]
+
     @functools.cached_property
     def rings(self):
         """Its rings (outer first) as LineStrings, and a tree of them."""
@@ -217,7 +244,10 @@ def _extent_across(void, mid, direction, reach):
     from the piece of the line inside the void that reaches mid (0, 0, mid, mid if none does)."""
     u = np.asarray(direction, dtype=float)
     m = np.asarray(mid, dtype=float)
-    _, t1, t2 = cut_intervals(void.edges, m, u, -reach, reach)
+    try:
+        _, t1, t2 = cut_intervals(void.edges_by(m, u, reach), m, u, -reach, reach)
+    except ValueError:  # an odd count of crossings: an edge missed at a rounding boundary
+        _, t1, t2 = cut_intervals(void.edges, m, u, -reach, reach)
     gap = np.maximum(0.0, np.maximum(t1, -t2))  # each piece's distance from mid
     if not len(gap) or gap.min() >= 1e-3:
         return 0.0, 0.0, mid, mid
@@ -385,7 +415,7 @@ def gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of):
         shapely.prepare(board.outline)  # shared by the threads: prepared once, beforehand
         with ThreadPoolExecutor(2) as pool:
             list(pool.map(scan.copper, sorted({r for ch in chains for r in ch.footprints})))
-    n = workers * 8  # many small slices: the pool balances uneven chains
+    n = workers * 16  # many small slices, taken in turn: uneven chains balance out
     tasks = [functools.partial(_scan_slice, scan, chains, plane_nets_of, k, n) for k in range(n)]
 
     def combine(parts):
