@@ -79,6 +79,25 @@ def test_stroke_fill_pour_is_solid(tmp_path):
     assert layer.geometry.area > 10 * 10.25  # solid: no gaps between the strokes
 
 
+def test_thin_stroke_beside_a_wide_one_keeps_its_own_resolution(tmp_path):
+    # a 0.5 mm and a 2 mm track drawn in one run; each round end is a half circle of its own radius
+    # whose chords stay within the 1 um tolerance (sagitta r(1 - cos(step/2)), plane geometry) and
+    # are not finer than it needs (two steps merged would still be within tolerance otherwise)
+    body = ("%ADD10C,2.000000*%\n%ADD11C,0.500000*%\nD10*\nX0Y0D02*\nX10000000Y0D01*\n"
+            "D11*\nX0Y5000000D02*\nX10000000Y5000000D01*")
+    layer = one_layer(tmp_path, body)
+    tol = 1e-3
+    for r, y in ((1.0, 0.0), (0.25, 5.0)):
+        piece = next(p for p in layer.pieces if p.contains(shapely.Point(5, y)))
+        assert piece.area == pytest.approx(2 * r * 10 + math.pi * r * r, abs=piece.length * tol)  # capsule
+        xy = shapely.get_coordinates(piece.exterior)[:-1]
+        on_end = abs(((xy[:, 0] - 10) ** 2 + (xy[:, 1] - y) ** 2) ** 0.5 - r) < 1e-6
+        cap = xy[(xy[:, 0] > 10 + 1e-9) & on_end]  # the right-hand end's half circle
+        ang = sorted(math.atan2(py - y, px - 10) for px, py in cap)
+        step = max(b - a for a, b in zip(ang, ang[1:]))
+        assert r * (1 - math.cos(step / 2)) <= tol * 1.01
+        assert r * (1 - math.cos(step)) > tol or step >= math.pi / 8 - 1e-9  # at least 4 per quarter
+
 def test_net_names_are_unescaped(tmp_path):
     body = "%TO.N,/HDMI\\u002C LCD/VDD33*%\n%ADD10C,0.2*%\nD10*\nX0Y0D02*\nX1000000Y0D01*"
     assert one_layer(tmp_path, body).segment_net == ["/HDMI, LCD/VDD33"]

@@ -5,6 +5,7 @@ the Gerber job file's FilesAttributes, the user's mapping in the stackup file, t
 gerbonara's file-name recognition. Disagreements are reported as assumptions.
 """
 
+import functools
 import json
 import math
 import re
@@ -313,6 +314,7 @@ def build_layer(fab, g, role, outline, tol):
 
     flash_at = []                   # pending (shape, x, y) of the current run, placed together
     ap_info = {}                    # id(aperture) -> (width, round, function); apertures outlive the loop
+    quad_segs_of = functools.cache(lambda r: shapes.quad_segs_for(float(r), tol))
 
     def flush_round():
         if flash_at:
@@ -322,8 +324,14 @@ def build_layer(fab, g, role, outline, tol):
             lines = shapely.linestrings([c for c, _ in round_lines]) if len({len(c) for c, _ in round_lines}) == 1 \
                 else np.array([shapely.LineString(c) for c, _ in round_lines], dtype=object)
             radii = np.array([r for _, r in round_lines])
-            q = shapes.quad_segs_for(float(radii.max()), tol)
-            runs[-1][1].extend(shapely.buffer(lines, radii, quad_segs=q))
+            # each stroke as finely as its own radius needs: a thin one batched with a wide one would
+            # otherwise get the wide one's many segments at every bend
+            qs = np.array([quad_segs_of(r) for r in radii])
+            out = np.empty(len(radii), dtype=object)
+            for q in np.unique(qs):
+                at = np.flatnonzero(qs == q)
+                out[at] = shapely.buffer(lines[at], radii[at], quad_segs=int(q))
+            runs[-1][1].extend(out)
             round_lines.clear()
 
     Line, Arc, Flash, Region = go.Line, go.Arc, go.Flash, go.Region
@@ -504,7 +512,11 @@ def _inside_fraction(pts, region):
     """Share of points on copper; region is an STRtree of copper pieces."""
     if len(pts) == 0 or region is None or not len(region.geometries):
         return 0.0
-    hit = region.query(shapely.points(pts), predicate="intersects")[0]
+    # box hits first, then one vectorised test of those pairs: the query's own predicate prepares
+    # every large pour it meets, at several times the cost
+    p = shapely.points(pts)
+    at, on = region.query(p)
+    hit = at[shapely.intersects(p[at], region.geometries.take(on))]
     return float(len(np.unique(hit)) / len(pts))
 
 
