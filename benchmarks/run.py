@@ -2,7 +2,7 @@
 
 Each measurement runs in its own process; reported per case: both times, their ratio, peak memory
 of the check, and the fitted scaling exponent of the check time against segment count. The two
-sides run in turns, a parse then a check, at least three pairs and up to seven (fewer of the long
+sides run in turns, a parse then a check, at least five pairs and up to nine (fewer of the long
 cases); the ratio is the median of the pairs' own ratios and each time the median of its side. On a
 shared machine a run's speed drifts by a third within seconds: a pair, run back to back, shares
 the drift, where the best of each side may come from different moments. Each case starts with one
@@ -84,7 +84,7 @@ def main():
         pairs, mem, spent = [], 0.0, 0.0
         run(PARSE, path)  # a pair unmeasured first: files into the page cache, both sides warmed alike
         run(CHECK, path, stack or "")
-        while len(pairs) < 3 or (len(pairs) < 7 and spent < 30.0):
+        while len(pairs) < 5 or (len(pairs) < 9 and spent < 60.0):
             tp = float(run(PARSE, path)[0])
             t, segs, nf, m = run(CHECK, path, stack or "")
             pairs.append((tp, float(t)))
