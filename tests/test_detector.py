@@ -154,6 +154,25 @@ def test_two_processes_give_the_same_findings(tmp_path, monkeypatch):
     assert len(one) > 5 and one == two
 
 
+def test_threads_or_none_give_the_same_findings(monkeypatch):
+    """The per-layer work done in two threads (a large board) or in order in one (a small board)
+    gives the same findings, in the same order."""
+    from pathlib import Path
+    from returngap import forking
+    demo = Path(__file__).resolve().parents[1] / "examples" / "demo-board"
+    stack = demo / "stackup.toml"
+    monkeypatch.setattr(forking, "THREADS_MIN_SEGMENTS", 10 ** 9)
+    started = []
+    real_pool = forking.ThreadPoolExecutor
+    monkeypatch.setattr(forking, "ThreadPoolExecutor", lambda n: started.append(n) or real_pool(n))
+    alone = run_check(demo, stack, settings=Settings(workers=1)).findings
+    assert not started
+    monkeypatch.setattr(forking, "THREADS_MIN_SEGMENTS", 0)
+    threaded = run_check(demo, stack, settings=Settings(workers=1)).findings
+    assert len(started) >= 3, "the threaded path did not run"
+    assert len(alone) > 5 and alone == threaded
+
+
 def test_geos_failure_on_a_gap_is_retried_on_a_snapped_outline(monkeypatch):
     """A GEOS topology error on one gap's outline does not end the check: the crossing is measured
     again on the outline snapped to a 1 nm grid and reported as before."""

@@ -9,13 +9,13 @@ import fnmatch
 import re
 import weakref
 from collections import Counter, defaultdict
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 import networkx as nx
 import numpy as np
 import shapely
 
+from . import forking
 from .shapes import disjoint_union, intersects_pairs, touch_components
 
 GROUND_RE = re.compile(r"^(?:[ADPSCH]?GND\w*|GND\w*|VSS\w*|0V|EARTH|CHASSIS|GROUND\w*|\w*_GND|\w*GND)$", re.I)
@@ -303,7 +303,8 @@ def build_nets(board, user_cfg=None):
     g = nx.Graph()
     per_layer = {}
     votes = defaultdict(Counter)
-    with ThreadPoolExecutor(2) as pool:  # shapely's vectorised calls release the GIL: both cores
+    size = forking.board_segments(board)
+    with forking.two_threads(size) as pool:  # shapely's vectorised calls release the GIL: both cores
         found = list(pool.map(_layer_islands, board.copper))
     for li, (layer, (piece_island, tree, seg_isl, fl_isl, reg_isl, count, pairs)) in \
             enumerate(zip(board.copper, found)):
@@ -414,7 +415,7 @@ def build_nets(board, user_cfg=None):
         layer._area_of = ln.island_areas  # the layer's copper area, when a report asks for it
         return {ln.island_net[i] for i in np.flatnonzero(upper >= limit)
                 if lower[i] >= limit or ln.island_area(int(i)) >= limit}
-    with ThreadPoolExecutor(2) as pool:
+    with forking.two_threads(size) as pool:
         big = set().union(*pool.map(finish, range(len(board.copper))))
     notes = []
     if not any(c == "ground" for c in net_class.values()) and any(ln.n_islands for ln in layers.values()):
@@ -432,7 +433,7 @@ def build_nets(board, user_cfg=None):
         def areas(ln):  # each layer's candidate islands unioned in one call (in two threads)
             idx = [i for i, n in enumerate(ln.island_net) if upper[n] >= best]
             return [(ln.island_net[i], a) for i, a in zip(idx, shapely.area(ln.island_polygons(idx)))]
-        with ThreadPoolExecutor(2) as pool:
+        with forking.two_threads(size) as pool:
             for found in pool.map(areas, layers.values()):
                 for n, a in found:
                     area_by_net[n] += a

@@ -12,7 +12,6 @@ the layer-change and plane-edge checks.
 import functools
 import hashlib
 import math
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -397,7 +396,8 @@ def chain_plane_nets(nets, chains):
             by_ref.setdefault(r, []).append(i)
     def one(r):
         return majority_nets(nets.layers[r], nets.plane_nets, [chains[i].line for i in by_ref[r]])
-    with ThreadPoolExecutor(2) as pool:  # shapely lets go of the GIL in the tree queries
+    size = sum(len(ch.line.coords) - 1 for ch in chains)  # the tracks' segments, about
+    with forking.two_threads(size) as pool:  # shapely lets go of the GIL in the tree queries
         for r, found in zip(by_ref, pool.map(one, by_ref)):
             for i, n in zip(by_ref[r], found):
                 out[i][r] = n
@@ -413,7 +413,7 @@ def gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of):
     workers = _auto_workers(settings, len(chains))
     if workers > 1:  # built once here (in two threads: shapely lets go of the GIL), shared by fork
         shapely.prepare(board.outline)  # shared by the threads: prepared once, beforehand
-        with ThreadPoolExecutor(2) as pool:
+        with forking.two_threads(forking.board_segments(board)) as pool:
             list(pool.map(scan.copper, sorted({r for ch in chains for r in ch.footprints})))
     n = workers * 16  # many small slices, taken in turn: uneven chains balance out
     tasks = [functools.partial(_scan_slice, scan, chains, plane_nets_of, k, n) for k in range(n)]

@@ -7,9 +7,11 @@ import os
 import pickle
 import struct
 import threading
+from concurrent.futures import ThreadPoolExecutor
 
 _PR_SET_PDEATHSIG = 1
 MAX_SHARED_TASKS = 4096  # the queue's numbers must fit a pipe's buffer (64 KiB on Linux) at once
+THREADS_MIN_SEGMENTS = 10_000  # below this two threads wait on each other's Python more than they gain
 in_child = False  # True in a forked child: what a task returns there is pickled back to the parent
 
 
@@ -20,6 +22,32 @@ def workers_for(want=0):
     if want < 2 or threading.active_count() > 1 or not hasattr(os, "fork"):
         return 1
     return want
+
+
+class _InOrder:
+    """Stands in for a thread pool on a small board: the same calls, done here one after another."""
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        return False
+
+    def map(self, fn, *items):
+        return map(fn, *items)
+
+
+def board_segments(board):
+    """Track segments on all of a board's copper: the measure of its size for two_threads."""
+    return sum(len(c.segments) for c in board.copper)
+
+
+def two_threads(segments):
+    """A pool of two threads for work on `segments` track segments' worth of geometry (shapely lets
+    go of the GIL in its vectorised calls), or, below THREADS_MIN_SEGMENTS, a stand-in that does the
+    same work in this thread: on a small board the threads' turns at the interpreter cost more than
+    the second core gives (a 2,500-segment board checks about a tenth faster without them)."""
+    return ThreadPoolExecutor(2) if segments >= THREADS_MIN_SEGMENTS else _InOrder()
 
 
 def fork_map(task, n, workers):

@@ -5,10 +5,9 @@ Floats are rounded to fixed decimals so that the same input gives byte-identical
 
 import json
 import math
-from concurrent.futures import ThreadPoolExecutor
 from importlib import resources
 
-from . import __version__
+from . import __version__, forking
 
 DISCLAIMER = ("Estimates for engineering review, from closed-form models; they do not replace field "
               "solving, the board's own EMC test results or the applicable standards.")
@@ -33,7 +32,7 @@ def clean(value):
 
 def board_summary(board, nets=None):
     st = board.stackup
-    with ThreadPoolExecutor(2) as pool:  # the layers' island unions release the GIL: both cores
+    with forking.two_threads(forking.board_segments(board)) as pool:  # island unions let go of the GIL
         list(pool.map(lambda c: c.copper_area_mm2, board.copper))
     heights = []
     names = [c.name for c in board.copper]
