@@ -98,6 +98,7 @@ def test_thin_stroke_beside_a_wide_one_keeps_its_own_resolution(tmp_path):
         assert r * (1 - math.cos(step / 2)) <= tol * 1.01
         assert r * (1 - math.cos(step)) > tol or step >= math.pi / 8 - 1e-9  # at least 4 per quarter
 
+
 def test_net_names_are_unescaped(tmp_path):
     body = "%TO.N,/HDMI\\u002C LCD/VDD33*%\n%ADD10C,0.2*%\nD10*\nX0Y0D02*\nX1000000Y0D01*"
     assert one_layer(tmp_path, body).segment_net == ["/HDMI, LCD/VDD33"]

@@ -475,19 +475,12 @@ def _hull_detour(rc, pa, pb, gap_hull):
             q = min(shapely.get_coordinates(out), key=lambda c: float(np.hypot(*(c - p)))) + u * STEP_OFF_MM
             lead[k] = p.copy()
             ends[k] = q
-    hull = shapely.convex_hull(shapely.multipoints(np.vstack([shapely.get_coordinates(gap_hull), ends])))
-    if hull.geom_type != "Polygon":
-        return None, None
-    ring = shapely.get_coordinates(hull.exterior)[:-1]
-    ia = np.flatnonzero(np.hypot(*(ring - ends[0]).T) < 1e-9)
-    ib = np.flatnonzero(np.hypot(*(ring - ends[1]).T) < 1e-9)
-    if not len(ia) or not len(ib):
+    found = _hull_ring(ends, shapely.get_coordinates(gap_hull))
+    if found is None:
         return None, None  # an end inside the hull (a pocket of the gap): no taut way round it
-    ia, ib = int(ia[0]), int(ib[0])
-    n = len(ring)
     ways = []
     for step in (1, -1):
-        c = ring[(ia + step * np.arange((step * (ib - ia)) % n + 1)) % n]
+        c = _ring_walk(*found, step)
         if lead[0] is not None:
             c = np.vstack([lead[0], c])
         if lead[1] is not None:
@@ -554,23 +547,39 @@ def _chain_detour(rc, void, pa, pb):
 def _hull_arc(ends, pts):
     """The way from ends[0] to ends[1] along the convex hull of them and pts, round pts: (length,
     points), or None where the straight line between the ends is not an edge of that hull."""
+    found = _hull_ring(ends, pts)
+    if found is None:
+        return None
+    ring, ia, ib = found
+    n = len(ring)
+    if (ib - ia) % n == 1:  # the direct edge runs forwards: the way round goes backwards
+        c = _ring_walk(ring, ia, ib, -1)
+    elif (ia - ib) % n == 1:
+        c = _ring_walk(ring, ia, ib, 1)
+    else:
+        return None
+    return float(np.hypot(*np.diff(c, axis=0).T).sum()), c
+
+
+def _hull_ring(ends, pts):
+    """The convex hull of the two ends and pts, as its ring's points (the closing one aside), with
+    the positions of the two ends on it; None where the hull is not a polygon or an end is not on
+    its ring (it lies inside)."""
     hull = shapely.convex_hull(shapely.multipoints(np.vstack([ends, pts])))
     if hull.geom_type != "Polygon":
         return None
     ring = shapely.get_coordinates(hull.exterior)[:-1]
-    n = len(ring)
-    ia = np.flatnonzero((ring == ends[0]).all(axis=1))
-    ib = np.flatnonzero((ring == ends[1]).all(axis=1))
+    ia = np.flatnonzero(np.hypot(*(ring - ends[0]).T) < 1e-9)
+    ib = np.flatnonzero(np.hypot(*(ring - ends[1]).T) < 1e-9)
     if not len(ia) or not len(ib):
         return None
-    ia, ib = int(ia[0]), int(ib[0])
-    if (ib - ia) % n == 1:  # the direct edge runs forwards: the way round goes backwards
-        c = ring[(ia - np.arange((ia - ib) % n + 1)) % n]
-    elif (ia - ib) % n == 1:
-        c = ring[(ia + np.arange((ib - ia) % n + 1)) % n]
-    else:
-        return None
-    return float(np.hypot(*np.diff(c, axis=0).T).sum()), c
+    return ring, int(ia[0]), int(ib[0])
+
+
+def _ring_walk(ring, ia, ib, step):
+    """The ring's points from position ia to ib, both included, going forwards (step 1) or back (-1)."""
+    n = len(ring)
+    return ring[(ia + step * np.arange((step * (ib - ia)) % n + 1)) % n]
 
 
 def _local_geodesic(rc, pa, pb, void_pos, hw):

@@ -520,17 +520,6 @@ def _inside_fraction(pts, region):
     return float(len(np.unique(hit)) / len(pts))
 
 
-def _first_drill_read(fab, text):
-    """gerbonara's reading of a drill file as it declares itself: (ExcellonFile or None, the error
-    message or None)."""
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            return ExcellonFile.from_string(text, filename=fab.name), None
-    except Exception as e:
-        return None, str(e)
-
-
 def parse_drill(fab, text, copper_region, notes):
     """Excellon via gerbonara; when the header is silent or the holes land off the board,
     try the usual number formats and keep the one whose holes fall on the copper."""
@@ -539,7 +528,12 @@ def parse_drill(fab, text, copper_region, notes):
             warnings.simplefilter("ignore")
             return ExcellonFile.from_string(text, settings=settings, filename=fab.name)
 
-    d, first_error = _first_drill_read(fab, text)
+    first_error = None
+    d = None
+    try:
+        d = attempt(None)
+    except Exception as e:
+        first_error = e
     if d is not None:
         score = _inside_fraction(_drill_points(d), copper_region)
         if score >= 0.9 or len(d.objects) == 0 or copper_region is None:
@@ -561,7 +555,7 @@ def parse_drill(fab, text, copper_region, notes):
             best, best_score = cand, sc
             best_desc = f"{unit} {nf[0]}.{nf[1]} with {zeros} zeros omitted"
     if best is None:
-        msg = first_error or "no holes found"
+        msg = str(first_error) if first_error else "no holes found"
         m = re.match(r".*?:(\d+) \"(.*?)\": (.*)", msg, re.S)
         line = int(m.group(1)) if m else None
         reason = m.group(3) if m else msg
