@@ -15,6 +15,7 @@ MAPS = ROOT / "testdata" / "corpus-maps"
 BOARDS = {
     "a20-olinuxino-lime2-k2": ("a20-olinuxino-lime2-k2", MAPS / "a20-olinuxino-lime2-k2.toml", 8),
     "limesdr-usb-1v4": ("limesdr-usb-1v4", None, 12),
+    "limesdr-micro-m2-1v2": ("limesdr-micro-m2-1v2", None, 8),
     "mch2022-badge": ("mch2022-badge", None, 4),
     "parallella-buddy-rev1": ("parallella-buddy-rev1/extracted", MAPS / "parallella-buddy-rev1.toml", 14),
     "poe-gpib-adapter": ("poe-gpib-adapter", None, 6),
@@ -61,9 +62,42 @@ def test_layer_order_follows_the_files_own_attributes(loaded, slug):
         assert int(X2.search(text).group(1)) == int(c.name[1:]), c.file
 
 
+def test_outline_is_the_board_not_its_frame_or_drawing_sheet(loaded):
+    """GM6 holds the 80 x 22 mm M.2 outline joined by tabs to a break-away frame; GM1 a drawing sheet
+    (shared/corpus/INDEX.md, item 13)."""
+    b = loaded("limesdr-micro-m2-1v2")
+    x0, y0, x1, y1 = b.outline.bounds
+    assert (round(x1 - x0, 2), round(y1 - y0, 2)) == (80.0, 22.0)
+    assert b.outline.area == pytest.approx(1743, abs=3) and b.outline_file.endswith(".GM6")
+
+
+def test_blind_via_span_comes_from_the_layer_pair_file(loaded):
+    """.LDP: the .TX1 file spans g4..gbl = L5-L8 (INDEX.md item 12); its holes land on L5 and L8 pads."""
+    b = loaded("limesdr-micro-m2-1v2")
+    spans = {d.file.rsplit(".", 1)[1]: (d.from_layer, d.to_layer, d.plating) for d in b.drills}
+    assert spans == {"TX1": (5, 8, "plated"), "TXT": (1, 8, "mixed")}
+    tx1 = next(d for d in b.drills if d.file.endswith(".TX1"))
+    assert tx1.hole_count == 124 and "layer-pair file" in tx1.span_source
+    txt = next(d for d in b.drills if d.file.endswith(".TXT"))
+    assert int((~txt.hole_plated).sum()) == 8  # the 0.8 mm NPTH tool (INDEX.md; .DRR)
+
+
+def test_altium_drill_spans_and_plating_are_reported(loaded):
+    b = loaded("limesdr-usb-1v4")
+    assert all((d.from_layer, d.to_layer) == (1, 12) and "layer-pair file" in d.span_source for d in b.drills)
+    round_holes = next(d for d in b.drills if "RoundHoles" in d.file)
+    assert round_holes.plating == "mixed" and round_holes.plating_source == "tool sections"
+
+
+@pytest.mark.parametrize("slug", sorted(BOARDS))
+def test_no_corpus_board_is_incomplete(loaded, slug):
+    assert not loaded(slug).problems
+
+
 def test_job_file_contradiction_is_reported(loaded):
     b = loaded("poe-gpib-adapter")
     assert any("job file says 'Copper,L5,Inr'" in a and "In1_Cu" in a for a in b.assumptions)
+    assert not b.problems  # the job file's numbering is wrong, its layer count is right
 
 
 def test_job_file_stackup_is_used(loaded):

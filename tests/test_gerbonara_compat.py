@@ -67,7 +67,7 @@ def test_excellon_x2_comment_sets_plating(tmp_path):
     text = "M48\n; #@! TF.FileFunction,NonPlated,1,4,NPTH\nMETRIC\nT1C1.000\n%\nG90\nT1\nX1.0Y1.0\nM30\n"
     role = importer.role_from_function(importer.X2_FUNC_RE.search(text).group(1))
     d = ExcellonFile.from_string(text)
-    drill, _ = importer.build_drill(type("F", (), {"name": "x.drl"})(), d, role, 4, text, "")
+    drill, _ = importer.build_drill(type("F", (), {"name": "x.drl"})(), d, role, 4, text, "", role.span, "X2")
     assert drill.plated is False and (drill.from_layer, drill.to_layer) == (1, 4)
 
 

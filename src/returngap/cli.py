@@ -13,7 +13,7 @@ from pathlib import Path
 import click
 
 from . import __version__, forking, report
-from .errors import InputError
+from .errors import IncompleteError, InputError
 
 
 
@@ -24,6 +24,12 @@ def _run(ctx, fn):
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             return fn()
+    except IncompleteError as e:  # the completeness gate: one line per problem
+        for p in e.problems:
+            click.echo(f"returngap: incomplete: {p}", err=True)
+        click.echo("returngap: board refused: its data is incomplete (--allow-incomplete gives a partial "
+                   "answer with these stated as assumptions)", err=True)
+        sys.exit(2)
     except InputError as e:
         click.echo(f"returngap: error: {e}", err=True)
         if debug:
@@ -71,6 +77,7 @@ def layers(ctx, board, stackup_file, as_json):
     def go():
         b, cfg = pipeline.load(list(board), stackup_file)
         rep = report.layers_report(b, connectivity.build_nets(b, cfg))
+        rep["problems"] = [str(p) for p in b.problems]
         click.echo(report.to_json(rep) if as_json else report.layers_text(rep), nl=not as_json)
     _run(ctx, go)
 
@@ -129,9 +136,11 @@ def write_outputs(result, rep, out_dir, fail_on, quiet=True):
 @click.option("--new-only", is_flag=True, help="With --baseline: only new findings count for --fail-on.")
 @click.option("--limit", type=click.IntRange(min=1), default=40, show_default=True, help="Rows in the printed table.")
 @click.option("--quiet", "-q", is_flag=True, help="Print only the summary line.")
+@click.option("--allow-incomplete", is_flag=True,
+              help="Go on when the board data is incomplete, stating each problem (the run's status says so).")
 @click.pass_context
 def check(ctx, board, stackup_file, rise_ns, max_ghz, net_globs, json_file, out_dir, waiver_file, baseline_file,
-          baseline_tolerance, fail_on, new_only, limit, quiet):
+          baseline_tolerance, fail_on, new_only, limit, quiet, allow_incomplete):
     """Find where return current must detour around slots, splits and voids."""
     from . import pipeline, review
     from .projector import Settings
@@ -140,7 +149,7 @@ def check(ctx, board, stackup_file, rise_ns, max_ghz, net_globs, json_file, out_
         raise click.UsageError("give --rise-time or --max-freq, not both")
     if new_only and not baseline_file:
         raise click.UsageError("--new-only needs --baseline")
-    settings = Settings(nets=tuple(net_globs))
+    settings = Settings(nets=tuple(net_globs), allow_incomplete=allow_incomplete)
     if rise_ns:
         settings.rise_time_ns = rise_ns
     if max_ghz:
@@ -163,6 +172,9 @@ def check(ctx, board, stackup_file, rise_ns, max_ghz, net_globs, json_file, out_
             click.echo(report.findings_table(rep, limit))
             for w in (rep.get("waivers") or {}).get("stale", []):
                 click.echo(f"stale waiver #{w['waiver']} ({w.get('by')}): matches no finding", err=True)
+        block = report.notes_block(rep, quiet)
+        if block:
+            click.echo(block)
         click.echo(report.summary_line(rep))
         bad = report.FAIL_LEVELS[fail_on]
         counted = [f for f in rep["findings"] if f["severity"] in bad and not f.get("waiver")

@@ -153,6 +153,7 @@ class Nets:
     plane_nets: set
     hole_net: dict                    # (drill file, hole index) -> net
     notes: list = field(default_factory=list)
+    conflicts: list = field(default_factory=list)   # NetConflict: one piece of copper, two net labels
 
     def is_signal(self, net):
         return self.net_class.get(net, "signal") == "signal"
@@ -161,11 +162,9 @@ class Nets:
         """(x, y, radius, net, from, to) of every plated round hole whose net is known."""
         out = []
         for d in board.drills:
-            if not d.plated:
-                continue
             for k, h in enumerate(d.holes):
                 net = self.hole_net.get((d.file, k))
-                if net:
+                if net and d.hole_plated[k]:
                     out.append((h[0], h[1], h[2] / 2, net, d.from_layer, d.to_layer))
         return out
 
@@ -234,6 +233,70 @@ def _fill_segments(layer, ln, seg_isl, pairs):
             isl_area = ln.island_area(int(i))
             fill_island[i] = per_island[i] > FILL_OVERLAP * isl_area and isl_area > 2.0
     return fill_island[seg_isl]
+
+
+@dataclass
+class NetConflict:
+    """Copper joined into one net (touching, or through a plated hole) that carries another net's
+    label too: a short in the released data, or a label the writer got wrong."""
+
+    net: str                  # the label most of the copper carries
+    other: str                # the other label
+    layer: str                # where the other label's copper joins it
+    x: float
+    y: float
+    labels: int               # how many objects carry the other label there
+    part: str | None = None   # a part whose own pads carry both labels there (a net tie, a jumper)
+
+
+def _labelled_point(board, li, island, name, per_layer):
+    """Where on an island an object carries the given label: a flash, a stroke or a region."""
+    layer = board.copper[li]
+    piece_island, _, seg_isl, fl_isl, _, _ = per_layer[layer.name]
+    for k, (n, i) in enumerate(zip(layer.flash_net, fl_isl)):
+        if n == name and i == island:
+            return float(layer.flashes[k, 0]), float(layer.flashes[k, 1])
+    for k, (n, i) in enumerate(zip(layer.segment_net, seg_isl)):
+        if n == name and i == island:
+            s = layer.segments[k]
+            return float((s[0] + s[2]) / 2), float((s[1] + s[3]) / 2)
+    c = layer.islands_found[3] if getattr(layer, "islands_found", None) else []
+    for (poly, n, _), i in zip(layer.regions, c):
+        if n == name and i == island:
+            p = poly.representative_point()
+            return p.x, p.y
+    return None
+
+
+def _tie_part(board, comp, per_layer, a, b):
+    """A part with a pad on each label on one island (its pads joined by copper right there: a net
+    tie or a jumper)."""
+    for li, island in comp:
+        layer = board.copper[li]
+        fl_isl = per_layer[layer.name][3]
+        parts = {a: set(), b: set()}
+        for n, i, part in zip(layer.flash_net, fl_isl, layer.flash_part):
+            if part and i == island and n in parts:
+                parts[n].add(part[0])
+        both = sorted(parts[a] & parts[b])
+        if both:
+            return both[0]
+    return None
+
+
+def _conflicts(board, comp, votes, per_layer, name, tally):
+    """One NetConflict per other label in a component: at the island where that label is strongest."""
+    out = []
+    for other in sorted(n for n in tally if n != name):
+        li, island = max((node for node in comp if votes.get(node, {}).get(other)),
+                         key=lambda node: (votes[node][other], -node[0], -node[1]))
+        at = _labelled_point(board, li, island, other, per_layer)
+        if at is None:  # a netlist point only
+            b = shapely.bounds(board.copper[li].pieces[per_layer[board.copper[li].name][0] == island])
+            at = (float((b[:, 0].min() + b[:, 2].max()) / 2), float((b[:, 1].min() + b[:, 3].max()) / 2))
+        out.append(NetConflict(name, other, board.copper[li].name, at[0], at[1], int(votes[(li, island)][other]),
+                               _tie_part(board, comp, per_layer, name, other)))
+    return out
 
 
 def classify(names, user_cfg):
@@ -337,9 +400,11 @@ def build_nets(board, user_cfg=None):
             layer_pieces = board.copper[li].pieces
             centres = shapely.points(drill.holes[:, :2])
             tied[li].update(piece_island[touching(tree, layer_pieces, centres)[1]].tolist())
-            if not drill.plated:
+            plated = np.concatenate([drill.hole_plated, drill.slot_plated])
+            if not plated.any():
                 continue
             q = touching(tree, layer_pieces, geoms)
+            q = q[:, plated[q[0]]]  # non-plated holes join nothing
             for h, isl in zip(q[0], piece_island[q[1]]):
                 if not hits[h] or hits[h][-1] != (li, int(isl)):
                     hits[h].append((li, int(isl)))
@@ -348,8 +413,11 @@ def build_nets(board, user_cfg=None):
             for a, b in zip(nodes[:-1], nodes[1:]):
                 g.add_edge(a, b)
 
+    last = len(board.copper) - 1
     for p in board.netlist:
-        for li in (0, len(board.copper) - 1):
+        # a point votes on the side the netlist says it is reached from (both: a through-hole pad)
+        sides = (0, last) if p.layers is None else ((0,) if p.layers[0] == 1 else (last,))
+        for li in sides:
             piece_island, tree, _, _, count, _ = per_layer[board.copper[li].name]
             if not count:
                 continue
@@ -360,6 +428,7 @@ def build_nets(board, user_cfg=None):
     comps = sorted((sorted(c) for c in nx.connected_components(g)), key=lambda c: c[0])
     node_net = {}
     unnamed = []
+    conflicts = []
     for comp in comps:
         tally = Counter()
         for node in comp:
@@ -368,6 +437,8 @@ def build_nets(board, user_cfg=None):
             name = min(tally.items(), key=lambda kv: (-kv[1], kv[0]))[0]
             for node in comp:
                 node_net[node] = name
+            if len(tally) > 1:
+                conflicts.extend(_conflicts(board, comp, votes, per_layer, name, tally))
         else:
             unnamed.append(comp)
     layers = {}
@@ -450,4 +521,4 @@ def build_nets(board, user_cfg=None):
     hole_net = {k: node_net[v] for k, v in hole_nodes.items()}
     for note in notes:
         board.assume(note)
-    return Nets(layers, net_class, plane_nets, hole_net, notes)
+    return Nets(layers, net_class, plane_nets, hole_net, notes, conflicts)

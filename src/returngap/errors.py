@@ -16,3 +16,19 @@ class InputError(Exception):
     def __str__(self):
         where = self.file if self.line is None else f"{self.file}:{self.line}"
         return f"{where}: {self.message}"
+
+
+class IncompleteError(InputError):
+    """The board model is incomplete (see completeness.py): one line per problem."""
+
+    def __init__(self, problems):
+        self.problems = list(problems)
+        first = self.problems[0] if self.problems else None
+        super().__init__(first.file if first else "<board>", "; ".join(p.message for p in self.problems[:1]),
+                         first.line if first else None)
+
+    def __reduce__(self):
+        return (IncompleteError, (self.problems,))
+
+    def __str__(self):
+        return "; ".join(str(p) for p in self.problems)

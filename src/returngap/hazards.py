@@ -478,6 +478,23 @@ def return_splits(board, gap_findings, settings, hs):
     return out
 
 
+def net_conflicts(nets):
+    """Copper that carries two nets' labels: a short in the released data (error), or a part whose
+    own pads join them, such as a net tie or a solder jumper (info: as designed, most likely)."""
+    out = []
+    for c in nets.conflicts:
+        if c.part:
+            sev, why = "info", (f"joined by copper at part {c.part}, whose own pads carry both labels (a net tie, "
+                                f"a jumper or a bypassed part: check that it is intended)")
+        else:
+            sev, why = "error", "a short in the released data, or a wrong label"
+        out.append(_finding("net-conflict", sev, c.other, c.layer, c.x, c.y,
+                            f"copper of net {c.net} on {c.layer} also carries the label {c.other} "
+                            f"({c.labels} object(s)) at ({c.x:.2f}, {c.y:.2f}): {why}",
+                            conflicting_nets=[c.net, c.other], joined_by_part=c.part))
+    return out
+
+
 def checks_without_gaps(board, nets, refs, chains, settings, hs, plane_nets_of):
     """The checks that do not need the gap crossings, as separate tasks (they run beside the gap scan;
     return_splits follows it): their findings, concatenated in this order, are the whole of them.

@@ -8,6 +8,7 @@ STYLE = """
 body{font:14px/1.45 system-ui,sans-serif;margin:24px;color:#1f2a44;max-width:1280px}
 h1{font-size:22px;margin:0 0 4px} h2{font-size:17px;margin:28px 0 8px;border-bottom:1px solid #c9d6e3}
 .note{background:#fff6e0;border-left:4px solid #e69f00;padding:8px 12px;margin:12px 0}
+.incomplete{background:#fde8e8;border-left:6px solid #b2182b;padding:8px 12px;margin:12px 0}
 table{border-collapse:collapse;width:100%;font-size:13px} th,td{padding:4px 8px;border-bottom:1px solid #e3e8ef;text-align:left}
 th{background:#eef2f7;cursor:pointer;user-select:none;position:sticky;top:0} th:after{content:" \\2195";color:#9aa8b8}
 td.n{text-align:right;font-variant-numeric:tabular-nums}
@@ -61,13 +62,18 @@ def page(report, images, overview=None):
              f"<span class='sev-warning'>{s['warning']} warning</span>, <span class='sev-info'>{s['info']} info</span> "
              f"on {s['tracks_checked']} checked tracks. Source: <code>{e(b['source'])}</code></div>",
              f"<div class='note'>{e(report['disclaimer'])}</div>"]
+    if s.get("status") == "incomplete":
+        parts.append("<div class='incomplete'><b>Incomplete board data</b> (run with --allow-incomplete): "
+                     "this is a partial answer.<ul>" + "".join(f"<li>{e(p)}</li>" for p in report.get("problems", []))
+                     + "</ul></div>")
     parts.append("<h2>Board and stackup</h2><table><thead><tr><th>layer</th><th>side</th><th>file</th>"
                  "<th>copper mm&sup2;</th><th>nets</th><th>identified by</th></tr></thead><tbody>")
     for c in b["copper_layers"]:
         parts.append(f"<tr><td>{e(c['name'])}</td><td>{e(c['side'])}</td><td>{e(c['file'])}</td>"
                      f"<td class='n'>{c['copper_area_mm2']:.1f}</td><td class='n'>{c['net_count']}</td>"
                      f"<td>{e(c['identified_by'])}</td></tr>")
-    parts.append("</tbody></table><p>Dielectrics (" + e(b["stackup_source"]) + "): " + ", ".join(
+    parts.append("</tbody></table><p>Outline: " + e(b.get("outline_file") or "from the copper") + " ("
+                 + e(b.get("outline_why") or "") + ")</p><p>Dielectrics (" + e(b["stackup_source"]) + "): " + ", ".join(
         f"{e(d['between'][0])}&ndash;{e(d['between'][1])} {d['thickness_mm']:.3f} mm, er {d['er']:.2f}"
         for d in b["dielectrics"]) + "</p>")
     if report.get("assumptions"):

@@ -22,10 +22,10 @@ from gerbonara.cam import FileSettings
 from gerbonara.layers import _best_match
 from gerbonara.utils import MM, Inch
 
-from . import forking, gerbonara_compat, shapes
+from . import drillspans, forking, gerbonara_compat, outline, shapes
 from .errors import InputError
 from .inputs import BoardFiles
-from .model import Board, CopperLayer, DrillFile, NetPoint
+from .model import Board, CopperLayer, DrillFile, NetPoint, Problem
 
 gerbonara_compat.apply()
 
@@ -64,11 +64,13 @@ def role_from_function(func, polarity=None, source=""):
         side = {"top": "top", "inr": "inner", "bot": "bottom"}.get(f[2].lower(), "inner")
         return Role("copper", number=int(f[1][1:]), side=side, polarity=pol,
                     type_hint=f[3] if len(f) > 3 else None, source=source, label=func)
-    if head in ("plated", "nonplated"):
+    if head in ("plated", "nonplated", "mixedplating"):
         span = None
         if len(f) >= 3 and f[1].isdigit() and f[2].isdigit():
             span = (int(f[1]), int(f[2]))
-        return Role("drill", plated=head == "plated", span=span, source=source, label=func)
+        # MixedPlating: plated and non-plated holes in one file, told apart per tool
+        plated = {"plated": True, "nonplated": False}.get(head)
+        return Role("drill", plated=plated, span=span, source=source, label=func)
     if head in ("profile", "keepout"):
         return Role("profile", source=source, label=func)
     return Role("other", source=source, label=func)
@@ -84,8 +86,8 @@ def role_from_user(value, source="stackup file"):
     if low.startswith("drill"):
         plated = None if low in ("drill", "drill:unknown") else not ("npth" in low or "nonplated" in low)
         m = re.search(r"(\d+)-(\d+)", low)
-        return Role("drill", plated=True if plated is None else plated,
-                    span=(int(m.group(1)), int(m.group(2))) if m else None, source=source, label=v)
+        return Role("drill", plated=plated, span=(int(m.group(1)), int(m.group(2))) if m else None,
+                    source=source, label=v)
     if low in ("ignore", "other"):
         return Role("other", source=source, label=v)
     raise InputError(source, f"unknown layer role {value!r} (use L<n>, profile, drill, drill:npth, drill:<a>-<b>, ignore)")
@@ -129,60 +131,82 @@ def parse_job_file(fab, text):
     return {}
 
 
-def identify(board_files, texts, job, user_layers):
-    """Role of every Gerber and Excellon file; returns ({name: Role}, [assumption, ...])."""
-    notes = []
-    roles = {}
-    job_roles = {}
+def job_file_roles(job):
+    """{file base name: Role} from a job file's FilesAttributes."""
+    out = {}
     for entry in (job.get("FilesAttributes") or []) if isinstance(job, dict) else []:
         if isinstance(entry, dict) and entry.get("Path") and entry.get("FileFunction"):
-            job_roles[PurePosixPath(str(entry["Path"]).replace("\\", "/")).name] = role_from_function(
+            out[PurePosixPath(str(entry["Path"]).replace("\\", "/")).name] = role_from_function(
                 str(entry["FileFunction"]), entry.get("FilePolarity"), "job file")
-    candidates = [f for f in board_files.fab if f.kind in ("gerber", "excellon")]
-    name_roles = None
+    return out
 
-    def by_name(name):
-        """Role from the file name, matched over all files together (only when something needs it:
-        the matching rules are many regular expressions)."""
-        nonlocal name_roles
-        if name_roles is None:
-            name_roles = {}
+
+class NameRoles:
+    """Roles from file names, matched over all files together, only when something asks (the
+    matching rules are many regular expressions)."""
+
+    def __init__(self, files):
+        self._files = files
+        self._roles = None
+
+    def get(self, name):
+        if self._roles is None:
+            self._roles = {}
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
                 try:
-                    _gen, guessed = _best_match([f.path for f in candidates])
+                    _gen, guessed = _best_match([p for _, p in self._files])
                 except Exception:
                     guessed = {}
-            by_path = {f.path: f.name for f in candidates}
+            by_path = {p: n for n, p in self._files}
             for key, paths in guessed.items():
                 for p in paths:
                     if p in by_path:
-                        name_roles[by_path[p]] = role_from_name(key)
-        return name_roles.get(name)
+                        self._roles[by_path[p]] = role_from_name(key)
+        return self._roles.get(name)
+
+
+def _disagrees(a, b):
+    """Two statements about one file that cannot both hold (unstated numbers or spans agree)."""
+    if a.kind != b.kind:
+        return True
+    return any(x is not None and y is not None and x != y for x, y in ((a.number, b.number), (a.span, b.span)))
+
+
+def _own_role(f, text):
+    x2 = X2_FUNC_RE.search(text)
+    if not x2:
+        return None
+    pol = X2_POL_RE.search(text)
+    return role_from_function(x2.group(1), pol.group(1) if pol else None, "X2 attribute")
+
+
+def identify(board_files, texts, job, user_layers, names=None):
+    """Role of every Gerber and Excellon file; returns ({name: Role}, [assumption, ...]).
+    Trust: the user's [layers] mapping (an explicit statement about this board), then the file's
+    own X2 attribute, the job file's FilesAttributes, the file name. A user mapping that leaves a
+    drill's span or plating unsaid takes them from the file's own attribute."""
+    notes = []
+    roles = {}
+    job_roles = job_file_roles(job)
+    candidates = [f for f in board_files.fab if f.kind in ("gerber", "excellon")]
+    names = names or NameRoles([(f.name, f.path) for f in candidates])
     user_roles = {k: role_from_user(v) for k, v in (user_layers or {}).items()}
     for f in candidates:
         base = PurePosixPath(f.name).name
-        text = texts[f.name]
-        x2 = X2_FUNC_RE.search(text)
-        pol = X2_POL_RE.search(text)
-        own = role_from_function(x2.group(1), pol.group(1) if pol else None, "X2 attribute") if x2 else None
-        if own is not None and f.kind == "gerber" and re.search(r"%IPNEG\*%", text):
-            own.polarity = "negative"
-        chosen = own
-        jr = job_roles.get(base)
+        own = _own_role(f, texts[f.name])
+        ranked = [r for r in (user_roles.get(f.name) or user_roles.get(base), own, job_roles.get(base))
+                  if r is not None]
+        chosen = ranked[0] if ranked else None
+        for other in ranked[1:]:
+            if _disagrees(other, chosen):
+                notes.append(f"{f.name}: {other.source} says '{other.label}', the {chosen.source} says "
+                             f"'{chosen.label}'; using the {chosen.source}")
+        if chosen is not None and chosen.kind == "drill" and own is not None and own.kind == "drill":
+            chosen.span = chosen.span or own.span
+            chosen.plated = own.plated if chosen.plated is None and chosen is not own else chosen.plated
         if chosen is None:
-            chosen = jr
-        elif jr is not None and (jr.kind, jr.number, jr.span) != (own.kind, own.number, own.span):
-            notes.append(f"{f.name}: job file says '{jr.label}', the file's own X2 attribute says "
-                         f"'{own.label}'; using the file's own attribute")
-        ur = user_roles.get(base) or user_roles.get(f.name)
-        if chosen is None:
-            chosen = ur
-        elif ur is not None and (ur.kind, ur.number) != (chosen.kind, chosen.number):
-            notes.append(f"{f.name}: stackup file maps it to '{ur.label}', but the {chosen.source} says "
-                         f"'{chosen.label}'; using the {chosen.source}")
-        if chosen is None:
-            chosen = by_name(f.name)
+            chosen = names.get(f.name)
         if chosen is None and f.kind == "excellon":
             chosen = Role("drill", source="content")
         if chosen is None:
@@ -191,14 +215,26 @@ def identify(board_files, texts, job, user_layers):
             chosen = Role("other", source=chosen.source, label=chosen.label)
         if chosen.kind in ("copper", "profile") and f.kind != "gerber":
             chosen = Role("other", source=chosen.source, label=chosen.label)
-        if f.kind == "gerber" and chosen.kind == "copper" and re.search(r"%IPNEG\*%", text):
+        if f.kind == "gerber" and chosen.kind == "copper" and re.search(r"%IPNEG\*%", texts[f.name]):
             chosen.polarity = "negative"
         roles[f.name] = chosen
     return roles, notes
 
 
-def number_copper(roles):
-    """Copper files in order, top to bottom, as [(file name, Role)] numbered L1..Ln."""
+def _name_number(role, last_inner):
+    """Layer number from a file-name role: top 1, inner_k k + 1, bottom after the last inner."""
+    if role.side == "top":
+        return 1
+    if role.side == "bottom":
+        return last_inner + 2
+    return int(role.order_key) + 1
+
+
+def number_copper(roles, name_inners=None):
+    """Copper files in order, top to bottom, as [(file name, Role)], each Role numbered. Numbers the
+    files state (X2, job file, user) are kept, gaps and all, so that a missing layer shows as one;
+    file-name roles are numbered from their inner index when the names of all files, unreadable
+    ones included (name_inners), give inner indices 1..k with none left out; else in order."""
     copper = [(n, r) for n, r in roles.items() if r.kind == "copper"]
     if not copper:
         return []
@@ -208,12 +244,19 @@ def number_copper(roles):
         if len(set(nums)) != len(nums):
             dup = sorted({x for x in nums if nums.count(x) > 1})
             raise InputError(copper[0][0], f"two copper files claim layer L{dup[0]}")
-    else:
-        copper.sort(key=lambda nr: nr[1].number * 1e6 if nr[1].number is not None else nr[1].order_key)
-    n = len(copper)
+        return copper
+    inners = sorted(name_inners or ())
+    by_name = name_inners is not None and inners == list(range(1, len(inners) + 1)) and all(
+        r.source == "file name" and (r.side != "inner" or float(r.order_key).is_integer()) for _, r in copper)
+    if by_name:
+        for _, r in copper:
+            r.number = _name_number(r, len(inners))
+        copper.sort(key=lambda nr: nr[1].number)
+        if len({r.number for _, r in copper}) == len(copper):
+            return copper
+    copper.sort(key=lambda nr: nr[1].number * 1e6 if nr[1].number is not None else nr[1].order_key)
     for i, (_, r) in enumerate(copper):
         r.number = i + 1
-        r.side = "top" if i == 0 else ("bottom" if i == n - 1 and n > 1 else "inner")
     return copper
 
 
@@ -257,6 +300,22 @@ def check_extent(fab, layer):
     if max(abs(x0), abs(y0), abs(x1), abs(y1)) > MAX_EXTENT_MM:
         raise InputError(fab.name, f"coordinates reach {max(abs(x0), abs(y0), abs(x1), abs(y1)) / 1000:.0f} m from "
                                    "the origin; the number format or the data is wrong")
+
+
+def truncation(text):
+    """(message, line) when a Gerber file is cut off: no M02 and an open region or a last command
+    without its closing '*'; None otherwise (no M02 alone is a stated recovery)."""
+    if re.search(r"M0?2\*", text):
+        return None
+    body = text.rstrip()
+    if not body:
+        return None
+    last = _line_of(text, len(body) - 1)
+    if body[-1] not in "*%":
+        return f"truncated: no M02 end-of-file marker and the last command is cut off ({body[-20:]!r})", last
+    if len(re.findall(r"G36\*", text)) > len(re.findall(r"G37\*", text)):
+        return "truncated: no M02 end-of-file marker and a region is never closed", last
+    return None
 
 
 def parse_gerber(fab, text, notes):
@@ -462,37 +521,6 @@ def _only_touches(raw):
     return not reason.startswith("Self-intersection")
 
 
-def outline_polygon(g, tol):
-    """Board profile from an outline/profile Gerber: the largest closed loop, inner loops as cut-outs."""
-    lines = []
-    for obj in g.objects:
-        k = 25.4 if obj.unit == Inch else 1.0
-        if isinstance(obj, go.Line):
-            lines.append(shapely.LineString([(obj.x1 * k, obj.y1 * k), (obj.x2 * k, obj.y2 * k)]))
-        elif isinstance(obj, go.Arc):
-            c = obj.center
-            lines.append(shapely.LineString(shapes.arc_points(obj.x1 * k, obj.y1 * k, obj.x2 * k, obj.y2 * k,
-                                                             c[0] * k, c[1] * k, obj.clockwise, tol)))
-        elif isinstance(obj, go.Region):
-            pts = shapes.ring_points(obj.outline, obj.arc_centers or [], tol, k)
-            if len(pts) > 2:
-                lines.append(shapely.LineString(pts + [pts[0]]))
-    lines = [ln for ln in lines if ln.length > 0]
-    if not lines:
-        return None
-    # a 1 um grid closes loops whose ends were written with rounding differences
-    merged = shapely.union_all(shapely.set_precision(np.array(lines, dtype=object), 0.001))
-    polys = list(shapely.get_parts(shapely.polygonize(shapely.get_parts(merged))))
-    if not polys:
-        return None
-    polys.sort(key=lambda p: -p.area)
-    outer = shapely.Polygon(polys[0].exterior)
-    holes = [p for p in polys[1:] if outer.contains(p.representative_point()) and p.area < outer.area]
-    # nested loops alternate board / cut-out; keep only the first level of cut-outs
-    cut = shapely.union_all([shapely.Polygon(h.exterior) for h in holes]) if holes else shapely.Polygon()
-    return outer.difference(cut) if not cut.is_empty else outer
-
-
 EXCELLON_CANDIDATES = [(u, nf, z) for u in (MM, Inch) for nf in ((2, 4), (3, 3), (2, 5), (3, 5), (4, 4), (3, 4), (4, 3))
                        for z in ("leading", "trailing")]
 
@@ -566,14 +594,37 @@ def parse_drill(fab, text, copper_region, notes):
     return best, best_desc or ""
 
 
-VIA_TOOL_RE = re.compile(r"#@! TA\.AperFunction,([^\r\n]*)\r?\n\s*T(\d+)C([\d.]+)")
+TA_TOOL_RE = re.compile(r"#@! TA\.AperFunction,([^\r\n]*)\r?\n\s*T(\d+)C([\d.]+)")
 
 
-def build_drill(fab, d, role, n_layers, text, fmt):
-    holes, slots, via_flags, tool_plating = [], [], [], []
-    via_diams = {}
-    for m in VIA_TOOL_RE.finditer(text):
-        via_diams[round(float(m.group(3)), 4)] = "ViaDrill" in m.group(1)
+def tool_attributes(text):
+    """{tool diameter as written: (plated or None, via or None)} from per-tool X2 comments
+    (`; #@! TA.AperFunction,Plated,PTH,ViaDrill` before `T1C0.300`). Two tools of one diameter
+    that disagree on plating leave that diameter's plating unknown."""
+    out = {}
+    for m in TA_TOOL_RE.finditer(text):
+        f = [p.strip().lower() for p in m.group(1).split(",")]
+        plated = {"plated": True, "nonplated": False}.get(f[0])
+        key = round(float(m.group(3)), 4)
+        if key in out and out[key][0] != plated:
+            plated = None
+        out[key] = (plated, "viadrill" in f)
+    return out
+
+
+def _hole_plating(tool, tools_x2, role):
+    """Plating of one tool's holes: the tool's own statement (an Altium ;TYPE= section as gerbonara
+    reads it, or an X2 tool comment), else the file's."""
+    native = round(tool.diameter, 4)
+    for p in (getattr(tool, "plated", None), tools_x2.get(native, (None, None))[0], role.plated):
+        if p is not None:
+            return p
+    return None
+
+
+def build_drill(fab, d, role, n_layers, text, fmt, span, span_source):
+    holes, slots, via_flags, hole_pl, slot_pl = [], [], [], [], []
+    tools_x2 = tool_attributes(text)
     skipped = 0
     for o in d.objects:
         k = 25.4 if o.unit == Inch else 1.0
@@ -581,24 +632,29 @@ def build_drill(fab, d, role, n_layers, text, fmt):
             skipped += 1
             continue
         dia = o.aperture.unit.convert_to(MM, o.aperture.diameter)
-        native = round(o.aperture.diameter, 4) if getattr(o, "aperture", None) else None
-        tool_plating.append(getattr(o.aperture, "plated", None))
+        plated = _hole_plating(o.aperture, tools_x2, role)
         if isinstance(o, go.Flash):
             holes.append((o.x * k, o.y * k, dia))
-            via_flags.append(via_diams.get(native))
+            via_flags.append(tools_x2.get(round(o.aperture.diameter, 4), (None, None))[1])
+            hole_pl.append(plated)
         elif isinstance(o, go.Line):
             slots.append((o.x1 * k, o.y1 * k, o.x2 * k, o.y2 * k, dia))
-    plated = role.plated
-    known = {p for p in tool_plating if p is not None}
-    if plated is None and len(known) == 1:
-        plated = known.pop()
-    span = role.span or (1, n_layers)
-    m = re.search(r"[-_](\d+)[-_](\d+)\.\w+$", PurePosixPath(fab.name).name)
-    if role.span is None and m and 1 <= int(m.group(1)) < int(m.group(2)) <= n_layers:
-        span = (int(m.group(1)), int(m.group(2)))
-    return DrillFile(file=fab.name, plated=plated, from_layer=span[0], to_layer=min(span[1], n_layers),
-                     holes=np.array(holes, dtype=float).reshape(-1, 3), slots=np.array(slots, dtype=float).reshape(-1, 5),
-                     hole_is_via=via_flags, identified_by=role.source, number_format=fmt, skipped=skipped), tool_plating
+            slot_pl.append(plated)
+    unknown = any(p is None for p in hole_pl + slot_pl)
+    per_tool = bool(tools_x2) or any(getattr(getattr(o, "aperture", None), "plated", None) is not None
+                                     for o in d.objects)
+    fill = True if role.plated is None else role.plated  # holes nobody speaks for: plated (stated)
+    every = [fill if p is None else p for p in hole_pl + slot_pl]
+    summary = True if all(every) else (False if not any(every) else None)
+    source = "tool sections" if per_tool else (role.source if role.plated is not None else "assumed")
+    drill = DrillFile(file=fab.name, plated=summary, from_layer=span[0], to_layer=min(span[1], n_layers),
+                      holes=np.array(holes, dtype=float).reshape(-1, 3),
+                      slots=np.array(slots, dtype=float).reshape(-1, 5), hole_is_via=via_flags,
+                      hole_plated=np.array([fill if p is None else p for p in hole_pl], dtype=bool),
+                      slot_plated=np.array([fill if p is None else p for p in slot_pl], dtype=bool),
+                      identified_by=role.source, span_source=span_source, plating_source=source,
+                      number_format=fmt, skipped=skipped)
+    return drill, unknown
 
 
 IPC_UNITS = {"CUST 0": 0.0001 * 25.4, "CUST 1": 0.001, "CUST 2": 0.0001 * 25.4, "SI": 0.001}
@@ -630,8 +686,12 @@ def parse_netlist(fab):
         refdes = line[20:26].strip() or None
         pin = line[27:31].strip() if len(line) > 27 and line[26:27] == "-" else None
         is_via = refdes == "VIA" or line[31:32] == "M"
+        # access side, columns 39-41: A00 both sides, A01 the top, A<n> layer n (the bottom)
+        acc = re.match(r"A(\d\d)", line[38:41])
+        side = int(acc.group(1)) if acc and int(acc.group(1)) > 0 else None
         pts.append(NetPoint(net=unescape_net(net), x=int(m.group(1)) * scale, y=int(m.group(2)) * scale,
-                            refdes=refdes, pin=pin or None, is_via=is_via, layers=None))
+                            refdes=refdes, pin=pin or None, is_via=is_via,
+                            layers=(side, side) if side else None))
     return pts
 
 
@@ -650,10 +710,14 @@ PARALLEL_MIN_BYTES = 20_000  # copper text below which a second process costs mo
 
 
 def _copper_layer(fab, text, role, provisional, tol):
-    """Parse and build one copper layer, with the notes it gives (a task for a forked worker)."""
-    notes = []
+    """Parse and build one copper layer, with the notes and problems it gives (a task for a forked
+    worker)."""
+    notes, problems = [], []
+    cut = truncation(text)
+    if cut is not None:
+        problems.append(Problem(fab.name, cut[0], cut[1]))
     layer = _guarded(fab.name, build_layer, fab, parse_gerber(fab, text, notes), role,
-                     provisional or shapely.Polygon(), tol)
+                     provisional if provisional is not None else shapely.Polygon(), tol)
     check_extent(fab, layer)
     if layer.skipped_objects:
         notes.append(f"{fab.name}: {layer.skipped_objects} object(s) drawn before any aperture was "
@@ -661,9 +725,9 @@ def _copper_layer(fab, text, role, provisional, tol):
     if layer.repaired_regions:
         notes.append(f"{fab.name}: {layer.repaired_regions} self-intersecting region(s) repaired "
                      "(split into valid parts)")
-    if role.polarity == "negative" and provisional is None:
+    if role.polarity == "negative" and (provisional is None or provisional.is_empty):
         raise InputError(fab.name, "negative-polarity copper needs a board profile file")
-    return layer, notes
+    return layer, notes, problems
 
 
 def _copper_layers(by_name, texts, copper_roles, provisional, tol, want, per_layer=None):
@@ -677,15 +741,15 @@ def _copper_layers(by_name, texts, copper_roles, provisional, tol, want, per_lay
 
     def task(j):
         name, role = copper_roles[order[j]]
-        layer, notes = _copper_layer(by_name[name], texts[name], role, provisional, tol)
+        layer, notes, problems = _copper_layer(by_name[name], texts[name], role, provisional, tol)
         if per_layer is not None:
             per_layer(layer)
-        return (_wkb_packed(layer) if forking.in_child else layer), notes
+        return (_wkb_packed(layer) if forking.in_child else layer), notes, problems
     done = forking.fork_map(task, len(order), workers)
     out = [None] * len(order)
     for j, k in enumerate(order):
-        layer, notes = done[j]
-        out[k] = (_wkb_unpacked(layer) if isinstance(layer.regions, tuple) else layer), notes
+        layer, notes, problems = done[j]
+        out[k] = (_wkb_unpacked(layer) if isinstance(layer.regions, tuple) else layer), notes, problems
     return out
 
 
@@ -705,73 +769,246 @@ def _wkb_unpacked(layer):
     return layer
 
 
+BROKEN_REASONS = ("empty file", "binary data", "not Gerber", "cannot read")
+
+
+def _broken_files(bf):
+    """Ignored files whose content failed (empty, junk): (name, reason). Files ignored by their kind
+    (documents, metadata) are not among them."""
+    return [(i["file"], i["reason"]) for i in bf.ignored if i["reason"].startswith(BROKEN_REASONS)]
+
+
+def _stated_role(name, user_roles, job_roles, names):
+    """What the user, the job file or the file name says a file is (for files that could not be read)."""
+    base = PurePosixPath(name).name
+    guess = names.get(name)
+    if guess is not None and guess.kind == "drill":
+        guess = None  # the name rules take any .txt for a drill file: too loose for a file that failed
+    for r in (user_roles.get(name) or user_roles.get(base), job_roles.get(base), guess):
+        if r is not None:
+            return r
+    return None
+
+
+def _expected_copper(job, copper_roles, stated):
+    """{layer number: why it should be there} for every copper layer the job file, the numbers the
+    files give or the names of unreadable files speak of."""
+    want = {}
+    gs = job.get("GeneralSpecs") if isinstance(job, dict) else None
+    n_job = gs.get("LayerNumber") if isinstance(gs, dict) else None
+    n_entries = sum(1 for r in job_file_roles(job).values() if r.kind == "copper")
+    for n, why in ((n_job, "the job file's LayerNumber"), (n_entries or None, "the job file's FilesAttributes")):
+        if isinstance(n, (int, float)) and 0 < int(n) <= 256:
+            for k in range(1, int(n) + 1):
+                want.setdefault(k, f"{why} gives {int(n)} copper layers")
+    top = max((r.number for _, r in copper_roles), default=0)
+    for k in range(1, top + 1):
+        want.setdefault(k, f"the copper files are numbered up to L{top}")
+    last = max(copper_roles, key=lambda nr: nr[1].number)[1] if copper_roles else None
+    if last is not None and last.source == "X2 attribute" and last.label.split(",")[2:3] == ["Inr"]:
+        want.setdefault(top + 1, f"the last copper file, L{top}, says it is an inner layer")
+    for name, role in stated.items():
+        if role.kind == "copper" and role.number:
+            want[role.number] = f"{name} should be copper L{role.number}"
+    return want
+
+
+def _layer_problems(bf, stated, copper_numbers, want, problems):
+    """Problems for broken files that should be fabrication data, and for missing copper layers."""
+    reasons = dict(_broken_files(bf))
+    for name, role in stated.items():
+        if role.kind in ("copper", "drill", "profile"):
+            what = f"copper L{role.number}" if role.kind == "copper" and role.number else role.kind
+            problems.append(Problem(name, f"{reasons[name]}, but the {role.source} says it is {what}"))
+    told = {r.number for r in stated.values() if r.kind == "copper"}
+    for k in sorted(set(want) - set(copper_numbers) - told):
+        problems.append(Problem(f"L{k}", f"no readable copper file for layer L{k} ({want[k]})"))
+
+
+def _sides(layers):
+    n = len(layers)
+    for i, layer in enumerate(layers):
+        layer.side = "top" if i == 0 else ("bottom" if i == n - 1 and n > 1 else "inner")
+
+
+def _profile_candidates(roles, bf, texts, notes, parsed_cache):
+    """Outline candidates, most trusted first: (file, rank, parsed Gerber)."""
+    ranked = []
+    for name, role in roles.items():
+        if role.kind == "profile":
+            rank = {"stackup file": 0, "X2 attribute": 1, "job file": 2}.get(role.source, 3)
+            ranked.append((rank, name))
+        elif role.kind == "other" and MECHANICAL_NAME_RE.search(PurePosixPath(name).name):
+            ranked.append((4, name))
+    by_name = {f.name: f for f in bf.fab}
+    out = []
+    for rank, name in sorted(ranked):
+        if name not in parsed_cache:
+            try:
+                parsed_cache[name] = parse_gerber(by_name[name], texts[name], notes)
+            except InputError as e:
+                if rank < 4:
+                    raise
+                notes.append(f"{name}: not usable as an outline ({e.message})")
+                parsed_cache[name] = None
+        if parsed_cache[name] is not None:
+            out.append((name, rank, parsed_cache[name]))
+    return out
+
+
+MECHANICAL_NAME_RE = re.compile(r"(\.gm\d+|\.gko|\.gml|edge[_.-]?cuts|outline|profile|dimension|mech)", re.I)
+
+
+def pick_outline(roles, bf, texts, layers, tol, notes, problems):
+    """The board outline (see outline.py) and where it came from. A profile the user names is used
+    as named; when nothing fits, the copper's own extent stands in, stated."""
+    sample = outline.copper_sample(layers)
+    cache = {}
+    cands = _profile_candidates(roles, bf, texts, notes, cache)
+    user = [c for c in cands if c[1] == 0]
+    looked = []
+    for name, rank, g in (user or cands):
+        loops = outline.loops_of(g, tol)
+        if loops is not None:
+            looked.append((name, loops, rank, len(g.objects)))
+    if looked and not len(sample.xy):  # only negative copper: nothing to test a loop against yet
+        name, loops = looked[0][0], looked[0][1]
+        return max(loops.figures, key=lambda p: p.area), name, "the most trusted profile file, as drawn (no " \
+            "positive copper to test it against)"
+    if user and looked:
+        name, loops = looked[0][0], looked[0][1]
+        shell = max(loops.figures, key=lambda p: p.area)
+        share, ratio = outline.fit(sample, shell)
+        if share < outline.MIN_CONTAINED or ratio > outline.MAX_AREA_RATIO:
+            problems.append(Problem(name, f"the outline the stackup file names holds {share:.0%} of the copper "
+                                          f"and is {ratio:.1f} times the copper's extent"))
+        return shell, name, "named as the profile in the stackup file"
+    choice = outline.choose(looked, sample)
+    if choice is not None:
+        return choice.polygon, choice.file, choice.why
+    pts = np.vstack([shapely.get_coordinates(shapely.convex_hull(c.pieces)) for c in layers if len(c.pieces)]
+                    or [np.zeros((0, 2))])
+    hull = shapely.MultiPoint(pts).convex_hull if len(pts) >= 3 else shapely.Polygon()
+    tried = ", ".join(n for n, _, _ in cands) or "none"
+    notes.append(f"no closed outline holds the copper (files tried: {tried}); board outline taken as the "
+                 "convex hull of all copper")
+    return hull, None, "the convex hull of all copper (no outline file fits)"
+
+
+def drill_span(name, role, n_layers, side_files):
+    """(from, to) and where it came from: the user or the file's own attribute, the layer-pair file,
+    the drill report, the file name; else a through hole, stated."""
+    if role.span:
+        return role.span, role.source
+    key = PurePosixPath(name).name.lower()
+    tokens = side_files["layer pairs"].get(key)
+    if tokens:
+        span = drillspans.span_from_tokens(tokens, side_files["suffix"])
+        if span:
+            return span, f"layer-pair file {side_files['layer pairs file']}"
+    pair = side_files["report"].get(key)
+    if pair:
+        span = drillspans.span_from_names(pair, n_layers)
+        if span:
+            return span, f"drill report {side_files['report file']}"
+    m = re.search(r"[-_]L?(\d+)[-_]L?(\d+)\.\w+$", PurePosixPath(name).name, re.I)
+    if m and 1 <= int(m.group(1)) < int(m.group(2)) <= n_layers:
+        return (int(m.group(1)), int(m.group(2))), "file name"
+    return (1, n_layers), "assumed (through hole)"
+
+
+def _side_files(bf, texts, layers):
+    out = {"layer pairs": {}, "report": {}, "layer pairs file": None, "report file": None,
+           "suffix": {PurePosixPath(c.file).suffix.lower(): int(c.name[1:]) for c in layers if not c.missing}}
+    for f in bf.fab:
+        if f.kind == "layerpairs":
+            out["layer pairs"].update(drillspans.read_layer_pairs(texts[f.name]))
+            out["layer pairs file"] = f.name
+        elif f.kind == "drillreport":
+            out["report"].update(drillspans.read_drill_report(texts[f.name]))
+            out["report file"] = f.name
+    return out
+
+
+def _drill_problems(name, text, drill, notes, problems):
+    if not re.search(r"^\s*M(30|00)\b", text, re.M):
+        problems.append(Problem(name, "truncated: no M30 end-of-program marker"))
+    if drill.skipped:
+        notes.append(f"{name}: {drill.skipped} hole(s) given before any tool was selected were left out")
+    if not drill.hole_count:
+        notes.append(f"{name}: drill file has no holes")
+
+
 def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_MM, scratch=None, workers=0,
                per_layer=None):
     """Read a board (folder, zip or file list) into the board model; copper layers in `workers`
     processes (0: both cores on a large board), each passed to per_layer (when given) in the process
-    that built it, for work of later stages that needs one layer only."""
+    that built it, for work of later stages that needs one layer only. What makes the model
+    incomplete is listed in board.problems (the completeness gate decides what to do with it)."""
     with BoardFiles(sources, scratch) as bf:
-        texts = {f.name: read_text(f) for f in bf.fab if f.kind in ("gerber", "excellon", "job")}
-        notes = []
+        texts = {f.name: read_text(f) for f in bf.fab if f.kind != "ipc356"}
+        notes, problems = [], []
         job, job_name = {}, None
         for f in bf.fab:
             if f.kind == "job":
                 job = parse_job_file(f, texts[f.name]) or job
                 job_name = f.name
-        roles, id_notes = identify(bf, texts, job, user_layers)
+        broken = _broken_files(bf)
+        names = NameRoles([(f.name, f.path) for f in bf.fab if f.kind in ("gerber", "excellon")]
+                          + [(n, Path(n)) for n, _ in broken])
+        roles, id_notes = identify(bf, texts, job, user_layers, names)
         notes.extend(id_notes)
-        copper_roles = number_copper(roles)
+        user_roles = {k: role_from_user(v) for k, v in (user_layers or {}).items()}
+        stated = {n: r for n, _ in broken if (r := _stated_role(n, user_roles, job_file_roles(job), names))}
+        inners = {int(r.order_key) for r in list(roles.values()) + list(stated.values())
+                  if r.kind == "copper" and r.source == "file name" and r.side == "inner"
+                  and r.order_key is not None and float(r.order_key).is_integer()}
+        copper_roles = number_copper(roles, inners)
         if not copper_roles:
             raise InputError(bf.source, "no copper layer could be identified (give a [layers] mapping in a stackup file)")
         by_name = {f.name: f for f in bf.fab}
-        parsed = {}
-        for name, role in roles.items():
-            if role.kind == "profile":
-                parsed[name] = parse_gerber(by_name[name], texts[name], notes)
-        outline = None
-        outline_file = None
-        for name, role in roles.items():
-            if role.kind == "profile":
-                outline = outline_polygon(parsed[name], chord_tol_mm)
-                outline_file = name
-                if outline is not None:
-                    break
-        provisional = outline
+        positive = [(n, r) for n, r in copper_roles if r.polarity != "negative"]
+        negative = [(n, r) for n, r in copper_roles if r.polarity == "negative"]
+        built = _copper_layers(by_name, texts, positive, None, chord_tol_mm, workers, per_layer)
         layers = []
-        for layer, layer_notes in _copper_layers(by_name, texts, copper_roles, provisional, chord_tol_mm,
-                                                 workers, per_layer):
+        for layer, layer_notes, layer_problems in built:
             layers.append(layer)
             notes.extend(layer_notes)
-        if outline is None:
-            pts = np.vstack([shapely.get_coordinates(shapely.convex_hull(l.pieces)) for l in layers if len(l.pieces)]
-                            or [np.zeros((0, 2))])
-            hull = shapely.MultiPoint(pts).convex_hull if len(pts) >= 3 else shapely.Polygon()
-            outline = hull
-            notes.append("no usable board profile file" + (f" ({outline_file} has no closed outline)" if outline_file else "")
-                         + "; board outline taken as the convex hull of all copper")
-        board = Board(name=bf.name, source=bf.source, copper=layers, drills=[], outline=outline,
-                      ignored=list(bf.ignored))
-        board.job = job
-        board.job_file = job_name
-        board.outline_file = outline_file
+            problems.extend(layer_problems)
+        board_outline, outline_file, why = pick_outline(roles, bf, texts, layers, chord_tol_mm, notes, problems)
+        if negative:
+            for layer, layer_notes, layer_problems in _copper_layers(by_name, texts, negative, board_outline,
+                                                                     chord_tol_mm, workers, per_layer):
+                layers.append(layer)
+                notes.extend(layer_notes)
+                problems.extend(layer_problems)
+        want = _expected_copper(job, copper_roles, stated)
+        present = {int(c.name[1:]) for c in layers}
+        _layer_problems(bf, stated, present, want, problems)
+        for k in sorted(set(range(1, max(want | {0: 0}) + 1)) - present):
+            layers.append(CopperLayer(name=f"L{k}", file=f"(missing L{k})", side="inner", missing=True,
+                                      identified_by="placeholder"))
+        layers.sort(key=lambda c: int(c.name[1:]))
+        _sides(layers)
+        board = Board(name=bf.name, source=bf.source, copper=layers, drills=[], outline=board_outline,
+                      ignored=list(bf.ignored), job=job, job_file=job_name, outline_file=outline_file,
+                      outline_why=why)
         n = len(layers)
+        real = [c for c in layers if not c.missing]
         # holes of a correctly read drill file land on the pads of the outer layers
-        region = shapely.STRtree(np.concatenate([layers[0].pieces, layers[-1].pieces]))
+        region = shapely.STRtree(np.concatenate([real[0].pieces, real[-1].pieces]))
+        side = _side_files(bf, texts, layers)
         for name, role in roles.items():
             if role.kind == "drill":
                 f = by_name[name]
                 d, fmt = parse_drill(f, texts[name], region, notes)
-                drill, tool_plating = _guarded(name, build_drill, f, d, role, n, texts[name], fmt)
-                if drill.skipped:
-                    notes.append(f"{name}: {drill.skipped} hole(s) given before any tool was selected were left out")
-                if drill.plated is None:
-                    known = {p for p in tool_plating if p is not None}
-                    if len(known) > 1:
-                        drill.plated = True
-                        notes.append(f"{name}: mixes plated and non-plated tools; all its holes treated as plated")
-                    else:
-                        drill.plated = True
-                        notes.append(f"{name}: plating not stated; holes assumed plated")
+                span, span_source = drill_span(name, role, n, side)
+                drill, unknown = _guarded(name, build_drill, f, d, role, n, texts[name], fmt, span, span_source)
+                _drill_problems(name, texts[name], drill, notes, problems)
+                if unknown and drill.hole_count:
+                    notes.append(f"{name}: plating not stated; holes assumed plated")
+                if span_source.startswith("assumed") and len([r for r in roles.values() if r.kind == "drill"]) > 1:
+                    notes.append(f"{name}: no layer span stated; taken as a through hole L1-L{n}")
                 board.drills.append(drill)
             elif role.kind == "other":
                 board.other_files.append({"file": name, "role": role.label, "identified_by": role.source})
@@ -779,12 +1016,19 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
             if f.kind == "ipc356":
                 board.netlist.extend(parse_netlist(f))
                 board.netlist_file = f.name
-        for l in layers:
+        for l in real:
             if not len(l.pieces):
-                notes.append(f"{l.file}: copper layer {l.name} is empty")
+                problems.append(Problem(l.file, f"copper layer {l.name} draws no copper"))
+        if not any(d.hole_count for d in board.drills):
+            if n >= 3:
+                problems.append(Problem(bf.source, f"no drill holes on a board of {n} copper layers: vias and "
+                                                   "plated holes would all be missing"))
+            elif n == 2:
+                notes.append("no drill holes: the two copper layers are taken as joined nowhere")
         for note in notes:
             board.assume(note)
-        for l in layers:
+        for l in real:
             if l.identified_by == "file name":
                 board.assume(f"{l.file}: identified as copper {l.name} ({l.side}) from its file name only")
+        board.problems = problems
         return board

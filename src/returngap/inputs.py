@@ -13,6 +13,7 @@ import zipfile
 from dataclasses import dataclass
 from pathlib import Path, PurePosixPath
 
+from . import drillspans
 from .errors import InputError
 
 MAX_MEMBERS = 5000
@@ -23,14 +24,14 @@ SNIFF_BYTES = 65536
 JUNK_NAMES = {".ds_store", "thumbs.db", "desktop.ini"}
 NON_FAB_SUFFIXES = {".pdf", ".png", ".jpg", ".jpeg", ".bmp", ".svg", ".csv", ".xls", ".xlsx", ".doc",
                     ".docx", ".html", ".htm", ".md", ".pos", ".step", ".stp", ".kicad_pcb", ".sch",
-                    ".brd", ".zip", ".7z", ".rar", ".py", ".json_", ".log"}
+                    ".brd", ".zip", ".7z", ".rar", ".py", ".json_", ".log", ".toml"}
 
 
 @dataclass
 class FabFile:
     name: str          # path relative to the board root, for messages and reports
     path: Path         # where it can be read
-    kind: str          # gerber | excellon | job | ipc356
+    kind: str          # gerber | excellon | job | ipc356 | layerpairs | drillreport
 
 
 def _safe_member_name(info):
@@ -122,6 +123,10 @@ def sniff(path):
         return "gerber"
     if re.search(r"^T\d+\s*$", text, re.M) and re.search(r"^X[+-]?[\d.]+Y[+-]?[\d.]+\s*$", text, re.M):
         return "excellon-headerless"
+    if drillspans.is_layer_pairs(text):
+        return "layerpairs"
+    if drillspans.is_drill_report(text):
+        return "drillreport"
     return None
 
 

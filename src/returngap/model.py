@@ -33,6 +33,7 @@ class CopperLayer:
     regions: list = field(default_factory=list)
     repaired_regions: int = 0
     skipped_objects: int = 0
+    missing: bool = False             # a placeholder for a layer whose file is absent or unreadable
 
     @property
     def index(self):
@@ -68,19 +69,27 @@ class CopperLayer:
 @dataclass
 class DrillFile:
     file: str
-    plated: bool | None
+    plated: bool | None       # every hole plated / none plated / None: mixed (see hole_plated)
     from_layer: int           # 1-based copper layer numbers
     to_layer: int
     holes: np.ndarray = field(default_factory=lambda: np.zeros((0, 3)))    # x, y, diameter
     slots: np.ndarray = field(default_factory=lambda: np.zeros((0, 5)))    # x1, y1, x2, y2, width
     hole_is_via: list = field(default_factory=list)   # True / False / None per hole
+    hole_plated: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=bool))
+    slot_plated: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=bool))
     identified_by: str = ""
+    span_source: str = ""     # where the layer span came from
+    plating_source: str = ""  # where the plating came from
     number_format: str = ""
     skipped: int = 0
 
     @property
     def hole_count(self):
         return int(len(self.holes) + len(self.slots))
+
+    @property
+    def plating(self):
+        return {True: "plated", False: "non-plated", None: "mixed"}[self.plated]
 
 
 @dataclass
@@ -128,7 +137,20 @@ class NetPoint:
     refdes: str | None
     pin: str | None
     is_via: bool
-    layers: tuple | None      # (from, to) 1-based, None when unknown
+    layers: tuple | None      # (k, k): reached from layer k only (IPC access side); None: both sides
+
+
+@dataclass
+class Problem:
+    """Something that makes the board model incomplete: an empty, unreadable or truncated file, a
+    missing layer, an outline that does not hold the copper, nothing to check."""
+
+    file: str
+    message: str
+    line: int | None = None
+
+    def __str__(self):
+        return f"{self.file}{'' if self.line is None else f':{self.line}'}: {self.message}"
 
 
 @dataclass
@@ -143,6 +165,12 @@ class Board:
     assumptions: list = field(default_factory=list)
     ignored: list = field(default_factory=list)   # {"file", "reason"}
     other_files: list = field(default_factory=list)  # recognised but unused here (mask, silk, ...)
+    problems: list = field(default_factory=list)     # Problem: what makes this model incomplete
+    job: dict = field(default_factory=dict)          # the job file's JSON, when there is one
+    job_file: str | None = None
+    netlist_file: str | None = None
+    outline_file: str | None = None                  # the file the outline came from (None: the copper)
+    outline_why: str = ""                            # why that outline was taken
 
     def layer(self, name):
         for c in self.copper:

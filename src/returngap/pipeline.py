@@ -2,7 +2,7 @@
 
 from dataclasses import dataclass
 
-from . import config, connectivity, detector, forking, hazards, importer, projector, stackup
+from . import completeness, config, connectivity, detector, forking, hazards, importer, projector, stackup
 
 
 @dataclass
@@ -14,6 +14,8 @@ class CheckResult:
     chains: list
     findings: list
     settings: object
+    status: str = completeness.COMPLETE
+    problems: list = ()
 
 
 def load(sources, stackup_file=None, scratch=None, workers=0):
@@ -28,9 +30,13 @@ def load(sources, stackup_file=None, scratch=None, workers=0):
 def run_check(sources, stackup_file=None, settings=None, scratch=None):
     settings = settings or projector.Settings()
     board, cfg = load(sources, stackup_file, scratch, settings.workers)
+    if not settings.allow_incomplete:  # refuse before the expensive stages
+        completeness.enforce(board, board.problems, False)
     nets = connectivity.build_nets(board, cfg)
     refs, planes = projector.references(board, nets, settings)
     chains = projector.chains(board, nets, refs, settings)
+    problems = board.problems + completeness.analysis_problems(board, planes, chains, settings)
+    status = completeness.enforce(board, problems, settings.allow_incomplete)
     # the gap scan's slices and the checks that do not need its findings share the processes
     plane_nets_of = detector.chain_plane_nets(nets, chains)
     tasks, combine, workers = detector.gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of)
@@ -44,4 +50,5 @@ def run_check(sources, stackup_file=None, settings=None, scratch=None):
         layer._area = area
     findings = combine(done[len(checks) + len(areas):])
     findings += sum(done[:len(checks)], []) + hazards.return_splits(board, findings, settings, hs)
-    return CheckResult(board, nets, refs, planes, chains, findings, settings)
+    findings += hazards.net_conflicts(nets)
+    return CheckResult(board, nets, refs, planes, chains, findings, settings, status, problems)

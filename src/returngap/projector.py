@@ -37,6 +37,7 @@ class Settings:
     plane_min_fraction: float = 0.20   # a layer whose plane-net copper covers this share of the board is a reference
     nets: tuple = ()                   # glob patterns; empty = every signal net
     workers: int = 0                   # processes for import and gap scan: 0 = both cores on a large board, 1 = one
+    allow_incomplete: bool = False     # state the completeness gate's problems instead of refusing the board
 
     @property
     def rise_ns(self):
@@ -53,6 +54,7 @@ class Settings:
             "min_interrupted_fraction": self.min_interrupted_fraction, "min_detour_mm": self.min_detour_mm,
             "min_gap_length_mm": self.min_gap_length_mm, "slot_aspect_ratio": self.slot_aspect_ratio,
             "plane_min_fraction": self.plane_min_fraction, "nets": list(self.nets),
+            "allow_incomplete": self.allow_incomplete,
         }
 
 

@@ -60,8 +60,13 @@ def board_summary(board, nets=None):
         "board_thickness_mm": st.board_thickness_mm,
         "stackup_source": st.source,
         "copper_layers": layers,
-        "drills": [{"file": d.file, "plated": d.plated, "from_layer": f"L{d.from_layer}", "to_layer": f"L{d.to_layer}",
-                    "hole_count": d.hole_count, "number_format": d.number_format, "identified_by": d.identified_by}
+        "outline_file": board.outline_file,
+        "outline_why": board.outline_why,
+        "drills": [{"file": d.file, "plated": d.plated, "plating": d.plating, "from_layer": f"L{d.from_layer}",
+                    "to_layer": f"L{d.to_layer}", "hole_count": d.hole_count,
+                    "plated_holes": int(d.hole_plated.sum() + d.slot_plated.sum()),
+                    "number_format": d.number_format, "identified_by": d.identified_by,
+                    "span_source": d.span_source, "plating_source": d.plating_source}
                    for d in board.drills],
         "dielectrics": [{"between": list(d.between), "thickness_mm": d.thickness_mm, "er": d.er, "source": d.source}
                         for d in st.dielectrics],
@@ -97,7 +102,9 @@ def findings_report(result):
         "settings": clean(result.settings.as_dict()),
         "references": refs,
         "assumptions": list(board.assumptions),
-        "summary": {"findings": len(findings), **counts, "tracks_checked": len(result.chains)},
+        "problems": [str(p) for p in result.problems],
+        "summary": {"status": result.status, "findings": len(findings), **counts,
+                    "tracks_checked": len(result.chains)},
         "nets_checked": sorted({c.net for c in result.chains}),
         "findings": findings,
     }
@@ -133,14 +140,35 @@ def findings_table(report, limit=None):
 
 def summary_line(report):
     s = report["summary"]
-    return (f"returngap: {report['board']['name']}: {s['findings']} finding(s) "
+    status = "INCOMPLETE board data (partial answer): " if s.get("status") == "incomplete" else ""
+    return (f"returngap: {report['board']['name']}: {status}{s['findings']} finding(s) "
             f"({s['error']} error, {s['warning']} warning, {s['info']} info) on {s['tracks_checked']} track(s); "
             f"estimates only, see disclaimer")
 
 
+def notes_block(report, quiet=False):
+    """What the JSON knows beyond the findings: ignored files, defaults, repairs, the gate's
+    problems. Always shown; one line when quiet."""
+    notes, ignored = report.get("assumptions") or [], (report.get("board") or {}).get("ignored") or []
+    if quiet:
+        if not notes and not ignored:
+            return ""
+        return f"{len(notes)} assumption(s), {len(ignored)} ignored file(s); see the report"
+    lines = []
+    if notes:
+        lines.append(f"assumptions and warnings ({len(notes)}):")
+        lines += [f"  - {a}" for a in notes]
+    if ignored:
+        lines.append(f"ignored files ({len(ignored)}):")
+        lines += [f"  - {i['file']}: {i['reason']}" for i in ignored]
+    return "\n".join(lines)
+
+
 def layers_text(rep):
     out = [f"board {rep['name']} ({rep['source']}), outline {rep['outline_area_mm2']:.1f} mm2, "
-           f"{rep['board_thickness_mm']:.3f} mm thick, stackup from {rep['stackup_source']}", "", "copper layers (top to bottom):"]
+           f"{rep['board_thickness_mm']:.3f} mm thick, stackup from {rep['stackup_source']}",
+           f"outline from {rep.get('outline_file') or 'the copper'}: {rep.get('outline_why')}", "",
+           "copper layers (top to bottom):"]
     for c in rep["copper_layers"]:
         out.append(f"  {c['name']:4} {c['side']:6} {c['polarity']:8} {c['copper_area_mm2']:10.1f} mm2  "
                    f"{c['net_count']:4} nets  {c['file']}  [{c['identified_by']}]")
@@ -149,14 +177,17 @@ def layers_text(rep):
         out.append(f"  {d['between'][0]}-{d['between'][1]}: {d['thickness_mm']:.4f} mm, er {d['er']:.2f} [{d['source']}]")
     out.append("drills:")
     for d in rep["drills"]:
-        out.append(f"  {d['file']}: {'plated' if d['plated'] else 'non-plated'} {d['from_layer']}-{d['to_layer']}, "
-                   f"{d['hole_count']} holes")
+        out.append(f"  {d['file']}: {d['plating']} {d['from_layer']}-{d['to_layer']}, {d['hole_count']} holes "
+                   f"(span: {d['span_source']}; plating: {d['plating_source']})")
     if rep["ignored"]:
         out.append("ignored files:")
         out += [f"  {i['file']}: {i['reason']}" for i in rep["ignored"]]
     if rep["assumptions"]:
         out.append("assumptions:")
         out += [f"  - {a}" for a in rep["assumptions"]]
+    if rep.get("problems"):
+        out.append("incomplete board data (check refuses it without --allow-incomplete):")
+        out += [f"  - {p}" for p in rep["problems"]]
     return "\n".join(out)
 
 
@@ -210,7 +241,16 @@ def to_junit(report, fail_on="error"):
             out = escape("\n".join(f"[{f['severity']}] {f['id']} {f['message']}" for f in fs))
             body.append(f"  <testcase name={name} classname={cls}>" + (f"<system-out>{out}</system-out>" if fs else "")
                         + "</testcase>")
+    status = report["summary"].get("status", "complete")
+    skipped = 0
+    if status == "incomplete":  # a partial answer: visible in every CI view, but not a failure by itself
+        skipped = 1
+        why = quoteattr("incomplete board data: " + "; ".join(report.get("problems") or [])[:2000])
+        body.insert(0, f'  <testcase name="board data complete" classname='
+                       f'{quoteattr("returngap." + report["board"]["name"] + ".completeness")}>'
+                       f'<skipped message={why}/></testcase>')
     head = (f'<?xml version="1.0" encoding="UTF-8"?>\n<testsuites name="returngap">\n'
             f' <testsuite name={quoteattr("returngap " + report["board"]["name"])} tests="{len(body)}" '
-            f'failures="{failures}" errors="0" skipped="0">')
+            f'failures="{failures}" errors="0" skipped="{skipped}">\n'
+            f'  <properties><property name="status" value="{status}"/></properties>')
     return "\n".join([head] + [" " + b for b in body] + [" </testsuite>", "</testsuites>", ""])
