@@ -837,9 +837,12 @@ def _profile_candidates(roles, bf, texts, notes, parsed_cache):
     for name, role in roles.items():
         if role.kind == "profile":
             rank = {"stackup file": 0, "X2 attribute": 1, "job file": 2}.get(role.source, 3)
+            if rank == 3 and not OUTLINE_NAME_RE.search(PurePosixPath(name).name):
+                rank = 5  # the name rules call every mechanical layer an outline
             ranked.append((rank, name))
         elif role.kind == "other" and MECHANICAL_NAME_RE.search(PurePosixPath(name).name):
-            ranked.append((4, name))
+            # a layer named as the outline before a drawing layer that may also show it
+            ranked.append((4 if OUTLINE_NAME_RE.search(PurePosixPath(name).name) else 5, name))
     by_name = {f.name: f for f in bf.fab}
     out = []
     for rank, name in sorted(ranked):
@@ -856,6 +859,7 @@ def _profile_candidates(roles, bf, texts, notes, parsed_cache):
     return out
 
 
+OUTLINE_NAME_RE = re.compile(r"(\.gko|\.gml|edge[_.-]?cuts|outline|profile|dimension|contour)", re.I)
 MECHANICAL_NAME_RE = re.compile(r"(\.gm\d+|\.gko|\.gml|edge[_.-]?cuts|outline|profile|dimension|mech)", re.I)
 
 

@@ -21,9 +21,9 @@ __all__ = ["CopperSample", "Loops", "OutlineChoice", "choose", "loops_of", "copp
 
 WELD_MM = 0.005          # stroke ends closer than this are one point (writers round differently)
 MIN_CONTAINED = 0.95     # share of the copper area an outline must hold (our own judgement, no source)
+DRAWING_RANK = 5         # candidates of this rank are mechanical drawing layers, not named as the outline
 NEAR_BEST = 0.005        # a loop within this share of the best-holding loop holds "all" the copper (same)
 MAX_AREA_RATIO = 3.0     # outline area / extent of the copper inside it (our own judgement, no source)
-EMPTY_CUTOUT = 0.05      # an inner loop whose area is at most this share copper is a cut-out (same)
 
 
 @dataclass
@@ -34,18 +34,29 @@ class CopperSample:
     xy: np.ndarray
     area: np.ndarray
     boxes: np.ndarray
+    pieces: np.ndarray
 
     @property
     def total(self):
         return float(self.area.sum()) or 1.0
 
+    def covered(self, pts):
+        """Per point: does copper of any layer lie there?"""
+        if not len(self.pieces):
+            return np.zeros(len(pts), dtype=bool)
+        if getattr(self, "_tree", None) is None:
+            self._tree = shapely.STRtree(self.pieces)
+        hit = np.zeros(len(pts), dtype=bool)
+        hit[self._tree.query(pts, predicate="intersects")[0]] = True
+        return hit
+
 
 def copper_sample(layers):
     pieces = np.concatenate([c.pieces for c in layers if len(c.pieces)] or [np.zeros(0, dtype=object)])
     if not len(pieces):
-        return CopperSample(np.zeros((0, 2)), np.zeros(0), np.zeros((0, 4)))
+        return CopperSample(np.zeros((0, 2)), np.zeros(0), np.zeros((0, 4)), pieces)
     return CopperSample(shapely.get_coordinates(shapely.point_on_surface(pieces)), shapely.area(pieces),
-                        shapely.bounds(pieces))
+                        shapely.bounds(pieces), pieces)
 
 
 @dataclass
@@ -139,17 +150,20 @@ def fit(sample, poly):
 
 
 def _cutouts(shell, loops_list, sample):
-    """Faces inside the shell that hold no copper on any layer: cut-outs. (A face inside a cut-out is
-    board again and holds copper; it stays.)"""
-    out = []
-    for loops in loops_list:
-        for face in loops.faces:
-            if face.area >= shell.area * 0.999 or not shell.contains(face.representative_point()):
-                continue
-            share = _contained(sample, face)[0] * sample.total / face.area if len(sample.xy) else 1.0
-            if share <= EMPTY_CUTOUT:
-                out.append(face)
-    return out
+    """Faces inside the shell with no copper of any layer at their interior point: cut-outs. (A face
+    inside a cut-out is board again and holds copper; a part outline drawn over a plane holds the
+    plane's copper: both stay.)"""
+    faces = [f for loops in loops_list for f in loops.faces
+             if f.area < shell.area * 0.999 and shell.contains(f.representative_point())]
+    if not faces:
+        return []
+    pts = shapely.point_on_surface(np.array(faces, dtype=object))
+    return [f for f, hit in zip(faces, sample.covered(pts)) if not hit]
+
+
+def _faces_inside(loops, shell):
+    pts = shapely.point_on_surface(np.array(loops.faces, dtype=object))
+    return int(shapely.contains_xy(shell, shapely.get_coordinates(pts)[:, 0], shapely.get_coordinates(pts)[:, 1]).sum())
 
 
 @dataclass
@@ -164,8 +178,8 @@ class OutlineChoice:
 def choose(candidates, sample):
     """candidates: [(file name, Loops, rank, object count)], rank lower = more trusted source.
     Of the loops with a plausible area that hold nearly as much copper as the best one (and at least
-    MIN_CONTAINED), the smallest wins; ties go to the more trusted source, then the file drawing
-    fewer objects. None when nothing fits."""
+    MIN_CONTAINED), the smallest wins; ties go to the more trusted source, then the file that draws
+    fewest other figures inside the loop. None when nothing fits."""
     fits = []
     for name, loops, rank, n_objects in candidates:
         seen = set()
@@ -185,12 +199,17 @@ def choose(candidates, sample):
     fits = [f for f in fits if f[5] >= best_share - NEAR_BEST]
     smallest = min(f[0] for f in fits)
     # the same loop drawn on several layers (assembly drawings repeat the outline): the most trusted
-    # source, then the plainest file
-    _, _, _, name, shell, share, ratio = min((f for f in fits if f[0] <= smallest * 1.005),
-                                                  key=lambda f: (f[1], f[2], f[0], f[3]))
+    # source, then the plainest drawing (fewest faces inside the loop: part outlines, notes)
+    same = [f for f in fits if f[0] <= smallest * 1.005]
+    loops_of_file = {n: lp for n, lp, _, _ in candidates}
+    _, _, _, name, shell, share, ratio = min(same, key=lambda f: (
+        f[1], _faces_inside(loops_of_file[f[3]], f[4]), f[0], f[3]))
+    rank = min(r for n, _, r, _ in candidates if n == name)
     same_file = [lp for n, lp, _, _ in candidates if n == name]
-    cuts = _cutouts(shell, same_file, sample)
+    # a drawing layer's empty faces are part outlines and keep-outs as often as cut-outs
+    cuts = _cutouts(shell, same_file, sample) if rank <= DRAWING_RANK - 1 else []
     poly = shell.difference(shapely.union_all(cuts)) if cuts else shell
     why = (f"the smallest closed loop holding {share:.1%} of the copper"
-           + (f", {len(cuts)} cut-out(s)" if cuts else ""))
+           + (f", {len(cuts)} cut-out(s)" if cuts else "")
+           + ("; a drawing layer, so no cut-outs taken from it" if rank >= DRAWING_RANK else ""))
     return OutlineChoice(poly, name, why, share, ratio)
