@@ -3,7 +3,7 @@ PYTHON ?= $(shell for p in python3.12 $$(ls -d /root/.pyenv/versions/3.12*/bin/p
 VENV := .venv
 BIN := $(VENV)/bin
 
-.PHONY: venv demo test bench corpus fuzz clean
+.PHONY: venv demo test bench corpus fuzz golden clean
 
 $(BIN)/returngap: pyproject.toml
 	@test -n "$(PYTHON)" || { echo "error: Python 3.12 or newer not found (set PYTHON=...)"; exit 2; }
@@ -20,6 +20,9 @@ demo: venv
 
 test: venv
 	$(BIN)/python -m pytest
+
+golden: venv  # rewrites testdata/golden/: only when a change of the findings is meant
+	$(BIN)/python tests/golden.py
 
 corpus: venv
 	RETURNGAP_SLOW=1 $(BIN)/python -m pytest tests/test_corpus.py --durations=0
