@@ -19,6 +19,8 @@ demo: venv
 		--json out/demo/findings.json --out out/demo --fail-on never
 
 test: venv
+	$(BIN)/ruff check .
+	$(BIN)/ruff format --check .
 	$(BIN)/python -m pytest
 
 golden: venv  # rewrites testdata/golden/: only when a change of the findings is meant

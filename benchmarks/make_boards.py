@@ -1,4 +1,5 @@
-"""Synthetic dense boards for the benchmark, written as real Gerber X2 and Excellon by returngap.synth.
+"""Synthetic dense boards for the benchmark, written as real Gerber X2 and Excellon by
+returngap.synth.
 
 A 4-layer board: signal tracks (meanders of 50 segments, one per cell and layer, never shorted) on
 L1 and L4, ground on L2 and a split power plane on L3, vias in proportion to the tracks (each with
@@ -28,22 +29,30 @@ def _serpentine(rng, lo, hi, per, vertical):
         run = (a, b) if k % 2 == 0 else (b, a)
         pts += [(run[0], along), (run[1], along)]
         along += step
-    pts = pts[:per + 1]
+    pts = pts[: per + 1]
     return [(y, x) for x, y in pts] if vertical else pts
 
 
 def build(n_segments, seed=1):
-    """Tracks meander each in its own cell of a grid, one on L1 and one on L4 per cell, so nets never
+    """Tracks meander each in its own cell of a grid, one on L1 and one on L4 per cell, so nets
+    never
     short (as on a released board); each track ends in a via at a corner of its cell; GND stitching
-    vias sit at the other corners. Slots in the GND plane and the split in the power plane cross many
+    vias sit at the other corners. Slots in the GND plane and the split in the power plane cross
+    many
     cells, so there are findings to compute."""
     rng = random.Random(seed)
     side = max(40.0, (n_segments * 1.6) ** 0.5)  # keeps track density roughly constant
-    b = SynthBoard(f"bench{n_segments}", side, side, n_layers=4, dielectrics=[(0.2, 4.3), (1.0, 4.3), (0.2, 4.3)])
+    b = SynthBoard(
+        f"bench{n_segments}",
+        side,
+        side,
+        n_layers=4,
+        dielectrics=[(0.2, 4.3), (1.0, 4.3), (0.2, 4.3)],
+    )
     b.planes.append((2, "GND", rect(0, 0, side, side)))
     b.planes.append((3, "+3V3", rect(0, 0, side / 2 - 0.4, side)))
     b.planes.append((3, "+1V8", rect(side / 2 + 0.4, 0, side, side)))
-    for k in range(max(1, int(side // 40))):
+    for _ in range(max(1, int(side // 40))):
         x = rng.uniform(5, side - 5)
         y = rng.uniform(5, side - 25)
         b.cutouts.append((2, rect(x - 0.4, y, x + 0.4, y + 15)))
@@ -57,20 +66,30 @@ def build(n_segments, seed=1):
             if t >= n_tracks:
                 break
             x0, y0 = cx * pitch, cy * pitch
-            for layer, corner in ((1, (x0 + 0.5, y0 + 0.5)), (4, (x0 + pitch - 0.5, y0 + pitch - 0.5))):
+            for layer, corner in (
+                (1, (x0 + 0.5, y0 + 0.5)),
+                (4, (x0 + pitch - 0.5, y0 + pitch - 0.5)),
+            ):
                 if t >= n_tracks:
                     break
-                pts = [(x0 + u, y0 + v) for u, v in _serpentine(rng, 1.2, pitch - 1.2, per - 1, layer == 4)]
+                pts = [
+                    (x0 + u, y0 + v)
+                    for u, v in _serpentine(rng, 1.2, pitch - 1.2, per - 1, layer == 4)
+                ]
                 pts = [corner] + pts if layer == 1 else pts + [corner]
                 net = f"SIG{t}"
                 b.tracks.append((layer, net, pts, 0.1))
                 b.vias.append(Via(corner[0], corner[1], net, drill=0.2, pad=0.4, antipad=0.7))
                 t += 1
             if (cx + cy) % 2 == 0:
-                b.vias.append(Via(x0 + pitch - 0.5, y0 + 0.5, "GND", drill=0.2, pad=0.4, antipad=0.7))
+                b.vias.append(
+                    Via(x0 + pitch - 0.5, y0 + 0.5, "GND", drill=0.2, pad=0.4, antipad=0.7)
+                )
             elif (cx + cy) % 4 == 1:  # the power planes' own vias (else they would float)
                 power = "+3V3" if x0 + pitch / 2 < side / 2 else "+1V8"
-                b.vias.append(Via(x0 + 0.5, y0 + pitch - 0.5, power, drill=0.2, pad=0.4, antipad=0.7))
+                b.vias.append(
+                    Via(x0 + 0.5, y0 + pitch - 0.5, power, drill=0.2, pad=0.4, antipad=0.7)
+                )
     return b
 
 

@@ -22,7 +22,12 @@ from pathlib import Path
 HERE = Path(__file__).resolve().parent
 ROOT = HERE.parent
 CORPUS = ROOT.parent / "shared" / "corpus"
-CORPUS_CASES = {"poe-gpib-adapter": None, "vesc-4.12": None, "ulx3s-v3.1.1": None, "mch2022-badge": None}
+CORPUS_CASES = {
+    "poe-gpib-adapter": None,
+    "vesc-4.12": None,
+    "ulx3s-v3.1.1": None,
+    "mch2022-badge": None,
+}
 
 PARSE = """
 import sys, warnings, time
@@ -56,13 +61,16 @@ r = run_check(sys.argv[1], sys.argv[2] if len(sys.argv) > 2 and sys.argv[2] else
 report.findings_report(r)
 dt = time.perf_counter() - t
 segs = sum(len(l.segments) for l in r.board.copper)
-peak = max(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)
+peak = max(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss,
+resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)
 print(dt, segs, len(r.findings), peak / 1024)
 """
 
 
 def run(code, *args):
-    p = subprocess.run([sys.executable, "-c", code, *map(str, args)], capture_output=True, text=True)
+    p = subprocess.run(
+        [sys.executable, "-c", code, *map(str, args)], capture_output=True, text=True
+    )
     if p.returncode != 0:
         raise RuntimeError(p.stderr[-500:])
     return p.stdout.split()
@@ -71,18 +79,28 @@ def run(code, *args):
 def main():
     sizes = [int(x) for x in os.environ.get("BENCH_SIZES", "2500,10000,40000,160000").split(",")]
     tmp = Path(tempfile.mkdtemp(prefix="returngap-bench-"))  # removed at the end
-    subprocess.run([sys.executable, str(HERE / "make_boards.py"), str(tmp), *map(str, sizes)], check=True,
-                   capture_output=True)
-    os.sync()  # the generated files on disk first: their write-back would otherwise run during the first cases
+    subprocess.run(
+        [sys.executable, str(HERE / "make_boards.py"), str(tmp), *map(str, sizes)],
+        check=True,
+        capture_output=True,
+    )
+    # the generated files on disk first: their write-back would otherwise run during the first
+    # cases
+    os.sync()
     cases = [(f"synthetic {n}", tmp / f"seg{n}", None, n) for n in sizes]
     for slug, stack in CORPUS_CASES.items():
         if (CORPUS / slug).exists():
             cases.append((slug, CORPUS / slug, stack, None))
     rows = []
-    print(f"{'case':26} {'segments':>9} {'parse s':>8} {'check s':>8} {'ratio':>6} {'check MiB':>9} {'findings':>8} {'pairs':>5}")
+    print(
+        f"{'case':26} {'segments':>9} {'parse s':>8} {'check s':>8} {'ratio':>6} "
+        f"{'check MiB':>9} {'findings':>8} {'pairs':>5}"
+    )
     for name, path, stack, _ in cases:
         pairs, mem, spent = [], 0.0, 0.0
-        run(PARSE, path)  # a pair unmeasured first: files into the page cache, both sides warmed alike
+        run(
+            PARSE, path
+        )  # a pair unmeasured first: files into the page cache, both sides warmed alike
         run(CHECK, path, stack or "")
         while len(pairs) < 5 or (len(pairs) < 9 and spent < 60.0):
             tp = float(run(PARSE, path)[0])
@@ -92,10 +110,23 @@ def main():
         tp = statistics.median(p for p, _ in pairs)
         tc = statistics.median(c for _, c in pairs)
         ratio = statistics.median(c / p for p, c in pairs)
-        rows.append({"case": name, "segments": int(segs), "parse_s": tp, "check_s": tc, "ratio": ratio,
-                     "pairs": len(pairs), "check_peak_MiB": mem, "findings": int(nf)})
+        rows.append(
+            {
+                "case": name,
+                "segments": int(segs),
+                "parse_s": tp,
+                "check_s": tc,
+                "ratio": ratio,
+                "pairs": len(pairs),
+                "check_peak_MiB": mem,
+                "findings": int(nf),
+            }
+        )
         r = rows[-1]
-        print(f"{name:26} {r['segments']:>9} {tp:>8.2f} {tc:>8.2f} {ratio:>6.2f} {mem:>9.0f} {r['findings']:>8} {len(pairs):>5}")
+        print(
+            f"{name:26} {r['segments']:>9} {tp:>8.2f} {tc:>8.2f} {ratio:>6.2f} {mem:>9.0f} "
+            f"{r['findings']:>8} {len(pairs):>5}"
+        )
     synth = [r for r in rows if r["case"].startswith("synthetic")]
     if len(synth) >= 2:
         xs = [math.log(r["segments"]) for r in synth]
@@ -105,9 +136,15 @@ def main():
     else:
         exponent = float("nan")
     ratios = sorted(r["ratio"] for r in rows)
-    median = ratios[len(ratios) // 2] if len(ratios) % 2 else (ratios[len(ratios) // 2 - 1] + ratios[len(ratios) // 2]) / 2
+    median = (
+        ratios[len(ratios) // 2]
+        if len(ratios) % 2
+        else (ratios[len(ratios) // 2 - 1] + ratios[len(ratios) // 2]) / 2
+    )
     (ROOT / "out").mkdir(exist_ok=True)
-    (ROOT / "out" / "bench.json").write_text(json.dumps({"rows": rows, "exponent": exponent}, indent=1))
+    (ROOT / "out" / "bench.json").write_text(
+        json.dumps({"rows": rows, "exponent": exponent}, indent=1)
+    )
     shutil.rmtree(tmp, ignore_errors=True)
     print(f"bench: ratio_check_to_parse={median:.2f} exponent={exponent:.2f}")
 

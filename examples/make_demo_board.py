@@ -6,7 +6,8 @@ Deliberate problems, each one a thing the check should report:
   2. The RMII pair RMII_TXD0/RMII_TXD1 on L4 crosses the 3V3/1V8 split in L3.
   3. ADC_MCLK on L1 runs across a fence of merged via antipads in L2 (a slot made of holes).
   4. SD_CMD on L1 runs beside a 5 mm keep-out void in L2 (its footprint grazes it).
-Everything else (a 12-line data bus, sensor lines, bottom-side control lines) runs over solid copper.
+Everything else (a 12-line data bus, sensor lines, bottom-side control lines) runs over solid
+copper.
 
 Usage: python examples/make_demo_board.py [FOLDER]   (default: examples/demo-board)
 """
@@ -21,11 +22,17 @@ from returngap.synth import SynthBoard, Via, rect  # noqa: E402
 
 def circle(cx, cy, r, n=48):
     import math
-    return [(cx + r * math.cos(2 * math.pi * k / n), cy + r * math.sin(2 * math.pi * k / n)) for k in range(n)]
+
+    return [
+        (cx + r * math.cos(2 * math.pi * k / n), cy + r * math.sin(2 * math.pi * k / n))
+        for k in range(n)
+    ]
 
 
 def build():
-    b = SynthBoard("tidelog-r2", 80.0, 50.0, n_layers=4, dielectrics=[(0.18, 4.2), (1.13, 4.5), (0.18, 4.2)])
+    b = SynthBoard(
+        "tidelog-r2", 80.0, 50.0, n_layers=4, dielectrics=[(0.18, 4.2), (1.13, 4.5), (0.18, 4.2)]
+    )
     b.planes.append((2, "GND", rect(0.3, 0.3, 79.7, 49.7)))
     b.planes.append((3, "+3V3", rect(0.3, 0.3, 44.8, 49.7)))
     b.planes.append((3, "+1V8", rect(45.6, 0.3, 79.7, 49.7)))
@@ -66,10 +73,13 @@ def build():
         b.tracks.append((4, net, [(50.0, 30.0 + k), (76.0, 30.0 + k)], 0.15))
     # ground stitching: a 6 mm grid, kept clear of tracks, pads and other vias
     import shapely
-    keep_out = shapely.union_all([shapely.LineString(pts).buffer(w / 2 + 0.5) for _, _, pts, w in b.tracks]
-                                 + [shapely.Point(v.x, v.y).buffer(1.2) for v in b.vias]
-                                 + [shapely.Polygon(p).buffer(0.6) for _, p in b.cutouts]
-                                 + [shapely.box(44.6, 0, 45.8, 50)])
+
+    keep_out = shapely.union_all(
+        [shapely.LineString(pts).buffer(w / 2 + 0.5) for _, _, pts, w in b.tracks]
+        + [shapely.Point(v.x, v.y).buffer(1.2) for v in b.vias]
+        + [shapely.Polygon(p).buffer(0.6) for _, p in b.cutouts]
+        + [shapely.box(44.6, 0, 45.8, 50)]
+    )
     for x in range(3, 80, 6):
         for y in range(3, 50, 6):
             if not keep_out.intersects(shapely.Point(x, y)):

@@ -1,4 +1,3 @@
-import sys
 import warnings
 from pathlib import Path
 
@@ -23,6 +22,7 @@ def write(tmp_path):
         p.parent.mkdir(parents=True, exist_ok=True)
         p.write_text(text)
         return p
+
     return _write
 
 

@@ -20,22 +20,27 @@ VOLATILE = {"source", "tool_version"}  # paths and versions differ between machi
 def _synthetic(build):
     def make():
         from returngap import pipeline, report
+
         with tempfile.TemporaryDirectory() as tmp:
             folder = build(Path(tmp) / "board")
             return report.findings_report(pipeline.run_check(folder, Path(folder) / "stackup.toml"))
+
     return make
 
 
 def _folder(path, stackup=None):
     def make():
         from returngap import pipeline, report
+
         return report.findings_report(pipeline.run_check(path, stackup))
+
     return make
 
 
 def cases():
     """name -> (needs the corpus, function returning the findings report)."""
     from boards import hazard_board, slot_board, stripline_board
+
     demo = ROOT / "examples" / "demo-board"
     return {
         "demo-board": (False, _folder(demo, demo / "stackup.toml")),
@@ -72,8 +77,11 @@ def differences(want, got, where="", limit=20):
         for i, (a, b) in enumerate(zip(want, got)):
             out += differences(a, b, f"{where}[{i}]", limit)
     elif isinstance(want, float) or isinstance(got, float):
-        if not (isinstance(want, (int, float)) and isinstance(got, (int, float))
-                and math.isclose(want, got, rel_tol=REL, abs_tol=ABS)):
+        if not (
+            isinstance(want, (int, float))
+            and isinstance(got, (int, float))
+            and math.isclose(want, got, rel_tol=REL, abs_tol=ABS)
+        ):
             out.append(f"{where}: {want!r} -> {got!r}")
     elif want != got:
         out.append(f"{where}: {want!r} -> {got!r}")
@@ -88,11 +96,14 @@ def write_all(names=None):
         if needs_corpus and not CORPUS.exists():
             print(f"golden: {name} skipped (no corpus)")
             continue
-        (GOLDEN / f"{name}.json").write_text(json.dumps(frozen(make()), indent=1, ensure_ascii=False) + "\n")
+        (GOLDEN / f"{name}.json").write_text(
+            json.dumps(frozen(make()), indent=1, ensure_ascii=False) + "\n"
+        )
         print(f"golden: wrote {name}.json")
 
 
 if __name__ == "__main__":
     import warnings
+
     warnings.simplefilter("ignore")
     write_all(sys.argv[1:])

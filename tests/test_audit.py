@@ -1,4 +1,5 @@
-"""Batch audit: good boards reported, bad ones failed with a reason, nothing outside --out, resumable, Dask."""
+"""Batch audit: good boards reported, bad ones failed with a reason, nothing outside --out,
+resumable, Dask."""
 
 import json
 import os
@@ -8,7 +9,6 @@ import subprocess
 import sys
 import time
 import zipfile
-from pathlib import Path
 
 import pytest
 
@@ -24,8 +24,8 @@ def _zip_folder(folder, target, rename=None):
             z.write(p, (rename(p.name) if rename else p.name))
 
 
-N_ZIPS = 12                  # every kind of good board at least once, some twice, some renamed
-N_BOARDS = N_ZIPS + 4 + 6    # the zips, four plain folders, six bad inputs
+N_ZIPS = 12  # every kind of good board at least once, some twice, some renamed
+N_BOARDS = N_ZIPS + 4 + 6  # the zips, four plain folders, six bad inputs
 
 
 @pytest.fixture(scope="module")
@@ -50,7 +50,9 @@ def batch(tmp_path_factory):
             n += 1
             target = src / f"rev{n:02d}-{name}.zip"
             # some archives have their files renamed: X2 attributes still identify every layer
-            rename = (lambda fn, n=n: f"film{n}-" + fn.replace(".gbr", ".art")) if n % 3 == 0 else None
+            rename = (
+                (lambda fn, n=n: f"film{n}-" + fn.replace(".gbr", ".art")) if n % 3 == 0 else None
+            )
             _zip_folder(folder, target, rename)
             good.append(target.stem)
     for k in range(4):  # plain folders nested in the tree
@@ -71,7 +73,9 @@ def batch(tmp_path_factory):
     bad["bomb"] = "possible zip bomb"
     bad_board = src / "unreadable"
     shutil.copytree(kinds["slot0"], bad_board)
-    (bad_board / "t-L2.gbr").write_text("%TF.FileFunction,Copper,L2,Inr*%\n%FSLAX46Y46*%\n%MOMM*%\nD11*\nX0Y0D03*\nM02*\n")
+    (bad_board / "t-L2.gbr").write_text(
+        "%TF.FileFunction,Copper,L2,Inr*%\n%FSLAX46Y46*%\n%MOMM*%\nD11*\nX0Y0D03*\nM02*\n"
+    )
     bad["unreadable"] = "undefined aperture 11"
     with zipfile.ZipFile(src / "locked.zip", "w") as z:
         z.writestr("a.gbr", "x")
@@ -85,12 +89,19 @@ def batch(tmp_path_factory):
 
 
 def _snapshot(root, skip):
-    return sorted(str(p.relative_to(root)) for p in root.rglob("*") if skip not in p.parents and p != skip)
+    return sorted(
+        str(p.relative_to(root)) for p in root.rglob("*") if skip not in p.parents and p != skip
+    )
 
 
 def _audit(*args, timeout=600):
-    return subprocess.run([sys.executable, "-m", "returngap.cli", "audit", *map(str, args)], capture_output=True,
-                          text=True, timeout=timeout, env=dict(os.environ, CI="1"))
+    return subprocess.run(
+        [sys.executable, "-m", "returngap.cli", "audit", *map(str, args)],
+        capture_output=True,
+        text=True,
+        timeout=timeout,
+        env=dict(os.environ, CI="1"),
+    )
 
 
 def _rows(out):
@@ -110,9 +121,14 @@ def test_batch_reports_good_and_fails_bad_and_writes_only_out(batch):
         assert rows[name]["status"] in ("ok", "findings"), (name, rows[name]["reason"])
         assert (out / rows[name]["report"]).is_file()
     for name, why in bad.items():
-        assert rows[name]["status"] == "failed" and why in rows[name]["reason"], (name, rows[name]["reason"])
+        assert rows[name]["status"] == "failed" and why in rows[name]["reason"], (
+            name,
+            rows[name]["reason"],
+        )
     assert data["totals"]["failed"] == len(bad)
-    assert data["totals"]["ok"] == sum(1 for n in good if "solid" in n)  # solid planes report nothing
+    assert data["totals"]["ok"] == sum(
+        1 for n in good if "solid" in n
+    )  # solid planes report nothing
     assert data["totals"]["ok"] + data["totals"]["findings"] == len(good)
     assert _snapshot(root, out) == before  # nothing written outside --out
     assert not (root.parent / "escaped.gbr").exists()
@@ -124,9 +140,23 @@ def test_batch_reports_good_and_fails_bad_and_writes_only_out(batch):
 def test_killed_audit_resumes_without_redoing(batch, tmp_path):
     root, src, good, bad = batch
     out = tmp_path / "out"
-    proc = subprocess.Popen([sys.executable, "-m", "returngap.cli", "audit", str(src), "--out", str(out), "--jobs", "1"],
-                            stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, start_new_session=True,
-                            env=dict(os.environ, CI="1"))
+    proc = subprocess.Popen(
+        [
+            sys.executable,
+            "-m",
+            "returngap.cli",
+            "audit",
+            str(src),
+            "--out",
+            str(out),
+            "--jobs",
+            "1",
+        ],
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+        start_new_session=True,
+        env=dict(os.environ, CI="1"),
+    )
     deadline = time.time() + 300
     while time.time() < deadline and len(list(out.glob("boards/*/status.json"))) < 5:
         time.sleep(0.2)
@@ -141,8 +171,12 @@ def test_killed_audit_resumes_without_redoing(batch, tmp_path):
     assert len(after) == N_BOARDS  # nothing lost
     ref = root / "out"
     if (ref / "summary.json").exists():
-        strip = lambda d: [{k: v for k, v in r.items() if k not in ("source", "report")} for r in d["rows"]]
-        assert strip(json.loads((out / "summary.json").read_text())) == strip(json.loads((ref / "summary.json").read_text()))
+        strip = lambda d: [
+            {k: v for k, v in r.items() if k not in ("source", "report")} for r in d["rows"]
+        ]
+        assert strip(json.loads((out / "summary.json").read_text())) == strip(
+            json.loads((ref / "summary.json").read_text())
+        )
     p2 = _audit(src, "--out", out, "--force", "--jobs", "2")
     assert f"{N_BOARDS} run" in p2.stdout
 
@@ -150,21 +184,30 @@ def test_killed_audit_resumes_without_redoing(batch, tmp_path):
 def test_dask_path_gives_the_same_summary(batch, tmp_path):
     pytest.importorskip("dask.distributed")
     from dask.distributed import LocalCluster
+
     root, src, good, bad = batch
-    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1", protocol="tcp",
-                      dashboard_address=None) as cluster:
+    with LocalCluster(
+        n_workers=2,
+        threads_per_worker=1,
+        processes=True,
+        host="127.0.0.1",
+        protocol="tcp",
+        dashboard_address=None,
+    ) as cluster:
         out = tmp_path / "dask"
         p = _audit(src, "--out", out, "--scheduler", cluster.scheduler_address)
     assert p.returncode == 1, p.stderr
     ref = tmp_path / "local"
     _audit(src, "--out", ref, "--jobs", "2")
     strip = lambda d: [{k: v for k, v in r.items() if k not in ("report",)} for r in d["rows"]]
-    assert strip(json.loads((out / "summary.json").read_text())) == strip(json.loads((ref / "summary.json").read_text()))
+    assert strip(json.loads((out / "summary.json").read_text())) == strip(
+        json.loads((ref / "summary.json").read_text())
+    )
 
 
 def test_time_limit_marks_the_board_failed(tmp_path):
-    board = slot_board(tmp_path / "in" / "slow")
-    p = _audit(tmp_path / "in", "--out", tmp_path / "out", "--time-limit", "0.2")
+    slot_board(tmp_path / "in" / "slow")
+    _audit(tmp_path / "in", "--out", tmp_path / "out", "--time-limit", "0.2")
     data, rows = _rows(tmp_path / "out")
     assert rows["slow"]["status"] == "failed" and "time limit" in rows["slow"]["reason"]
 
@@ -172,12 +215,15 @@ def test_time_limit_marks_the_board_failed(tmp_path):
 def test_discovery_of_gerber_and_drill_sibling_folders(tmp_path):
     # some exports put Gerbers in one folder and drills in a sibling: that parent is one board
     from returngap.audit import discover
+
     board = slot_board(tmp_path / "seed")
     root = tmp_path / "tree" / "rev-c"
     (root / "Gerber").mkdir(parents=True)
     (root / "NC Drill").mkdir()
     for p in board.iterdir():
-        (root / ("NC Drill" if p.suffix == ".drl" else "Gerber") / p.name).write_bytes(p.read_bytes())
+        (root / ("NC Drill" if p.suffix == ".drl" else "Gerber") / p.name).write_bytes(
+            p.read_bytes()
+        )
     (tmp_path / "tree" / "notes.md").write_text("%FSLAX46Y46*% is how a Gerber file starts\n")
     found = discover([tmp_path / "tree"])
     assert [p for _, p in found] == [root]

@@ -1,4 +1,5 @@
-"""Every file in testdata/bad gets a clear one-line error or a stated recovery; mutated inputs never crash."""
+"""Every file in testdata/bad gets a clear one-line error or a stated recovery; mutated inputs
+never crash."""
 
 import os
 import random
@@ -7,7 +8,8 @@ import shutil
 import signal
 
 import pytest
-from hypothesis import HealthCheck, given, settings, strategies as st
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from conftest import TESTDATA
 from returngap import importer
@@ -20,7 +22,10 @@ BAD = TESTDATA / "bad"
 ERRORS = {
     "absurd-format.gbr": (2, "coordinate format 9.9 / 9.9 is outside"),
     "binary-junk.gbr": (None, "binary data"),
-    "coordinate-beyond-format.gbr": (None, "from the origin; the number format or the data is wrong"),
+    "coordinate-beyond-format.gbr": (
+        None,
+        "from the origin; the number format or the data is wrong",
+    ),
     "empty.gbr": (None, "empty file"),
     "mixed-units.gbr": (8, "changes units in the middle of the file"),
     "no-header.drl": (None, "drill file has no M48 header"),
@@ -69,7 +74,7 @@ def mutate(data, rng):
     b = bytearray(data)
     op = rng.randrange(6)
     if op == 0 and b:
-        return bytes(b[:rng.randrange(len(b))])
+        return bytes(b[: rng.randrange(len(b))])
     if op == 1:
         for _ in range(rng.randrange(1, 8)):
             if b:
@@ -89,9 +94,13 @@ def mutate(data, rng):
         for _ in range(rng.randrange(1, 5)):
             if pos:
                 i = rng.choice(pos)
-                s = s[:i] + str(rng.randrange(10)) * rng.randrange(1, 4) + s[i + 1:]
+                s = s[:i] + str(rng.randrange(10)) * rng.randrange(1, 4) + s[i + 1 :]
         return s.encode("latin-1")
-    return bytes(rng.randrange(256) for _ in range(rng.randrange(0, 200))) if rng.random() < 0.3 else data + b"%%*G36"
+    return (
+        bytes(rng.randrange(256) for _ in range(rng.randrange(0, 200)))
+        if rng.random() < 0.3
+        else data + b"%%*G36"
+    )
 
 
 class _Hang(Exception):
@@ -101,6 +110,7 @@ class _Hang(Exception):
 def _run_bounded(folder, seconds=20):
     def alarm(*_):
         raise _Hang()
+
     old = signal.signal(signal.SIGALRM, alarm)
     signal.alarm(seconds)
     try:
@@ -114,12 +124,13 @@ def _run_bounded(folder, seconds=20):
 
 
 def test_mutated_boards_end_in_a_report_or_a_clear_error(tmp_path):
-    """Mutation fuzzing of a whole fabrication set: no uncaught exception, no hang (FUZZ_N inputs, default 2000)."""
+    """Mutation fuzzing of a whole fabrication set: no uncaught exception, no hang (FUZZ_N inputs,
+    default 2000)."""
     seed = _seed_board(tmp_path / "seed")
     rng = random.Random(20261202)
     n = int(os.environ.get("FUZZ_N", "2000"))
     outcomes = {"report": 0, "error": 0}
-    for i in range(n):
+    for _ in range(n):
         folder = tmp_path / "m"
         folder.mkdir()
         target = rng.choice(sorted(seed))
@@ -131,7 +142,9 @@ def test_mutated_boards_end_in_a_report_or_a_clear_error(tmp_path):
     assert outcomes["error"] > 0 and outcomes["report"] > 0
 
 
-@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(
+    max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
 @given(st.binary(max_size=400), st.sampled_from(["t.gbr", "t.drl", "t.gbrjob", "t.ipc"]))
 def test_arbitrary_bytes_next_to_a_good_layer(tmp_path_factory, blob, name):
     folder = tmp_path_factory.mktemp("h")
@@ -143,6 +156,7 @@ def test_arbitrary_bytes_next_to_a_good_layer(tmp_path_factory, blob, name):
 def test_mutated_corpus_copper_file(tmp_path):
     """A real copper layer (KiCad X2 output), mutated: a report or a clear error, every time."""
     from conftest import corpus_board
+
     src = corpus_board("poe-gpib-adapter") / "PoE_Ethernet_GPIB_Adapter-In1_Cu.gbr"
     data = src.read_bytes()
     rng = random.Random(7)
@@ -158,10 +172,22 @@ def test_mutated_corpus_copper_file(tmp_path):
 
 def test_csv_is_deterministic(tmp_path):
     from click.testing import CliRunner
+
     from conftest import ROOT
     from returngap.cli import main
+
     for k in ("a", "b"):
-        CliRunner().invoke(main, ["check", str(ROOT / "examples" / "demo-board"), "--out", str(tmp_path / k),
-                                  "--fail-on", "never", "-q"])
+        CliRunner().invoke(
+            main,
+            [
+                "check",
+                str(ROOT / "examples" / "demo-board"),
+                "--out",
+                str(tmp_path / k),
+                "--fail-on",
+                "never",
+                "-q",
+            ],
+        )
     for name in ("findings.json", "findings.csv", "junit.xml"):
         assert (tmp_path / "a" / name).read_bytes() == (tmp_path / "b" / name).read_bytes(), name

@@ -3,10 +3,8 @@
 import json
 import subprocess
 import sys
-from pathlib import Path
 
 import jsonschema
-import pytest
 from click.testing import CliRunner
 
 from conftest import ROOT
@@ -30,18 +28,29 @@ def test_check_demo_json_validates_and_fails_on_error(tmp_path):
     gaps = [f for f in rep["findings"] if f["kind"] == "gap-crossing"]
     kinds = {(f["net"], f["gap_type"]) for f in gaps}
     # the four deliberate problems of examples/make_demo_board.py
-    assert {("SPI_SCK", "slot"), ("RMII_TXD0", "split"), ("RMII_TXD1", "split"), ("ADC_MCLK", "slot"),
-            ("SD_CMD", "void")} <= kinds
+    assert {
+        ("SPI_SCK", "slot"),
+        ("RMII_TXD0", "split"),
+        ("RMII_TXD1", "split"),
+        ("ADC_MCLK", "slot"),
+        ("SD_CMD", "void"),
+    } <= kinds
     assert not any(f["net"].startswith("DB") or f["net"].startswith("MODEM") for f in gaps)
-    # the bus changes layers through the decoupling capacitors C12 / C13 (reference changes, not gaps)
-    assert {f.get("bridge_part") for f in rep["findings"] if f["kind"] == "reference-change"} <= {"C12", "C13"}
+    # the bus changes layers through the decoupling capacitors C12 / C13 (reference changes,
+    # not gaps)
+    assert {f.get("bridge_part") for f in rep["findings"] if f["kind"] == "reference-change"} <= {
+        "C12",
+        "C13",
+    }
     assert "summary" in rep and rep["summary"]["error"] >= 2
     assert "estimate" in rep["disclaimer"].lower() or "estimates" in rep["disclaimer"].lower()
 
 
 def test_fail_on_never_and_warning(tmp_path):
     assert run("check", DEMO, "--fail-on", "never").exit_code == 0
-    assert run("check", DEMO, "--nets", "SD_*", "--fail-on", "warning").exit_code == 0  # an info only
+    assert (
+        run("check", DEMO, "--nets", "SD_*", "--fail-on", "warning").exit_code == 0
+    )  # an info only
     assert run("check", DEMO, "--nets", "SPI_*", "--fail-on", "warning").exit_code == 1
 
 
@@ -53,8 +62,12 @@ def test_rise_time_and_max_freq_are_exclusive():
 def test_bad_input_is_one_line_without_traceback(tmp_path):
     bad = tmp_path / "b"
     bad.mkdir()
-    (bad / "top.gbr").write_text("%TF.FileFunction,Copper,L1,Top*%\n%FSLAX46Y46*%\n%MOMM*%\nG37*\nM02*\n")
-    p = subprocess.run([sys.executable, "-m", "returngap.cli", "check", str(bad)], capture_output=True, text=True)
+    (bad / "top.gbr").write_text(
+        "%TF.FileFunction,Copper,L1,Top*%\n%FSLAX46Y46*%\n%MOMM*%\nG37*\nM02*\n"
+    )
+    p = subprocess.run(
+        [sys.executable, "-m", "returngap.cli", "check", str(bad)], capture_output=True, text=True
+    )
     assert p.returncode == 2
     assert p.stdout == ""
     lines = p.stderr.strip().splitlines()
@@ -81,12 +94,17 @@ def test_layers_json(tmp_path):
     assert rep["drills"][0]["from_layer"] == "L1" and rep["drills"][0]["to_layer"] == "L4"
     assert [d["thickness_mm"] for d in rep["dielectrics"]] == [0.18, 1.13, 0.18]
     assert rep["copper_layers"][1]["copper_area_mm2"] > 0.9 * 79.4 * 49.4
-    assert {"file": "stackup.toml", "reason": "not Gerber, Excellon, job file or IPC-D-356"} in rep["ignored"]
+    assert {"file": "stackup.toml", "reason": "not fabrication data (.toml)"} in rep[
+        "ignored"
+    ]
 
 
 def test_demo_board_is_what_the_generator_writes(tmp_path):
-    subprocess.run([sys.executable, str(ROOT / "examples" / "make_demo_board.py"), str(tmp_path)], check=True,
-                   capture_output=True)
+    subprocess.run(
+        [sys.executable, str(ROOT / "examples" / "make_demo_board.py"), str(tmp_path)],
+        check=True,
+        capture_output=True,
+    )
     made = sorted(p.name for p in tmp_path.iterdir())
     assert made == sorted(p.name for p in DEMO.iterdir())
     for name in made:

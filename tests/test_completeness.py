@@ -7,13 +7,12 @@ import math
 
 import numpy as np
 import pytest
-import shapely
 from click.testing import CliRunner
 
 from returngap import importer, pipeline
 from returngap.cli import main
 from returngap.errors import IncompleteError
-from returngap.synth import GerberWriter, SynthBoard, Via, rect
+from returngap.synth import SynthBoard, Via, rect
 
 
 def run(*args):
@@ -80,8 +79,10 @@ def test_user_mapping_wins_over_the_files_own_attribute(tmp_path):
     board, _ = pipeline.load(tmp_path, st)
     [d] = board.drills
     assert (d.from_layer, d.to_layer) == (1, 2) and d.span_source == "stackup file"
-    assert any("q.drl: X2 attribute says 'Plated,1,4,PTH', the stackup file says 'drill:1-2'" in a
-               for a in board.assumptions)
+    assert any(
+        "q.drl: X2 attribute says 'Plated,1,4,PTH', the stackup file says 'drill:1-2'" in a
+        for a in board.assumptions
+    )
 
 
 ALTIUM_DRILL = """M48
@@ -123,18 +124,24 @@ def test_layer_pair_file_gives_blind_via_spans_whatever_the_case(tmp_path):
         (tmp_path / f"q-L{n}.gbr").rename(tmp_path / f"Q.{ext}")
     (tmp_path / "q.drl").unlink()
     vias = "\n".join(f"X{_altium_coord(v.x)}Y{_altium_coord(v.y)}" for v in b.vias[:1])
-    (tmp_path / "Q.TXT").write_text(ALTIUM_DRILL.format(vias="\n".join(
-        f"X{_altium_coord(v.x)}Y{_altium_coord(v.y)}" for v in b.vias)))
+    (tmp_path / "Q.TXT").write_text(
+        ALTIUM_DRILL.format(
+            vias="\n".join(f"X{_altium_coord(v.x)}Y{_altium_coord(v.y)}" for v in b.vias)
+        )
+    )
     (tmp_path / "Q.TX1").write_text(ALTIUM_DRILL.format(vias=vias).replace("T02\nX003Y0005\n", ""))
     (tmp_path / "Q.LDP").write_text(
         "Layer Pairs Export File for PCB: Q.PcbDoc\n"
         "LayersSetName=Top_Bot_Thru_Holes|DrillFile=q.txt|DrillLayers=gtl,g1,g2,gbl\n"
-        "LayersSetName=L3_Bot_Blind_Vias|DrillFile=q.tx1|DrillLayers=g2,gbl\n")
+        "LayersSetName=L3_Bot_Blind_Vias|DrillFile=q.tx1|DrillLayers=g2,gbl\n"
+    )
     board = importer.load_board(tmp_path)
     spans = {d.file: (d.from_layer, d.to_layer, d.span_source) for d in board.drills}
     assert spans["Q.TX1"] == (3, 4, "layer-pair file Q.LDP") and spans["Q.TXT"][:2] == (1, 4)
     r = run("layers", tmp_path)
-    assert r.exit_code == 0 and "Q.TX1: plated L3-L4, 1 holes (span: layer-pair file Q.LDP" in r.output
+    assert (
+        r.exit_code == 0 and "Q.TX1: plated L3-L4, 1 holes (span: layer-pair file Q.LDP" in r.output
+    )
 
 
 def test_drill_report_spans_when_there_is_no_layer_pair_file(tmp_path):
@@ -142,26 +149,35 @@ def test_drill_report_spans_when_there_is_no_layer_pair_file(tmp_path):
     (tmp_path / "q.drl").unlink()
     vias = "\n".join(f"X{_altium_coord(v.x)}Y{_altium_coord(v.y)}" for v in b.vias)
     (tmp_path / "q.TX1").write_text(ALTIUM_DRILL.format(vias=vias))
-    (tmp_path / "q.DRR").write_text("NCDrill File Report For: q.PcbDoc\n\nLayer Pair : L2 to Bottom\n"
-                                    "ASCII RoundHoles File : q.TX1\n")
+    (tmp_path / "q.DRR").write_text(
+        "NCDrill File Report For: q.PcbDoc\n\nLayer Pair : L2 to Bottom\n"
+        "ASCII RoundHoles File : q.TX1\n"
+    )
     [d] = importer.load_board(tmp_path).drills
     assert (d.from_layer, d.to_layer) == (2, 4) and d.span_source == "drill report q.DRR"
 
 
 def _outline_gerber(strokes, arcs=()):
-    """A mechanical Gerber of our own, without attributes: 0.1 mm strokes, optional arcs (x1, y1, x2, y2, cx, cy)."""
+    """A mechanical Gerber of our own, without attributes: 0.1 mm strokes, optional arcs (x1, y1,
+    x2, y2, cx, cy)."""
     body = ["%FSLAX46Y46*%", "%MOMM*%", "%ADD10C,0.100000*%", "D10*", "G01*", "G75*"]
     c = lambda v: str(int(round(v * 1e6)))  # noqa: E731
     for pts in strokes:
         body.append(f"X{c(pts[0][0])}Y{c(pts[0][1])}D02*")
         body += [f"X{c(x)}Y{c(y)}D01*" for x, y in pts[1:]]
     for x1, y1, x2, y2, cx, cy in arcs:
-        body += [f"X{c(x1)}Y{c(y1)}D02*", "G03*", f"X{c(x2)}Y{c(y2)}I{c(cx - x1)}J{c(cy - y1)}D01*", "G01*"]
+        body += [
+            f"X{c(x1)}Y{c(y1)}D02*",
+            "G03*",
+            f"X{c(x2)}Y{c(y2)}I{c(cx - x1)}J{c(cy - y1)}D01*",
+            "G01*",
+        ]
     return "\n".join(body + ["M02*", ""])
 
 
 def test_outline_beside_a_break_away_frame_on_a_mechanical_layer(tmp_path):
-    """The board joined by tabs to a frame (T-junctions), one edge 0.1 um short of its corner; a drawing
+    """The board joined by tabs to a frame (T-junctions), one edge 0.1 um short of its corner; a
+    drawing
     sheet 20x the board on another layer. The outline must be the board."""
     four_layer(tmp_path, job_file=False)
     (tmp_path / "q-profile.gbr").unlink()
@@ -175,17 +191,32 @@ def test_outline_beside_a_break_away_frame_on_a_mechanical_layer(tmp_path):
     assert b.outline.area == pytest.approx(2400, abs=0.5) and b.outline_file == "q.GM6"
     assert not b.problems
     r = run("layers", tmp_path)
-    assert r.exit_code == 0 and "outline from q.GM6: the smallest closed loop holding 100.0% of the copper" in r.output
+    assert (
+        r.exit_code == 0
+        and "outline from q.GM6: the smallest closed loop holding 100.0% of the copper" in r.output
+    )
 
 
 def test_outline_of_arcs(tmp_path):
-    """A 60 x 40 rounded rectangle (r = 5) drawn as four lines and four arcs: area 2400 - (4 - pi) r^2."""
+    """A 60 x 40 rounded rectangle (r = 5) drawn as four lines and four arcs: area 2400 - (4 - pi)
+    r^2."""
     four_layer(tmp_path, job_file=False)
     r = 5
-    lines = [[(r, 0), (60 - r, 0)], [(60, r), (60, 40 - r)], [(60 - r, 40), (r, 40)], [(0, 40 - r), (0, r)]]
-    arcs = [(60 - r, 0, 60, r, 60 - r, r), (60, 40 - r, 60 - r, 40, 60 - r, 40 - r),
-            (r, 40, 0, 40 - r, r, 40 - r), (0, r, r, 0, r, r)]
-    text = _outline_gerber(lines, arcs).replace("%FSLAX46Y46*%", "%TF.FileFunction,Profile,NP*%\n%FSLAX46Y46*%")
+    lines = [
+        [(r, 0), (60 - r, 0)],
+        [(60, r), (60, 40 - r)],
+        [(60 - r, 40), (r, 40)],
+        [(0, 40 - r), (0, r)],
+    ]
+    arcs = [
+        (60 - r, 0, 60, r, 60 - r, r),
+        (60, 40 - r, 60 - r, 40, 60 - r, 40 - r),
+        (r, 40, 0, 40 - r, r, 40 - r),
+        (0, r, r, 0, r, r),
+    ]
+    text = _outline_gerber(lines, arcs).replace(
+        "%FSLAX46Y46*%", "%TF.FileFunction,Profile,NP*%\n%FSLAX46Y46*%"
+    )
     (tmp_path / "q-profile.gbr").write_text(text)
     b = importer.load_board(tmp_path)
     assert b.outline.area == pytest.approx(2400 - (4 - math.pi) * r * r, rel=1e-4)
@@ -194,12 +225,16 @@ def test_outline_of_arcs(tmp_path):
 def test_a_frame_alone_is_not_taken_as_the_outline(tmp_path):
     """Only a drawing frame 20x the board's area: not the outline; the copper's extent, stated."""
     four_layer(tmp_path, job_file=False)
-    (tmp_path / "q-profile.gbr").write_text(_outline_gerber([[(-100, -100), (200, -100), (200, 100), (-100, 100),
-                                                              (-100, -100)]]).replace(
-        "%FSLAX46Y46*%", "%TF.FileFunction,Profile,NP*%\n%FSLAX46Y46*%"))
+    (tmp_path / "q-profile.gbr").write_text(
+        _outline_gerber(
+            [[(-100, -100), (200, -100), (200, 100), (-100, 100), (-100, -100)]]
+        ).replace("%FSLAX46Y46*%", "%TF.FileFunction,Profile,NP*%\n%FSLAX46Y46*%")
+    )
     b = importer.load_board(tmp_path)
     assert b.outline_file is None and b.outline.area == pytest.approx(2400, rel=0.01)
-    assert any("no closed outline holds the copper" in a and "q-profile.gbr" in a for a in b.assumptions)
+    assert any(
+        "no closed outline holds the copper" in a and "q-profile.gbr" in a for a in b.assumptions
+    )
 
 
 @pytest.mark.parametrize("damage", ["empty", "junk", "truncated"])
@@ -212,7 +247,7 @@ def test_broken_plane_file_is_refused_and_layers_keep_their_names(tmp_path, dama
     elif damage == "junk":
         plane.write_bytes(bytes(np.random.default_rng(1).integers(0, 256, 3000, dtype=np.uint8)))
     else:  # cut off in a region, mid-command
-        plane.write_text(text[:text.index("G37*") - 5])
+        plane.write_text(text[: text.index("G37*") - 5])
     r = run("check", tmp_path)
     assert r.exit_code == 2
     lines = [ln for ln in r.output.splitlines() if ln.startswith("returngap: incomplete:")]

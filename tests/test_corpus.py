@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 import shapely
 
-from conftest import CORPUS, ROOT, corpus_board
-from returngap import importer, pipeline
+from conftest import ROOT, corpus_board
+from returngap import pipeline
 
 MAPS = ROOT / "testdata" / "corpus-maps"
 BOARDS = {
@@ -17,7 +17,11 @@ BOARDS = {
     "limesdr-usb-1v4": ("limesdr-usb-1v4", None, 12),
     "limesdr-micro-m2-1v2": ("limesdr-micro-m2-1v2", None, 8),
     "mch2022-badge": ("mch2022-badge", None, 4),
-    "parallella-buddy-rev1": ("parallella-buddy-rev1/extracted", MAPS / "parallella-buddy-rev1.toml", 14),
+    "parallella-buddy-rev1": (
+        "parallella-buddy-rev1/extracted",
+        MAPS / "parallella-buddy-rev1.toml",
+        14,
+    ),
     "poe-gpib-adapter": ("poe-gpib-adapter", None, 6),
     "stmp157-olinuxino-lime2-b1": ("stmp157-olinuxino-lime2-b1", None, 8),
     "ulx3s-v3.1.1": ("ulx3s-v3.1.1", None, 4),
@@ -35,6 +39,7 @@ def loaded():
             path, stack, _ = BOARDS[slug]
             cache[slug] = pipeline.load(corpus_board(path), stack)[0]
         return cache[slug]
+
     return get
 
 
@@ -52,8 +57,16 @@ def test_board_loads(loaded, slug):
     assert inside.mean() > 0.97
 
 
-@pytest.mark.parametrize("slug", ["poe-gpib-adapter", "stmp157-olinuxino-lime2-b1", "ulx3s-v3.1.1", "mch2022-badge",
-                                  "vesc-4.12"])
+@pytest.mark.parametrize(
+    "slug",
+    [
+        "poe-gpib-adapter",
+        "stmp157-olinuxino-lime2-b1",
+        "ulx3s-v3.1.1",
+        "mch2022-badge",
+        "vesc-4.12",
+    ],
+)
 def test_layer_order_follows_the_files_own_attributes(loaded, slug):
     b = loaded(slug)
     root = corpus_board(BOARDS[slug][0])
@@ -63,7 +76,8 @@ def test_layer_order_follows_the_files_own_attributes(loaded, slug):
 
 
 def test_outline_is_the_board_not_its_frame_or_drawing_sheet(loaded):
-    """GM6 holds the 80 x 22 mm M.2 outline joined by tabs to a break-away frame; GM1 a drawing sheet
+    """GM6 holds the 80 x 22 mm M.2 outline joined by tabs to a break-away frame; GM1 a drawing
+    sheet
     (shared/corpus/INDEX.md, item 13)."""
     b = loaded("limesdr-micro-m2-1v2")
     x0, y0, x1, y1 = b.outline.bounds
@@ -72,7 +86,8 @@ def test_outline_is_the_board_not_its_frame_or_drawing_sheet(loaded):
 
 
 def test_blind_via_span_comes_from_the_layer_pair_file(loaded):
-    """.LDP: the .TX1 file spans g4..gbl = L5-L8 (INDEX.md item 12); its holes land on L5 and L8 pads."""
+    """.LDP: the .TX1 file spans g4..gbl = L5-L8 (INDEX.md item 12); its holes land on L5 and L8
+    pads."""
     b = loaded("limesdr-micro-m2-1v2")
     spans = {d.file.rsplit(".", 1)[1]: (d.from_layer, d.to_layer, d.plating) for d in b.drills}
     assert spans == {"TX1": (5, 8, "plated"), "TXT": (1, 8, "mixed")}
@@ -84,7 +99,10 @@ def test_blind_via_span_comes_from_the_layer_pair_file(loaded):
 
 def test_altium_drill_spans_and_plating_are_reported(loaded):
     b = loaded("limesdr-usb-1v4")
-    assert all((d.from_layer, d.to_layer) == (1, 12) and "layer-pair file" in d.span_source for d in b.drills)
+    assert all(
+        (d.from_layer, d.to_layer) == (1, 12) and "layer-pair file" in d.span_source
+        for d in b.drills
+    )
     round_holes = next(d for d in b.drills if "RoundHoles" in d.file)
     assert round_holes.plating == "mixed" and round_holes.plating_source == "tool sections"
 
@@ -118,17 +136,29 @@ def _pygerber_raster(path, dpmm):
     pg = pytest.importorskip("pygerber.gerberx3.api.v2")
     from PIL import Image
     from pygerber.common.rgba import RGBA
+
     black, white = RGBA.from_rgba(0, 0, 0, 255), RGBA.from_rgba(255, 255, 255, 255)
-    scheme = pg.ColorScheme(background_color=black, clear_color=black, solid_color=white, clear_region_color=black,
-                            solid_region_color=white)
+    scheme = pg.ColorScheme(
+        background_color=black,
+        clear_color=black,
+        solid_color=white,
+        clear_region_color=black,
+        solid_region_color=white,
+    )
     pf = pg.GerberFile.from_file(path).parse(on_parser_error=pg.OnParserErrorEnum.Warn)
     info = pf.get_info()
     buf = io.BytesIO()
     pf.render_raster(buf, color_scheme=scheme, dpmm=dpmm, image_format=pg.ImageFormatEnum.PNG)
-    return np.asarray(Image.open(buf).convert("L")) > 127, float(info.min_x_mm), float(info.max_y_mm)
+    return (
+        np.asarray(Image.open(buf).convert("L")) > 127,
+        float(info.min_x_mm),
+        float(info.max_y_mm),
+    )
 
 
-@pytest.mark.parametrize("slug,layer", [("poe-gpib-adapter", "L2"), ("vesc-4.12", "L3"), ("mch2022-badge", "L3")])
+@pytest.mark.parametrize(
+    "slug,layer", [("poe-gpib-adapter", "L2"), ("vesc-4.12", "L3"), ("mch2022-badge", "L3")]
+)
 def test_copper_agrees_with_pygerber(loaded, slug, layer):
     """Independent rasterisation by pygerber: area within 1 %, no disagreeing blob 5 px wide."""
     ndimage = pytest.importorskip("scipy.ndimage")
@@ -136,10 +166,10 @@ def test_copper_agrees_with_pygerber(loaded, slug, layer):
     c = b.layer(layer)
     dpmm = 50
     img, x0, y1 = _pygerber_raster(corpus_board(BOARDS[slug][0]) / c.file, dpmm)
-    assert abs(img.sum() / dpmm ** 2 - c.copper_area_mm2) / c.copper_area_mm2 < 0.01
+    assert abs(img.sum() / dpmm**2 - c.copper_area_mm2) / c.copper_area_mm2 < 0.01
     rows, cols = img.shape
     best = None
-    for dr in (-1, 0, 1):          # pygerber's raster sits about a pixel off its own bbox
+    for dr in (-1, 0, 1):  # pygerber's raster sits about a pixel off its own bbox
         for dc in (-1, 0, 1):
             xs = x0 + (np.arange(cols) + 0.5 + dc) / dpmm
             ys = y1 - (np.arange(rows) + 0.5 + dr) / dpmm
@@ -153,14 +183,16 @@ def test_copper_agrees_with_pygerber(loaded, slug, layer):
     ys = y1 - (np.arange(rows) + 0.5 + dr) / dpmm
     ours = np.zeros_like(img)
     for r0 in range(0, rows, 512):
-        gx, gy = np.meshgrid(xs, ys[r0:r0 + 512])
-        ours[r0:r0 + 512] = shapely.contains_xy(c.geometry, gx, gy)
+        gx, gy = np.meshgrid(xs, ys[r0 : r0 + 512])
+        ours[r0 : r0 + 512] = shapely.contains_xy(c.geometry, gx, gy)
     blobs = ndimage.binary_opening(ours != img, structure=np.ones((5, 5)))
     assert not blobs.any(), f"{blobs.sum()} px disagree in blobs 5 px wide or more"
 
 
-SLOW = pytest.mark.skipif(not __import__("os").environ.get("RETURNGAP_SLOW"),
-                          reason="full corpus check is slow; run `make corpus` (RETURNGAP_SLOW=1)")
+SLOW = pytest.mark.skipif(
+    not __import__("os").environ.get("RETURNGAP_SLOW"),
+    reason="full corpus check is slow; run `make corpus` (RETURNGAP_SLOW=1)",
+)
 QUICK = ["poe-gpib-adapter", "vesc-4.12"]
 
 
@@ -173,11 +205,15 @@ def test_check_runs_to_completion(slug):
     assert r.chains
     copper = {}
     for f in r.findings:
-        if f.get("detour_path_mm"):  # every detour stays in plane copper (a path may hug an edge by 6 um)
+        if f.get(
+            "detour_path_mm"
+        ):  # every detour stays in plane copper (a path may hug an edge by 6 um)
             ref = f["reference_layer"]
             if ref not in copper:
                 copper[ref] = r.nets.layers[ref].union_of(r.nets.plane_nets).buffer(0.006)
-            assert shapely.LineString(f["detour_path_mm"]).difference(copper[ref]).length < 1e-3, f["id"]
+            assert shapely.LineString(f["detour_path_mm"]).difference(copper[ref]).length < 1e-3, f[
+                "id"
+            ]
         assert f["severity"] in ("error", "warning", "info")
         if f["kind"] != "gap-crossing":
             continue

@@ -1,11 +1,13 @@
-"""The numpy cut intervals against GEOS, and the grid way against geodesics that follow from geometry."""
+"""The numpy cut intervals against GEOS, and the grid way against geodesics that follow from
+geometry."""
 
 import math
 
 import numpy as np
 import pytest
 import shapely
-from hypothesis import assume, given, settings, strategies as st
+from hypothesis import assume, given, settings
+from hypothesis import strategies as st
 
 from returngap.cuts import cut_intervals, ring_edges
 from returngap.gridpath import window_path
@@ -23,8 +25,10 @@ def _geos_pieces(poly, origin, u, lo, hi):
 
 
 # a polygon with a hole and a notch, cut at random: the same pieces as shapely's (GEOS) intersection
-NOTCHED = shapely.Polygon([(0, 0), (10, 0), (10, 6), (6, 6), (6, 3), (4, 3), (4, 6), (0, 6)],
-                          [[(1, 1), (3, 1), (3, 2), (1, 2)]])
+NOTCHED = shapely.Polygon(
+    [(0, 0), (10, 0), (10, 6), (6, 6), (6, 3), (4, 3), (4, 6), (0, 6)],
+    [[(1, 1), (3, 1), (3, 2), (1, 2)]],
+)
 
 
 @settings(max_examples=200, deadline=None)
@@ -33,7 +37,8 @@ def test_cut_intervals_match_geos(x, y, angle):
     u = (math.cos(angle), math.sin(angle))
     edges = ring_edges(NOTCHED)
     off = (edges.reshape(-1, 2) - (x, y)) @ (-u[1], u[0])
-    # a cut along an edge: GEOS counts the edge (boundary) as a piece, the parity rule does not (no area)
+    # a cut along an edge: GEOS counts the edge (boundary) as a piece, the parity rule does
+    # not (no area)
     assume(not (np.abs(off.reshape(-1, 2)) < 1e-9).all(axis=1).any())
     k, t1, t2 = cut_intervals(edges, [(x, y)], [u], -20.0, 20.0)
     assert (k == 0).all()
@@ -53,7 +58,8 @@ def test_cut_through_a_vertex_counts_once():
 
 
 class _Plane:
-    """Free copper = outline minus voids, with an exact clear-sight test (what the gap scan passes)."""
+    """Free copper = outline minus voids, with an exact clear-sight test (what the gap scan
+    passes)."""
 
     def __init__(self, outline, voids):
         self.outline, self.voids = outline, np.array(voids, dtype=object)
@@ -76,7 +82,9 @@ def test_way_round_a_wall_is_the_two_piece_geodesic():
     exact = 2 * math.hypot(0.9, 3.0) + 0.2
     assert got is not None
     length, path = got
-    assert exact - 1e-6 <= length <= exact + 0.1  # never shorter than the geodesic; a fraction of a cell per bend
+    assert (
+        exact - 1e-6 <= length <= exact + 0.1
+    )  # never shorter than the geodesic; a fraction of a cell per bend
     assert plane.passable(shapely.linestrings(np.stack([path[:-1], path[1:]], axis=1))).all()
 
 
@@ -86,7 +94,9 @@ def test_narrow_passage_found_on_the_finer_grid():
     walls = [shapely.box(-0.3, 0.075, 0.3, 15), shapely.box(-0.3, -15, 0.3, -0.075)]
     outline = shapely.box(-15, -15, 15, 15)
     plane = _Plane(outline, walls)
-    got = window_path(outline, plane.voids, shapely.Point(-1, 0.3), shapely.Point(1, 0.3), 15, plane.passable)
+    got = window_path(
+        outline, plane.voids, shapely.Point(-1, 0.3), shapely.Point(1, 0.3), 15, plane.passable
+    )
     assert got is not None
     exact = 2 * math.hypot(0.7, 0.3 - 0.075) + 0.6  # round the slit's two near corners (geometry)
     assert exact - 1e-6 <= got[0] <= exact + 0.15
@@ -95,15 +105,28 @@ def test_narrow_passage_found_on_the_finer_grid():
 def test_no_way_through_a_closed_wall():
     outline = shapely.box(-5, -5, 5, 5)
     plane = _Plane(outline, [shapely.box(-0.1, -6, 0.1, 6)])
-    assert window_path(outline, plane.voids, shapely.Point(-1, 0), shapely.Point(1, 0), 5, plane.passable) is None
+    assert (
+        window_path(
+            outline, plane.voids, shapely.Point(-1, 0), shapely.Point(1, 0), 5, plane.passable
+        )
+        is None
+    )
 
 
 # a large gap (thousands of edges): a wavy disc with wavy holes, as big pour voids are
 _T = np.linspace(0, 2 * np.pi, 3000, endpoint=False)
-_WAVY = shapely.Polygon(np.column_stack([(20 + np.sin(40 * _T)) * np.cos(_T), (20 + np.sin(40 * _T)) * np.sin(_T)]),
-                        [np.column_stack([cx + (3 + 0.3 * np.sin(25 * _T[::5])) * np.cos(_T[::5]),
-                                          cy + (3 + 0.3 * np.sin(25 * _T[::5])) * np.sin(_T[::5])])
-                         for cx, cy in ((-8, 0), (8, 3), (0, -10))])
+_WAVY = shapely.Polygon(
+    np.column_stack([(20 + np.sin(40 * _T)) * np.cos(_T), (20 + np.sin(40 * _T)) * np.sin(_T)]),
+    [
+        np.column_stack(
+            [
+                cx + (3 + 0.3 * np.sin(25 * _T[::5])) * np.cos(_T[::5]),
+                cy + (3 + 0.3 * np.sin(25 * _T[::5])) * np.sin(_T[::5]),
+            ]
+        )
+        for cx, cy in ((-8, 0), (8, 3), (0, -10))
+    ],
+)
 
 
 @settings(max_examples=200, deadline=None)
@@ -112,6 +135,7 @@ def test_cut_through_a_large_gap_from_its_nearby_edges_alone(x, y, angle):
     """The edges a large gap's tree finds near a line give the same pieces of that line as all its
     edges do (the shortcut the slot extents take)."""
     from returngap.detector import Void
+
     void = Void(_WAVY, True, 0)
     assert len(void.edges) >= 2000
     u = (math.cos(angle), math.sin(angle))
@@ -119,4 +143,6 @@ def test_cut_through_a_large_gap_from_its_nearby_edges_alone(x, y, angle):
     assert len(near) < len(void.edges)
     k, t1, t2 = cut_intervals(near, [(x, y)], [u], -100.0, 100.0)
     k0, s1, s2 = cut_intervals(void.edges, [(x, y)], [u], -100.0, 100.0)
-    assert t1.tolist() == pytest.approx(s1.tolist(), abs=1e-9) and t2.tolist() == pytest.approx(s2.tolist(), abs=1e-9)
+    assert t1.tolist() == pytest.approx(s1.tolist(), abs=1e-9) and t2.tolist() == pytest.approx(
+        s2.tolist(), abs=1e-9
+    )

@@ -11,7 +11,11 @@ from returngap.projector import Settings
 
 
 def gaps(folder, **kw):
-    return [f for f in run_check(folder, settings=Settings(**kw)).findings if f["kind"] == "gap-crossing"]
+    return [
+        f
+        for f in run_check(folder, settings=Settings(**kw)).findings
+        if f["kind"] == "gap-crossing"
+    ]
 
 
 def test_centred_slot_detour_is_slot_length(tmp_path):
@@ -19,8 +23,13 @@ def test_centred_slot_detour_is_slot_length(tmp_path):
     f = gaps(slot_board(tmp_path, D=D, s=s))
     assert len(f) == 1
     f = f[0]
-    assert (f["gap_type"], f["net"], f["layer"], f["reference_layer"], f["reference_net"]) == \
-        ("slot", "CLK", "L1", "L2", "GND")
+    assert (f["gap_type"], f["net"], f["layer"], f["reference_layer"], f["reference_net"]) == (
+        "slot",
+        "CLK",
+        "L1",
+        "L2",
+        "GND",
+    )
     # half the slot out along one edge, half back (REFERENCE 2.4): detour ~ D, path ~ D + s
     assert f["detour_mm"] == pytest.approx(D, rel=0.05)
     assert f["detour_method"] == "taut-hull"  # a convex gap: the way round its hull is the geodesic
@@ -28,10 +37,13 @@ def test_centred_slot_detour_is_slot_length(tmp_path):
     length = sum(math.dist(a, b) for a, b in zip(path[:-1], path[1:]))
     assert length == pytest.approx(D + s, rel=0.05)
     assert (f["x_mm"], f["y_mm"]) == pytest.approx((30.0, 20.0), abs=0.01)
-    assert f["gap_length_mm"] == pytest.approx(D, abs=1e-6) and f["gap_width_mm"] == pytest.approx(s, abs=1e-6)
+    assert f["gap_length_mm"] == pytest.approx(D, abs=1e-6) and f["gap_width_mm"] == pytest.approx(
+        s, abs=1e-6
+    )
     # a closed slot in a buried plane: half-wave at er of its dielectrics (slot-antenna theory)
     assert f["resonance_GHz"] == pytest.approx(physics.slot_resonance_GHz(D, 4.3), rel=1e-6)
-    # the whole footprint crosses: the share it holds, 90 % (REFERENCE 1.1, finite width adds a little)
+    # the whole footprint crosses: the share it holds, 90 % (REFERENCE 1.1, finite width adds
+    # a little)
     assert 0.89 < f["interrupted_fraction"] <= 0.95
     lo, hi = f["added_inductance_range_nH"]
     assert lo <= f["added_inductance_nH"] <= hi
@@ -53,6 +65,7 @@ def test_solid_plane_reports_nothing(tmp_path):
 
 def test_void_under_no_track_is_not_reported(tmp_path):
     from returngap.synth import rect
+
     f = gaps(slot_board(tmp_path, extra_void=rect(5, 30, 25, 31)))  # 10 mm away from the track
     assert len(f) == 1 and f[0]["x_mm"] == pytest.approx(30.0)
 
@@ -71,6 +84,7 @@ def test_via_fence_detour_is_the_geodesic_round_the_fence(tmp_path):
     side, along the fence, half round the end antipad and back the same way (geometry)."""
     from returngap.detector import STEP_OFF_MM
     from returngap.synth import SynthBoard, Via, rect
+
     b = SynthBoard("f", 60, 40, n_layers=4, dielectrics=[(H, 4.3), (1.0, 4.3), (H, 4.3)])
     b.planes += [(2, "GND", rect(0, 0, 60, 40)), (3, "GND", rect(0, 0, 60, 40))]
     b.tracks.append((1, "CLK", [(10, 20), (50, 20)], 0.2))
@@ -80,11 +94,13 @@ def test_via_fence_detour_is_the_geodesic_round_the_fence(tmp_path):
     assert len(f) == 1 and f[0]["net"] == "CLK" and f[0]["gap_type"] != "split"
     r, dy = 0.55, 0.5
     ax = math.sqrt(r * r - dy * dy) + STEP_OFF_MM  # the crossing's end, left of the fence's axis
-    d = math.hypot(ax, dy)                        # from the end to the next antipad's centre
+    d = math.hypot(ax, dy)  # from the end to the next antipad's centre
     tangent = math.sqrt(d * d - r * r)
     # round the antipad from the tangent point to its outermost point
     arc = r * (math.atan2(dy, ax) - math.acos(r / d))
-    way = 2 * (tangent + arc + 4.0) + math.pi * r  # 4 mm along the fence to the end antipad's centre
+    way = (
+        2 * (tangent + arc + 4.0) + math.pi * r
+    )  # 4 mm along the fence to the end antipad's centre
     assert f[0]["detour_mm"] == pytest.approx(way - 2 * ax, abs=0.05)
 
 
@@ -108,13 +124,18 @@ def test_stripline_share(tmp_path):
     r = run_check(stripline_board(tmp_path, h1=0.2, h2=0.6))
     f = [x for x in r.findings if x["reference_layer"] == "L2" and x["kind"] == "gap-crossing"]
     assert len(f) == 1
-    # nearer plane carries h2/b of the return (REFERENCE 1.3): 0.75; the footprint holds 90 % of that
+    # nearer plane carries h2/b of the return (REFERENCE 1.3): 0.75; the footprint holds 90 %
+    # of that
     assert f[0]["plane_share"] == pytest.approx(0.75)
     hw = 0.05 + physics.stripline_halfwidth_for_fraction(0.9, 0.2, 0.6)
-    assert f[0]["interrupted_fraction"] == pytest.approx(physics.stripline_fraction_between(-hw, hw, 0.2, 0.6), rel=0.02)
+    assert f[0]["interrupted_fraction"] == pytest.approx(
+        physics.stripline_fraction_between(-hw, hw, 0.2, 0.6), rel=0.02
+    )
     assert 0.75 * 0.9 <= f[0]["interrupted_fraction"] <= 0.75
     assert f[0]["line_type"] == "stripline"
-    assert not [x for x in r.findings if x["reference_layer"] == "L4" and x["kind"] == "gap-crossing"]
+    assert not [
+        x for x in r.findings if x["reference_layer"] == "L4" and x["kind"] == "gap-crossing"
+    ]
 
 
 def test_finding_ids_are_stable(tmp_path):
@@ -127,20 +148,31 @@ def test_footprint_overlap_is_the_footprint_area_in_the_gap():
     """The local buffer gives the area of the whole footprint in the gap: from geometry (a straight
     track across a strip: 2 hw x strip width) and against shapely's buffer of the whole track."""
     import shapely
+
     from returngap import detector
+
     line = shapely.LineString([(0, 0), (40, 0), (40, 30), (5, 30)])
     hw = 1.3
     strip = shapely.box(19.5, -5, 20.5, 5)
     assert detector._footprint_overlap(line, hw, strip) == pytest.approx(2 * hw * 1.0, rel=1e-9)
     whole = shapely.buffer(line, hw, quad_segs=4, cap_style="flat", join_style="round")
-    for region in (shapely.box(38, -3, 45, 3), shapely.box(3, 28, 8, 33), shapely.Point(40, 30).buffer(2)):
-        assert detector._footprint_overlap(line, hw, region) == pytest.approx(whole.intersection(region).area, rel=1e-6)
+    for region in (
+        shapely.box(38, -3, 45, 3),
+        shapely.box(3, 28, 8, 33),
+        shapely.Point(40, 30).buffer(2),
+    ):
+        assert detector._footprint_overlap(line, hw, region) == pytest.approx(
+            whole.intersection(region).area, rel=1e-6
+        )
 
 
 def test_two_processes_give_the_same_findings(tmp_path, monkeypatch):
-    """The gap scan split over two forked processes returns what one process does, in the same order."""
+    """The gap scan split over two forked processes returns what one process does, in the same
+    order."""
     from pathlib import Path
+
     from returngap import detector, forking
+
     demo = Path(__file__).resolve().parents[1] / "examples" / "demo-board"
     stack = demo / "stackup.toml"
     one = run_check(demo, stack, settings=Settings(workers=1)).findings
@@ -158,10 +190,12 @@ def test_threads_or_none_give_the_same_findings(monkeypatch):
     """The per-layer work done in two threads (a large board) or in order in one (a small board)
     gives the same findings, in the same order."""
     from pathlib import Path
+
     from returngap import forking
+
     demo = Path(__file__).resolve().parents[1] / "examples" / "demo-board"
     stack = demo / "stackup.toml"
-    monkeypatch.setattr(forking, "THREADS_MIN_SEGMENTS", 10 ** 9)
+    monkeypatch.setattr(forking, "THREADS_MIN_SEGMENTS", 10**9)
     started = []
     real_pool = forking.ThreadPoolExecutor
     monkeypatch.setattr(forking, "ThreadPoolExecutor", lambda n: started.append(n) or real_pool(n))
@@ -176,9 +210,12 @@ def test_threads_or_none_give_the_same_findings(monkeypatch):
 def test_geos_failure_on_a_gap_is_retried_on_a_snapped_outline(monkeypatch):
     """A GEOS topology error on one gap's outline does not end the check: the crossing is measured
     again on the outline snapped to a 1 nm grid and reported as before."""
-    import shapely
     from pathlib import Path
+
+    import shapely
+
     from returngap import detector
+
     demo = Path(__file__).resolve().parents[1] / "examples" / "demo-board"
     stack = demo / "stackup.toml"
     plain = run_check(demo, stack, settings=Settings(workers=1)).findings
@@ -189,6 +226,7 @@ def test_geos_failure_on_a_gap_is_retried_on_a_snapped_outline(monkeypatch):
         if len(calls) == 1:
             raise shapely.errors.GEOSException("TopologyException: side location conflict")
         return real(*args)
+
     monkeypatch.setattr(detector, "_finding", flaky)
     again = run_check(demo, stack, settings=Settings(workers=1)).findings
     assert len(calls) > 1
@@ -202,7 +240,9 @@ class _Plane:
     def __init__(self, outline, voids, enclosed=True):
         import numpy as np
         import shapely
+
         from returngap.detector import EDGE_HAIR_MM, Void
+
         self.outline = outline
         self.voids = [Void(v, enclosed, k) for k, v in enumerate(voids)]
         self._shrunk = shapely.buffer(np.array(voids, dtype=object), -EDGE_HAIR_MM, quad_segs=2)
@@ -212,12 +252,13 @@ class _Plane:
         return self._shrunk[k]
 
     def along_edge(self, void):
-        import numpy as np
         import shapely
+
         return shapely.dwithin(self.edge, shapely.points(void.ring_points(0)[0][:-1]), 1e-4)
 
     def passable(self, segs):
         import shapely
+
         ok = shapely.covers(self.outline, segs)
         for v in self._shrunk:
             ok &= ~shapely.intersects(v, segs)
@@ -226,13 +267,17 @@ class _Plane:
 
 def _chain(plane, k, a, b):
     import shapely
+
     from returngap.detector import _chain_detour
+
     return _chain_detour(plane, plane.voids[k], shapely.Point(a), shapely.Point(b))
 
 
 def test_exact_way_round_a_lone_slot():
-    """Round the nearer end of a 1 x 10 mm slot: straight to its corners, across, back (geometry)."""
+    """Round the nearer end of a 1 x 10 mm slot: straight to its corners, across, back
+    (geometry)."""
     import shapely
+
     plane = _Plane(shapely.box(-20, -20, 20, 20), [shapely.box(-0.5, -5, 0.5, 5)])
     got = _chain(plane, 0, (-0.51, 1.0), (0.51, 1.0))
     assert got is not None
@@ -248,6 +293,7 @@ def test_exact_way_round_a_concave_gap_skips_its_bay():
     """Round the arms' ends, 5 mm down, the way goes straight across the mouth of the bay between
     them, corner to corner (2 x 5 + 6 mm, geometry), shorter than over the top (2 x 6 + 6 mm)."""
     import shapely
+
     gap = shapely.box(*ARMS[0]).difference(shapely.box(*ARMS[1]))
     plane = _Plane(shapely.box(-20, -20, 20, 20), [gap])
     got = _chain(plane, 0, (-3.01, 0.0), (3.01, 0.0))
@@ -258,16 +304,23 @@ def test_exact_way_round_a_concave_gap_skips_its_bay():
 
 def test_no_exact_way_when_another_void_is_in_the_way():
     import shapely
+
     gap = shapely.box(*ARMS[0]).difference(shapely.box(*ARMS[1]))
-    plane = _Plane(shapely.box(-20, -20, 20, 20), [gap, shapely.box(-0.5, -5.5, 0.5, -4.5)])  # in the mouth
+    plane = _Plane(
+        shapely.box(-20, -20, 20, 20), [gap, shapely.box(-0.5, -5.5, 0.5, -4.5)]
+    )  # in the mouth
     assert _chain(plane, 0, (-3.01, 0.0), (3.01, 0.0)) is None
 
 
 def test_no_exact_way_from_a_pocket():
-    """An end under an overhang of the gap (a bar, a wall and a roof over the end) lies inside the hull
+    """An end under an overhang of the gap (a bar, a wall and a roof over the end) lies inside the
+    hull
     of the outline it must go round: not a plain hull way (the grid takes over)."""
     import shapely
-    hook = shapely.union_all([shapely.box(-2, -2, 10, -1), shapely.box(-2, -1, -1.5, 1), shapely.box(-2, 1, 1, 1.5)])
+
+    hook = shapely.union_all(
+        [shapely.box(-2, -2, 10, -1), shapely.box(-2, -1, -1.5, 1), shapely.box(-2, 1, 1, 1.5)]
+    )
     plane = _Plane(shapely.box(-20, -20, 20, 20), [hook])
     assert _chain(plane, 0, (0.0, -0.99), (0.0, -2.01)) is None
 
@@ -276,7 +329,10 @@ def test_exact_way_round_a_notch_in_an_island_of_the_gap():
     """The ends sit on an island of copper inside the gap (a hole of it), either side of a notch cut
     into the island from its edge: the way goes round the notch's inner end, inside the island."""
     import shapely
-    island = shapely.box(-5, -5, 5, 5).difference(shapely.box(-0.5, 1, 0.5, 6))  # notch from the top
+
+    island = shapely.box(-5, -5, 5, 5).difference(
+        shapely.box(-0.5, 1, 0.5, 6)
+    )  # notch from the top
     gap = shapely.box(-10, -10, 10, 10).difference(island)
     plane = _Plane(shapely.box(-10, -10, 10, 10), [gap], enclosed=False)
     got = _chain(plane, 0, (-0.51, 3.0), (0.51, 3.0))

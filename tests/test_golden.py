@@ -22,6 +22,9 @@ def test_findings_match_the_golden_report(name):
 
 def test_the_comparison_can_fail():
     want = {"findings": [{"added_inductance_nH": 5.76, "net": "SPI_SCK"}]}
-    assert differences(want, {"findings": [{"added_inductance_nH": 5.7600001, "net": "SPI_SCK"}]}) == []
+    assert (
+        differences(want, {"findings": [{"added_inductance_nH": 5.7600001, "net": "SPI_SCK"}]})
+        == []
+    )
     assert differences(want, {"findings": [{"added_inductance_nH": 5.77, "net": "SPI_SCK"}]})
     assert differences(want, {"findings": []})

@@ -1,4 +1,5 @@
-"""The other risk kinds on hand-made boards whose answers follow from geometry and the published formulas."""
+"""The other risk kinds on hand-made boards whose answers follow from geometry and the published
+formulas."""
 
 import math
 
@@ -17,13 +18,17 @@ def kinds(folder, kind, **kw):
 def test_physics_vectors():
     # via pair (REFERENCE 10 #25, Paul 2010): h = 1, s = 1, r = 0.15 -> 0.7495 nH
     assert physics.via_pair_inductance_nH(1.0, 1.0, 0.15) == pytest.approx(0.7495, rel=1e-3)
-    # patch island (REFERENCE 10 #28, Balanis / Hammerstad 1975, from memory): 20 x 5, h 0.2, er 4.3 -> 3.710 GHz
+    # patch island (REFERENCE 10 #28, Balanis / Hammerstad 1975, from memory): 20 x 5, h 0.2,
+    # er 4.3 -> 3.710 GHz
     assert physics.patch_resonance_GHz(20, 5, 0.2, 4.3) == pytest.approx(3.710, rel=5e-3)
-    assert physics.patch_resonance_GHz(20, 5, 0.2, 4.3, tied_at_one_end=True) == pytest.approx(1.855, rel=5e-3)
+    assert physics.patch_resonance_GHz(20, 5, 0.2, 4.3, tied_at_one_end=True) == pytest.approx(
+        1.855, rel=5e-3
+    )
     # current beyond an edge (REFERENCE 1.1): d = h -> 25 %, 3h -> 10.2 %
     assert physics.microstrip_fraction_beyond_edge(0.2, 0.2) == pytest.approx(0.25)
     assert physics.microstrip_fraction_beyond_edge(0.6, 0.2) == pytest.approx(0.1024, abs=1e-3)
-    # two-branch return, short branch half the long one: two thirds of the DC current (Ohm's law, common practice)
+    # two-branch return, short branch half the long one: two thirds of the DC current (Ohm's
+    # law, common practice)
     r_short = physics.copper_resistance_ohm(10, 0.5, 0.035)
     r_long = physics.copper_resistance_ohm(20, 0.5, 0.035)
     dc, hf = physics.two_branch_shares(r_short, r_long, 5.0, 12.0)
@@ -34,8 +39,13 @@ def test_reference_change_to_stitching_via(tmp_path):
     f = kinds(hazard_board(tmp_path, stitch_dx=3.0), "reference-change", rise_time_ns=0.05)
     assert len(f) == 1
     f = f[0]
-    assert (f["net"], f["layer"], f["to_layer"], f["reference_layer"], f["other_reference_layer"]) == \
-        ("SIG_A", "L1", "L4", "L2", "L3")
+    assert (
+        f["net"],
+        f["layer"],
+        f["to_layer"],
+        f["reference_layer"],
+        f["other_reference_layer"],
+    ) == ("SIG_A", "L1", "L4", "L2", "L3")
     assert f["distance_mm"] == pytest.approx(3.0, abs=1e-6)
     # two-wire via pair over the plane spacing (REFERENCE 3.6): (mu0 h/pi) acosh(s/2r)
     assert f["added_inductance_nH"] == pytest.approx(0.4 * 1.0 * math.acosh(3.0 / 0.3), rel=1e-6)
@@ -46,15 +56,23 @@ def test_edge_run_distance_in_h(tmp_path):
     assert len(f) == 1
     assert f[0]["edge_distance_h"] == pytest.approx(0.5 / H, abs=1e-6)  # 2.5 h
     assert f[0]["run_length_mm"] == pytest.approx(30.0, abs=0.3)
-    assert f[0]["beyond_edge_fraction"] == pytest.approx(physics.microstrip_fraction_beyond_edge(0.5, H))
-    assert not [x for x in kinds(hazard_board(tmp_path / "far", edge_gap=2.0), "edge-run") if x["net"] == "SIG_B"]
+    assert f[0]["beyond_edge_fraction"] == pytest.approx(
+        physics.microstrip_fraction_beyond_edge(0.5, H)
+    )
+    assert not [
+        x
+        for x in kinds(hazard_board(tmp_path / "far", edge_gap=2.0), "edge-run")
+        if x["net"] == "SIG_B"
+    ]
 
 
 def test_floating_island_resonance(tmp_path):
     f = kinds(hazard_board(tmp_path), "floating-copper")
     assert len(f) == 1 and f[0]["net"] == "SIG_C"
     assert f[0]["area_mm2"] == pytest.approx(100.0)
-    assert f[0]["resonance_GHz"] == pytest.approx(physics.patch_resonance_GHz(20, 5, H, 4.3), rel=1e-6)
+    assert f[0]["resonance_GHz"] == pytest.approx(
+        physics.patch_resonance_GHz(20, 5, H, 4.3), rel=1e-6
+    )
     assert f[0]["stitching_vias_needed"] >= 2
 
 
@@ -62,12 +80,26 @@ def test_stitching_spacing_against_lambda_over_10(tmp_path):
     # lambda/10 at 1 GHz in er 4.4 is 14.3 mm (REFERENCE 6.2); on an outer pour eps_eff = (er + 1)/2
     limit = physics.wavelength_mm(1.0, (4.4 + 1) / 2) / 10
     assert physics.wavelength_mm(1.0, 4.4) / 10 == pytest.approx(14.29, abs=0.01)
-    f = [x for x in kinds(hazard_board(tmp_path, stitch_pitch=30.0, er=4.4), "stitching-spacing", max_freq_GHz=1.0)
-         if x["layer"] == "L1"]
+    f = [
+        x
+        for x in kinds(
+            hazard_board(tmp_path, stitch_pitch=30.0, er=4.4), "stitching-spacing", max_freq_GHz=1.0
+        )
+        if x["layer"] == "L1"
+    ]
     assert len(f) == 1
-    assert f[0]["via_spacing_mm"] == pytest.approx(30.0) and f[0]["spacing_limit_mm"] == pytest.approx(limit, rel=1e-6)
-    ok = [x for x in kinds(hazard_board(tmp_path / "dense", stitch_pitch=8.0, er=4.4), "stitching-spacing",
-                           max_freq_GHz=1.0) if x["layer"] == "L1"]
+    assert f[0]["via_spacing_mm"] == pytest.approx(30.0) and f[0][
+        "spacing_limit_mm"
+    ] == pytest.approx(limit, rel=1e-6)
+    ok = [
+        x
+        for x in kinds(
+            hazard_board(tmp_path / "dense", stitch_pitch=8.0, er=4.4),
+            "stitching-spacing",
+            max_freq_GHz=1.0,
+        )
+        if x["layer"] == "L1"
+    ]
     assert ok == []
 
 
@@ -75,6 +107,7 @@ def test_outer_slot_resonance_brackets_measurement(tmp_path):
     # a 24 mm slot in an outer plane of FR-4 (er 4.7) resonates near 4 GHz (common practice);
     # half-wave between 2.9 and 6.3 GHz: (er+1)/2 and air bound it (REFERENCE 5.1)
     from returngap.synth import SynthBoard, rect
+
     b = SynthBoard("o", 60, 40, n_layers=2, dielectrics=[(0.2, 4.7)])
     b.planes.append((2, "GND", rect(0, 0, 60, 40)))
     b.cutouts.append((2, rect(29.5, 8, 30.5, 32)))
@@ -83,13 +116,16 @@ def test_outer_slot_resonance_brackets_measurement(tmp_path):
     f = [x for x in run_check(tmp_path).findings if x["kind"] == "gap-crossing"]
     assert len(f) == 1
     assert 2.9 <= f[0]["resonance_GHz"] <= 6.3
-    assert f[0]["resonance_GHz"] == pytest.approx(physics.slot_resonance_GHz(24, (4.7 + 1) / 2), rel=1e-6)
+    assert f[0]["resonance_GHz"] == pytest.approx(
+        physics.slot_resonance_GHz(24, (4.7 + 1) / 2), rel=1e-6
+    )
     lo, hi = f[0]["resonance_range_GHz"]
     assert lo == pytest.approx(physics.slot_resonance_GHz(24, 4.7), rel=1e-6)
 
 
 def test_resonance_below_knee_raises_severity(tmp_path):
     from boards import slot_board
+
     slow = run_check(slot_board(tmp_path / "a", D=20), settings=Settings(rise_time_ns=2.0)).findings
     fast = run_check(slot_board(tmp_path / "b", D=20), settings=Settings(max_freq_GHz=5.0)).findings
     g = lambda fs: [x for x in fs if x["kind"] == "gap-crossing"][0]
@@ -99,8 +135,10 @@ def test_resonance_below_knee_raises_severity(tmp_path):
 
 def test_return_split_two_branches(tmp_path):
     # slot D = 20 crossed so that the far way round is twice the near one:
-    # near end 20/3 away, far end 40/3 away; equal widths -> the short branch carries 2/3 at DC (Ohm's law)
+    # near end 20/3 away, far end 40/3 away; equal widths -> the short branch carries 2/3 at
+    # DC (Ohm's law)
     from boards import slot_board
+
     D = 20.0
     s = 0.5
     near = (D - s / 2) / 3  # so that 2 * far + s = 2 * (2 * near + s)
@@ -112,5 +150,6 @@ def test_return_split_two_branches(tmp_path):
     assert f[0]["dc_share_near"] == pytest.approx(2 / 3, rel=0.02)
     # inductance grows faster than length (l ln l): at high frequency even more goes the near way
     assert f[0]["hf_share_near"] > f[0]["dc_share_near"]
-    # Rosa / Grover partial inductance (REFERENCE 10 #21 without the internal term): l = 10, r = 0.1 -> 8.617 nH
+    # Rosa / Grover partial inductance (REFERENCE 10 #21 without the internal term): l = 10, r
+    # = 0.1 -> 8.617 nH
     assert physics.wire_partial_inductance_nH(10, 0.1) == pytest.approx(8.617, rel=1e-3)

@@ -1,6 +1,5 @@
 """Tiny hand-written Gerber / Excellon cases whose answers follow from geometry."""
 
-import io
 import math
 import zipfile
 
@@ -22,19 +21,24 @@ def one_layer(tmp_path, body, name="c.gbr", **kw):
 def test_clear_circle_in_dark_region(tmp_path):
     # 10 x 10 dark square minus a clear circle of diameter 4: 100 - 4*pi
     layer = one_layer(tmp_path, SQUARE + "\n%LPC*%\n%ADD10C,4.000000*%\nD10*\nX5000000Y5000000D03*")
-    assert layer.copper_area_mm2 == pytest.approx(100 - math.pi * 4, abs=2 * math.pi * 2 * 1e-3)  # within perimeter x chord tolerance
+    assert layer.copper_area_mm2 == pytest.approx(
+        100 - math.pi * 4, abs=2 * math.pi * 2 * 1e-3
+    )  # within perimeter x chord tolerance
 
 
 def test_polarity_in_file_order(tmp_path):
     # dark square, clear centre 2x2 rectangle, then a dark 1 mm circle inside the clear hole
-    body = SQUARE + "\n%LPC*%\n%ADD10R,2.000000X2.000000*%\nD10*\nX5000000Y5000000D03*\n%LPD*%\n" \
-                    "%ADD11C,1.000000*%\nD11*\nX5000000Y5000000D03*"
+    body = (
+        SQUARE + "\n%LPC*%\n%ADD10R,2.000000X2.000000*%\nD10*\nX5000000Y5000000D03*\n%LPD*%\n"
+        "%ADD11C,1.000000*%\nD11*\nX5000000Y5000000D03*"
+    )
     layer = one_layer(tmp_path, body)
     assert layer.copper_area_mm2 == pytest.approx(100 - 4 + math.pi / 4, abs=math.pi * 1e-3)
 
 
 def test_arc_chord_tolerance(tmp_path):
-    # a full-circle arc track r = 5 mm, width 0.2: ring area 2*pi*r*w within the 1 um chord tolerance
+    # a full-circle arc track r = 5 mm, width 0.2: ring area 2*pi*r*w within the 1 um chord
+    # tolerance
     body = "%ADD10C,0.200000*%\nD10*\nG75*\nX5000000Y0D02*\nG03X5000000Y0I-5000000J0D01*"
     layer = one_layer(tmp_path, body)
     assert layer.copper_area_mm2 == pytest.approx(2 * math.pi * 5 * 0.2, rel=1e-4)
@@ -54,11 +58,19 @@ def test_step_and_repeat_area(tmp_path):
 
 def test_negative_polarity_plane(tmp_path):
     # negative plane file: copper = board profile minus what is drawn (one 2 mm clearance)
-    (tmp_path / "edge.gbr").write_text(gerber("%ADD10C,0.100000*%\nD10*\nX0Y0D02*\nX20000000Y0D01*\n"
-                                              "X20000000Y10000000D01*\nX0Y10000000D01*\nX0Y0D01*",
-                                              attrs="%TF.FileFunction,Profile,NP*%"))
-    (tmp_path / "p.gbr").write_text(gerber("%ADD10C,2.000000*%\nD10*\nX5000000Y5000000D03*",
-                                           attrs="%TF.FileFunction,Copper,L1,Top*%\n%TF.FilePolarity,Negative*%"))
+    (tmp_path / "edge.gbr").write_text(
+        gerber(
+            "%ADD10C,0.100000*%\nD10*\nX0Y0D02*\nX20000000Y0D01*\n"
+            "X20000000Y10000000D01*\nX0Y10000000D01*\nX0Y0D01*",
+            attrs="%TF.FileFunction,Profile,NP*%",
+        )
+    )
+    (tmp_path / "p.gbr").write_text(
+        gerber(
+            "%ADD10C,2.000000*%\nD10*\nX5000000Y5000000D03*",
+            attrs="%TF.FileFunction,Copper,L1,Top*%\n%TF.FilePolarity,Negative*%",
+        )
+    )
     b = importer.load_board(tmp_path)
     assert b.outline.area == pytest.approx(200.0, abs=1e-6)
     assert b.copper[0].copper_area_mm2 == pytest.approx(200 - math.pi, abs=2 * math.pi * 1e-3)
@@ -73,9 +85,15 @@ def test_stroke_fill_pour_is_solid(tmp_path):
     layer = one_layer(tmp_path, "\n".join(lines))
     assert len(shapely.get_parts(layer.geometry)) == 1
     # shapely as the reference: the same strokes buffered at high resolution
-    ref = shapely.union_all([shapely.LineString([(0, k * 0.2), (10, k * 0.2)]).buffer(0.125, quad_segs=64)
-                             for k in range(51)])
-    assert layer.geometry.area == pytest.approx(ref.area, abs=ref.exterior.length * 1e-3)  # 1 um chords
+    ref = shapely.union_all(
+        [
+            shapely.LineString([(0, k * 0.2), (10, k * 0.2)]).buffer(0.125, quad_segs=64)
+            for k in range(51)
+        ]
+    )
+    assert layer.geometry.area == pytest.approx(
+        ref.area, abs=ref.exterior.length * 1e-3
+    )  # 1 um chords
     assert layer.geometry.area > 10 * 10.25  # solid: no gaps between the strokes
 
 
@@ -83,20 +101,26 @@ def test_thin_stroke_beside_a_wide_one_keeps_its_own_resolution(tmp_path):
     # a 0.5 mm and a 2 mm track drawn in one run; each round end is a half circle of its own radius
     # whose chords stay within the 1 um tolerance (sagitta r(1 - cos(step/2)), plane geometry) and
     # are not finer than it needs (two steps merged would still be within tolerance otherwise)
-    body = ("%ADD10C,2.000000*%\n%ADD11C,0.500000*%\nD10*\nX0Y0D02*\nX10000000Y0D01*\n"
-            "D11*\nX0Y5000000D02*\nX10000000Y5000000D01*")
+    body = (
+        "%ADD10C,2.000000*%\n%ADD11C,0.500000*%\nD10*\nX0Y0D02*\nX10000000Y0D01*\n"
+        "D11*\nX0Y5000000D02*\nX10000000Y5000000D01*"
+    )
     layer = one_layer(tmp_path, body)
     tol = 1e-3
     for r, y in ((1.0, 0.0), (0.25, 5.0)):
         piece = next(p for p in layer.pieces if p.contains(shapely.Point(5, y)))
-        assert piece.area == pytest.approx(2 * r * 10 + math.pi * r * r, abs=piece.length * tol)  # capsule
+        assert piece.area == pytest.approx(
+            2 * r * 10 + math.pi * r * r, abs=piece.length * tol
+        )  # capsule
         xy = shapely.get_coordinates(piece.exterior)[:-1]
         on_end = abs(((xy[:, 0] - 10) ** 2 + (xy[:, 1] - y) ** 2) ** 0.5 - r) < 1e-6
         cap = xy[(xy[:, 0] > 10 + 1e-9) & on_end]  # the right-hand end's half circle
         ang = sorted(math.atan2(py - y, px - 10) for px, py in cap)
         step = max(b - a for a, b in zip(ang, ang[1:]))
         assert r * (1 - math.cos(step / 2)) <= tol * 1.01
-        assert r * (1 - math.cos(step)) > tol or step >= math.pi / 8 - 1e-9  # at least 4 per quarter
+        assert (
+            r * (1 - math.cos(step)) > tol or step >= math.pi / 8 - 1e-9
+        )  # at least 4 per quarter
 
 
 def test_net_names_are_unescaped(tmp_path):
@@ -114,7 +138,12 @@ def test_zip_input_and_ignored_files(tmp_path):
         z.writestr("notes.pdf", "%PDF-1.4")
     b = importer.load_board(buf)
     assert b.copper[0].file == "gerbers/top.gbr"
-    assert {i["file"] for i in b.ignored} == {"__MACOSX/._top.gbr", ".DS_Store", "bom.csv", "notes.pdf"}
+    assert {i["file"] for i in b.ignored} == {
+        "__MACOSX/._top.gbr",
+        ".DS_Store",
+        "bom.csv",
+        "notes.pdf",
+    }
 
 
 def test_hostile_zip_is_refused(tmp_path):
@@ -127,7 +156,9 @@ def test_hostile_zip_is_refused(tmp_path):
 
 
 def test_malformed_gerber_names_file_and_line(tmp_path):
-    (tmp_path / "bad.gbr").write_text("%TF.FileFunction,Copper,L1,Top*%\n%FSLAX46Y46*%\n%MOMM*%\n%ADD10C,0.2*%\nD10*\nX0Y0D02*\nG37*\nM02*\n")
+    (tmp_path / "bad.gbr").write_text(
+        "%TF.FileFunction,Copper,L1,Top*%\n%FSLAX46Y46*%\n%MOMM*%\n%ADD10C,0.2*%\nD10*\nX0Y0D02*\nG37*\nM02*\n"
+    )
     with pytest.raises(InputError) as e:
         importer.load_board(tmp_path)
     assert e.value.file == "bad.gbr" and e.value.line == 7
@@ -137,8 +168,9 @@ def test_malformed_gerber_names_file_and_line(tmp_path):
 def test_job_file_disagreement_prefers_the_gerber(tmp_path):
     (tmp_path / "a.gbr").write_text(gerber(SQUARE, attrs="%TF.FileFunction,Copper,L1,Top*%"))
     (tmp_path / "b.gbr").write_text(gerber(SQUARE, attrs="%TF.FileFunction,Copper,L2,Bot*%"))
-    (tmp_path / "j.gbrjob").write_text('{"Header": {}, "FilesAttributes": [{"Path": "b.gbr", "FileFunction": '
-                                       '"Copper,L5,Inr"}]}')
+    (tmp_path / "j.gbrjob").write_text(
+        '{"Header": {}, "FilesAttributes": [{"Path": "b.gbr", "FileFunction": "Copper,L5,Inr"}]}'
+    )
     b = importer.load_board(tmp_path)
     assert b.copper[1].file == "b.gbr"
     assert any("job file says 'Copper,L5,Inr'" in a for a in b.assumptions)
@@ -153,8 +185,11 @@ def _two_layer_with_drill(tmp_path, drill_text):
 
 
 def test_drill_with_silent_header_is_inferred(tmp_path):
-    # no format in the header: coordinates as 3.5 mm without suppression; inference puts holes on the pads
-    b = _two_layer_with_drill(tmp_path, "M48\nMETRIC\nT1C0.400\n%\nT1\nX01000000Y01000000\nX03000000Y02000000\nM30\n")
+    # no format in the header: coordinates as 3.5 mm without suppression; inference puts holes
+    # on the pads
+    b = _two_layer_with_drill(
+        tmp_path, "M48\nMETRIC\nT1C0.400\n%\nT1\nX01000000Y01000000\nX03000000Y02000000\nM30\n"
+    )
     holes = b.drills[0].holes
     assert holes[:, :2].ravel().tolist() == pytest.approx([10, 10, 30, 20])
     assert any("inferred" in a for a in b.assumptions)
@@ -162,13 +197,18 @@ def test_drill_with_silent_header_is_inferred(tmp_path):
 
 def test_excellon_slot_g85(tmp_path):
     # REFERENCE 10 #35: X1Y1G85X3Y1 with a 1 mm tool -> slot (1,1)-(3,1), width 1
-    b = _two_layer_with_drill(tmp_path, "M48\nMETRIC\nT01C1.000\n%\nT01\nX10.000Y10.000\nX1.000Y1.000G85X3.000Y1.000\nM30\n")
+    b = _two_layer_with_drill(
+        tmp_path,
+        "M48\nMETRIC\nT01C1.000\n%\nT01\nX10.000Y10.000\nX1.000Y1.000G85X3.000Y1.000\nM30\n",
+    )
     slot = b.drills[0].slots[0]
     assert slot.tolist() == pytest.approx([1, 1, 3, 1, 1])
 
 
 def test_inch_drill_converted_to_mm(tmp_path):
-    b = _two_layer_with_drill(tmp_path, "M48\nINCH,TZ\nT1C0.0157\n%\nT1\nX0.3937Y0.3937\nX1.1811Y0.7874\nM30\n")
+    b = _two_layer_with_drill(
+        tmp_path, "M48\nINCH,TZ\nT1C0.0157\n%\nT1\nX0.3937Y0.3937\nX1.1811Y0.7874\nM30\n"
+    )
     assert b.drills[0].holes[:, :2].ravel().tolist() == pytest.approx([10, 10, 30, 20], abs=1e-3)
     assert b.drills[0].holes[0, 2] == pytest.approx(0.3988, abs=1e-3)
 
@@ -176,8 +216,10 @@ def test_inch_drill_converted_to_mm(tmp_path):
 def test_layers_read_in_two_processes_match_one(tmp_path, monkeypatch):
     """Copper layers parsed in forked workers come back (as WKB) identical to those read in this
     process, and a bad layer's error still names its file and line."""
-    from returngap import forking
     import numpy as np
+
+    from returngap import forking
+
     demo = ROOT / "examples" / "demo-board"
     one = importer.load_board(demo)
     monkeypatch.setattr(importer, "PARALLEL_MIN_BYTES", 1)
@@ -187,16 +229,20 @@ def test_layers_read_in_two_processes_match_one(tmp_path, monkeypatch):
     monkeypatch.setattr(forking, "_fork", lambda: pools.append(1) or real_fork())
     two = importer.load_board(demo)
     assert pools, "the two-process path did not run"
-    assert [l.name for l in one.copper] == [l.name for l in two.copper]
+    assert [c.name for c in one.copper] == [c.name for c in two.copper]
     for a, b in zip(one.copper, two.copper):
         assert len(a.pieces) and shapely.equals_exact(a.pieces, b.pieces, 0).all()
         assert np.array_equal(a.segments, b.segments) and a.segment_net == b.segment_net
-        assert [(shapely.to_wkb(p), n) for p, n, _ in a.regions] == [(shapely.to_wkb(p), n) for p, n, _ in b.regions]
+        assert [(shapely.to_wkb(p), n) for p, n, _ in a.regions] == [
+            (shapely.to_wkb(p), n) for p, n, _ in b.regions
+        ]
     assert one.assumptions == two.assumptions
     assert [d.holes.tolist() for d in one.drills] == [d.holes.tolist() for d in two.drills]
     (tmp_path / "top.gbr").write_text(gerber(SQUARE))
-    (tmp_path / "bottom.gbr").write_text("%TF.FileFunction,Copper,L2,Bot*%\n%FSLAX46Y46*%\n%MOMM*%\n%ADD10C,0.2*%\n"
-                                         "D10*\nX0Y0D02*\nG37*\nM02*\n")
+    (tmp_path / "bottom.gbr").write_text(
+        "%TF.FileFunction,Copper,L2,Bot*%\n%FSLAX46Y46*%\n%MOMM*%\n%ADD10C,0.2*%\n"
+        "D10*\nX0Y0D02*\nG37*\nM02*\n"
+    )
     with pytest.raises(InputError) as e:
         importer.load_board(tmp_path)
     assert e.value.file == "bottom.gbr" and e.value.line == 7

@@ -3,6 +3,7 @@
 import math
 
 import pytest
+
 from returngap import physics as ph
 
 
@@ -11,7 +12,8 @@ def rel(a, b):
 
 
 def test_microstrip_fraction_within():
-    # filament law J ~ 1/(1+(x/h)^2): Johnson & Graham, High-Speed Digital Design 1993 (REFERENCE 10 #1)
+    # filament law J ~ 1/(1+(x/h)^2): Johnson & Graham, High-Speed Digital Design 1993
+    # (REFERENCE 10 #1)
     assert ph.microstrip_fraction_within(1) == pytest.approx(0.5000, abs=1e-4)
     assert ph.microstrip_fraction_within(3) == pytest.approx(0.7952, abs=1e-4)
     assert ph.microstrip_fraction_within(10) == pytest.approx(0.9365, abs=1e-4)
@@ -37,21 +39,27 @@ def test_stripline_density_integral_consistent():
 def test_finite_width_density():
     # Holloway & Kuester uniform-strip form: total is I; reduces to the filament law for w << h
     assert ph.microstrip_fraction_between(-1e5, 1e5, 0.4, 0.2) == pytest.approx(1.0, abs=1e-4)
-    assert ph.microstrip_fraction_between(-0.6, 0.6, 1e-4, 0.2) == pytest.approx(ph.microstrip_fraction_within(3),
-                                                                                abs=1e-6)
+    assert ph.microstrip_fraction_between(-0.6, 0.6, 1e-4, 0.2) == pytest.approx(
+        ph.microstrip_fraction_within(3), abs=1e-6
+    )
     # check value J(0)*h/I = 0.25 for w = 2h (REFERENCE 1.2): slope of the cumulative share at 0
     d = 1e-6
-    assert ph.microstrip_fraction_between(-d, d, 0.4, 0.2) / (2 * d) * 0.2 == pytest.approx(0.25, rel=1e-4)
+    assert ph.microstrip_fraction_between(-d, d, 0.4, 0.2) / (2 * d) * 0.2 == pytest.approx(
+        0.25, rel=1e-4
+    )
 
 
-@pytest.mark.parametrize("w,h,er,t,z0,ee", [
-    (3.913, 1.27, 2.2, 0, 50.02, 1.881),      # REFERENCE 10 #9, Pozar geometry
-    (0.2, 0.2, 4.3, 0, 71.751, 3.1045),       # #11
-    (3.0, 1.6, 4.5, 0, 50.108, 3.3933),       # #12
-    (3.0, 1.6, 4.5, 0.035, 49.664, 3.3679),   # #12, with thickness
-    (1.0, 1.0, 9.8, 0, 49.289, 6.579),        # #13 alumina
-    (1.0, 1.0, 1.0, 0, 126.424, 1.0),         # #14 air
-])
+@pytest.mark.parametrize(
+    "w,h,er,t,z0,ee",
+    [
+        (3.913, 1.27, 2.2, 0, 50.02, 1.881),  # REFERENCE 10 #9, Pozar geometry
+        (0.2, 0.2, 4.3, 0, 71.751, 3.1045),  # #11
+        (3.0, 1.6, 4.5, 0, 50.108, 3.3933),  # #12
+        (3.0, 1.6, 4.5, 0.035, 49.664, 3.3679),  # #12, with thickness
+        (1.0, 1.0, 9.8, 0, 49.289, 6.579),  # #13 alumina
+        (1.0, 1.0, 1.0, 0, 126.424, 1.0),  # #14 air
+    ],
+)
 def test_hammerstad_jensen(w, h, er, t, z0, ee):
     # Hammerstad & Jensen 1980
     z, e = ph.microstrip_z0_eeff(w, h, er, t)
@@ -63,10 +71,21 @@ def test_microstrip_against_scikit_rf():
     # scikit-rf MLine (Hammerstad-Jensen model, quasi-static) as an independent implementation
     skrf = pytest.importorskip("skrf")
     from skrf.media import MLine
+
     freq = skrf.Frequency(1, 1, 1, unit="MHz")
     for w, h, t, er in [(0.3, 0.2, 35e-3, 4.5), (3.0, 1.6, 35e-3, 4.5), (0.12, 0.1, 18e-3, 3.8)]:
-        m = MLine(frequency=freq, w=w * 1e-3, h=h * 1e-3, t=t * 1e-3, ep_r=er, tand=0, model="hammerstadjensen",
-                  disp="none", diel="frequencyinvariant", compatibility_mode="qucs")
+        m = MLine(
+            frequency=freq,
+            w=w * 1e-3,
+            h=h * 1e-3,
+            t=t * 1e-3,
+            ep_r=er,
+            tand=0,
+            model="hammerstadjensen",
+            disp="none",
+            diel="frequencyinvariant",
+            compatibility_mode="qucs",
+        )
         z, e = ph.microstrip_z0_eeff(w, h, er, t)
         assert rel(z, float(abs(m.zl_eff))) < 1e-3
         assert rel(e, float(abs(m.ep_reff))) < 1e-3
@@ -77,7 +96,9 @@ def test_line_inductance_both_ways():
     z, e = ph.microstrip_z0_eeff(0.2, 0.2, 4.3)
     za, _ = ph.microstrip_z0_eeff(0.2, 0.2, 1.0)
     assert ph.line_inductance_nH_per_mm(z, e) == pytest.approx(0.4217, abs=1e-4)
-    assert ph.line_inductance_nH_per_mm(za, 1.0) == pytest.approx(ph.line_inductance_nH_per_mm(z, e), rel=1e-6)
+    assert ph.line_inductance_nH_per_mm(za, 1.0) == pytest.approx(
+        ph.line_inductance_nH_per_mm(z, e), rel=1e-6
+    )
 
 
 def test_stripline_cohn():
@@ -104,7 +125,8 @@ def test_stub_model_and_babinet():
     # with Zs = 100 ohm, eps 4.7, 24 mm: 4.339 nH; here L' = Zs*sqrt(eps)/c
     lp = 100 * math.sqrt(4.7) / ph.C_MM_PER_NS
     assert lp * 24 / 4 == pytest.approx(4.339, rel=1e-3)
-    # CPS stub, w_e = D/2 (REFERENCE 2.3 table): 24 mm x 1 mm -> 2.57 nH; Babinet 4.13 nH (#7: 4.125)
+    # CPS stub, w_e = D/2 (REFERENCE 2.3 table): 24 mm x 1 mm -> 2.57 nH; Babinet 4.13 nH (#7:
+    # 4.125)
     assert ph.slot_stub_inductance_nH(12, 12, 1.0) == pytest.approx(2.57, abs=0.01)
     assert ph.babinet_slot_inductance_nH(24, 1.0) == pytest.approx(4.125, rel=1e-3)
     assert ph.slot_stub_inductance_nH(25.4, 25.4, 5.0) == pytest.approx(6.60, abs=0.01)
@@ -131,7 +153,8 @@ def test_knee_reflection_wavelength():
 
 
 def test_wide_stripline_tends_to_parallel_plates():
-    # very wide centred strip: two parallel-plate lines of spacing b/2 in parallel, eta0*b/(4*w*sqrt(er))
+    # very wide centred strip: two parallel-plate lines of spacing b/2 in parallel,
+    # eta0*b/(4*w*sqrt(er))
     for w in (20.0, 50.0, 500.0):
         z = ph.stripline_z0(w, 1.0, 4.3)
         assert z == pytest.approx(ph.ETA0_OHM * 1.0 / (4 * w * math.sqrt(4.3)), rel=0.03)

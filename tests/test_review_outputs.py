@@ -6,7 +6,6 @@ import json
 import shutil
 import subprocess
 import sys
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -36,7 +35,9 @@ def demo_out(tmp_path_factory):
 
 def test_pictures_exist_decode_and_are_ticket_sized(demo_out):
     rep = json.loads((demo_out / "findings.json").read_text())
-    pngs = [demo_out / "overview.png"] + [demo_out / f"finding-{f['id']}.png" for f in rep["findings"]]
+    pngs = [demo_out / "overview.png"] + [
+        demo_out / f"finding-{f['id']}.png" for f in rep["findings"]
+    ]
     for p in pngs:
         img = Image.open(p)
         img.load()
@@ -49,6 +50,7 @@ def test_pictures_drawn_in_two_processes_match_one(tmp_path, monkeypatch):
     files, byte for byte, as one written by this process alone."""
     from returngap import cli, forking
     from returngap.projector import Settings
+
     result = run_check(DEMO, DEMO / "stackup.toml", settings=Settings(workers=1))
     rep = report.findings_report(result)
     cli.write_outputs(result, rep, tmp_path / "one", "never")
@@ -63,7 +65,9 @@ def test_pictures_drawn_in_two_processes_match_one(tmp_path, monkeypatch):
     assert len(one) == len(rep["findings"]) + 5  # pictures, overview, JSON, CSV, JUnit, HTML
     assert one == sorted(p.name for p in (tmp_path / "two").iterdir())
     for name in one:
-        assert (tmp_path / "one" / name).read_bytes() == (tmp_path / "two" / name).read_bytes(), name
+        assert (tmp_path / "one" / name).read_bytes() == (tmp_path / "two" / name).read_bytes(), (
+            name
+        )
 
 
 def test_finding_picture_highlights_the_finding(tmp_path):
@@ -73,10 +77,12 @@ def test_finding_picture_highlights_the_finding(tmp_path):
         p = tmp_path / f"{f['id']}.png"
         px, py = render.finding_png(result, f, i, p)
         rgb = np.asarray(Image.open(p).convert("RGB")).astype(int)
-        want = np.array([int(render.MARK[f["severity"]][k:k + 2], 16) for k in (1, 3, 5)])
+        want = np.array([int(render.MARK[f["severity"]][k : k + 2], 16) for k in (1, 3, 5)])
         x, y = int(round(px)), int(round(py))
-        patch = rgb[y - 3:y + 4, x - 3:x + 4].reshape(-1, 3)
-        assert (np.abs(patch - want).sum(axis=1) < 40).any(), f"no highlight at the finding of {f['id']}"
+        patch = rgb[y - 3 : y + 4, x - 3 : x + 4].reshape(-1, 3)
+        assert (np.abs(patch - want).sum(axis=1) < 40).any(), (
+            f"no highlight at the finding of {f['id']}"
+        )
 
 
 def test_csv_round_trips_into_the_json(demo_out):
@@ -84,12 +90,20 @@ def test_csv_round_trips_into_the_json(demo_out):
     rows = list(csv.DictReader(io.StringIO((demo_out / "findings.csv").read_text())))
     assert [r["id"] for r in rows] == [f["id"] for f in rep["findings"]]
     for r, f in zip(rows, rep["findings"]):
-        for key in ("x_mm", "y_mm", "gap_length_mm", "interrupted_fraction", "added_inductance_nH", "resonance_GHz",
-                    "detour_mm"):
+        for key in (
+            "x_mm",
+            "y_mm",
+            "gap_length_mm",
+            "interrupted_fraction",
+            "added_inductance_nH",
+            "resonance_GHz",
+            "detour_mm",
+        ):
             assert (float(r[key]) if r[key] != "" else None) == f.get(key), key
         if f.get("added_inductance_range_nH"):
-            assert [float(r["added_inductance_low_nH"]), float(r["added_inductance_high_nH"])] == \
-                f["added_inductance_range_nH"]
+            assert [float(r["added_inductance_low_nH"]), float(r["added_inductance_high_nH"])] == f[
+                "added_inductance_range_nH"
+            ]
         assert r["net"] == f["net"] and r["severity"] == f["severity"]
 
 
@@ -101,15 +115,21 @@ def test_junit_reads_back_with_a_junit_library(tmp_path):
     suites = list(xml) if not isinstance(xml, junitparser.TestSuite) else [xml]
     cases = [c for s in suites for c in s]
     rep = json.loads((out / "findings.json").read_text())
-    expected = {("gap-crossing", n) for n in rep["nets_checked"]} | {(f["kind"], f["net"]) for f in rep["findings"]}
+    expected = {("gap-crossing", n) for n in rep["nets_checked"]} | {
+        (f["kind"], f["net"]) for f in rep["findings"]
+    }
     assert len(cases) == len(expected)
     failed = {c.name for c in cases if any(isinstance(r, junitparser.Failure) for r in c.result)}
-    assert failed == {f"{f['kind']} {f['net']}" for f in rep["findings"] if f["severity"] == "error"}
+    assert failed == {
+        f"{f['kind']} {f['net']}" for f in rep["findings"] if f["severity"] == "error"
+    }
 
 
 def test_html_is_self_contained(demo_out):
     page = (demo_out / "report.html").read_text()
-    assert page.count("data:image/png;base64,") == 1 + len(json.loads((demo_out / "findings.json").read_text())["findings"])
+    assert page.count("data:image/png;base64,") == 1 + len(
+        json.loads((demo_out / "findings.json").read_text())["findings"]
+    )
     assert "src='http" not in page and 'src="http' not in page and "<link" not in page
     assert "id='findings'" in page and "estimates" in page.lower()
 
@@ -119,22 +139,41 @@ def test_html_renders_in_a_real_browser(demo_out, tmp_path):
     if not chromium:
         pytest.skip("no chromium on this machine (.ci/run installs it)")
     shot = tmp_path / "shot.png"
-    subprocess.run([chromium, "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                    "--disable-background-networking", "--disable-component-update", "--disable-sync",
-                    f"--user-data-dir={tmp_path / 'profile'}", "--window-size=1280,2400",
-                    f"--screenshot={shot}", (demo_out / "report.html").as_uri()],
-                   check=True, capture_output=True, timeout=120)
+    subprocess.run(
+        [
+            chromium,
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--disable-quic",
+            "--no-first-run",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+            f"--user-data-dir={tmp_path / 'profile'}",
+            "--window-size=1280,2400",
+            f"--screenshot={shot}",
+            (demo_out / "report.html").as_uri(),
+        ],
+        check=True,
+        capture_output=True,
+        timeout=120,
+    )
     img = np.asarray(Image.open(shot).convert("RGB")).astype(int)
-    # the table header colour (#eef2f7) and the plane colour of the embedded pictures (#c9d6e3) both show
+    # the table header colour (#eef2f7) and the plane colour of the embedded pictures
+    # (#c9d6e3) both show
     for hexcol in ("#eef2f7", "#c9d6e3"):
-        want = np.array([int(hexcol[k:k + 2], 16) for k in (1, 3, 5)])
+        want = np.array([int(hexcol[k : k + 2], 16) for k in (1, 3, 5)])
         assert (np.abs(img - want).sum(axis=2) < 12).sum() > 500, hexcol
 
 
 def _revised_demo(folder):
     """Revision B of the demo: SPI_SCK moved 0.4 mm, the via fence under ADC_MCLK removed."""
     b = make_demo_board.build()
-    b.tracks = [(l, n, [(x, y + 0.4) for x, y in pts] if n == "SPI_SCK" else pts, w) for l, n, pts, w in b.tracks]
+    b.tracks = [
+        (lyr, n, [(x, y + 0.4) for x, y in pts] if n == "SPI_SCK" else pts, w)
+        for lyr, n, pts, w in b.tracks
+    ]
     b.vias = [v for v in b.vias if v.net != "+1V8"]
     b.write(folder)
     return folder
@@ -143,18 +182,36 @@ def _revised_demo(folder):
 def test_waivers_and_baseline_round_trip(tmp_path):
     old = tmp_path / "old.json"
     run("check", DEMO, "--json", old, "--fail-on", "never")
-    before = {f["net"]: f for f in json.loads(old.read_text())["findings"] if f["kind"] == "gap-crossing"}
+    before = {
+        f["net"]: f for f in json.loads(old.read_text())["findings"] if f["kind"] == "gap-crossing"
+    }
     waivers = tmp_path / "w.toml"
     waivers.write_text(
-        f'[[waiver]]\nid = "{before["RMII_TXD0"]["id"]}"\nby = "R. Lindqvist"\nreason = "TXD0 is static in this build"\n'
-        'date = 2026-11-20\n\n[[waiver]]\nnet = "NO_SUCH_NET"\nby = "R. Lindqvist"\nreason = "left over"\n')
+        f'[[waiver]]\nid = "{before["RMII_TXD0"]["id"]}"\nby = "R. Lindqvist"\n'
+        'reason = "TXD0 is static in this build"\ndate = 2026-11-20\n\n'
+        '[[waiver]]\nnet = "NO_SUCH_NET"\nby = "R. Lindqvist"\nreason = "left over"\n'
+    )
     rev = _revised_demo(tmp_path / "rev-b")
     new = tmp_path / "new.json"
-    r = run("check", rev, "--json", new, "--baseline", old, "--waivers", waivers, "--fail-on", "error", "--new-only")
+    r = run(
+        "check",
+        rev,
+        "--json",
+        new,
+        "--baseline",
+        old,
+        "--waivers",
+        waivers,
+        "--fail-on",
+        "error",
+        "--new-only",
+    )
     rep = json.loads(new.read_text())
     after = {f["net"]: f for f in rep["findings"] if f["kind"] == "gap-crossing"}
     assert after["RMII_TXD0"]["waiver"]["by"] == "R. Lindqvist"
-    assert after["SPI_SCK"]["status"] == "unchanged" and after["SPI_SCK"]["y_mm"] == pytest.approx(35.4)
+    assert after["SPI_SCK"]["status"] == "unchanged" and after["SPI_SCK"]["y_mm"] == pytest.approx(
+        35.4
+    )
     assert "ADC_MCLK" not in after
     assert [x["net"] for x in rep["resolved"] if x["kind"] == "gap-crossing"] == ["ADC_MCLK"]
     assert [w["reason"] for w in rep["waivers"]["stale"]] == ["left over"]

@@ -1,8 +1,5 @@
 """Stackup sources and net building, against values that follow from the files."""
 
-import json
-import math
-
 import pytest
 
 from boards import slot_board
@@ -20,13 +17,26 @@ def _board(n):
 
 def test_job_stackup_with_strings_nan_and_split_dielectric():
     # KiCad-style quirks (REFERENCE 9.2): numbers as strings, "NaN" er, one dielectric split in two
-    job = {"MaterialStackup": [
-        {"Type": "Copper", "Thickness": "0.035"},
-        {"Type": "Dielectric", "Name": "F.Cu/In1.Cu (1/2)", "Thickness": "0.1", "DielectricConstant": "4.0"},
-        {"Type": "Dielectric", "Name": "F.Cu/In1.Cu (2/2)", "Thickness": 0.1, "DielectricConstant": 5.0},
-        {"Type": "Copper", "Thickness": 0.035},
-        {"Type": "Dielectric", "Name": "core", "Thickness": 1.2, "DielectricConstant": "NaN"},
-        {"Type": "Copper"}]}
+    job = {
+        "MaterialStackup": [
+            {"Type": "Copper", "Thickness": "0.035"},
+            {
+                "Type": "Dielectric",
+                "Name": "F.Cu/In1.Cu (1/2)",
+                "Thickness": "0.1",
+                "DielectricConstant": "4.0",
+            },
+            {
+                "Type": "Dielectric",
+                "Name": "F.Cu/In1.Cu (2/2)",
+                "Thickness": 0.1,
+                "DielectricConstant": 5.0,
+            },
+            {"Type": "Copper", "Thickness": 0.035},
+            {"Type": "Dielectric", "Name": "core", "Thickness": 1.2, "DielectricConstant": "NaN"},
+            {"Type": "Copper"},
+        ]
+    }
     notes = []
     st = stackup.from_job(job, 3, notes)
     assert [d.thickness_mm for d in st.dielectrics] == pytest.approx([0.2, 1.2])
@@ -41,7 +51,11 @@ def test_user_stackup_file(tmp_path):
     p.write_text('[[dielectric]]\nbetween = ["L1", "L2"]\nthickness_mm = 0.3\ner = 3.9\n')
     cfg = config.load_stackup_file(p)
     st = stackup.build_stackup(_board(2), cfg)
-    assert (st.source, st.dielectrics[0].thickness_mm, st.dielectrics[0].er) == ("stackup file", 0.3, 3.9)
+    assert (st.source, st.dielectrics[0].thickness_mm, st.dielectrics[0].er) == (
+        "stackup file",
+        0.3,
+        3.9,
+    )
 
 
 def test_bad_stackup_file_is_one_line(tmp_path):
@@ -74,7 +88,7 @@ def test_unnamed_nets_and_the_ground_rule(tmp_path):
     # strip every .N attribute: names are generated, and the net with most copper becomes ground
     folder = slot_board(tmp_path, solid=True)
     for f in folder.glob("*.gbr"):
-        f.write_text("\n".join(l for l in f.read_text().splitlines() if not l.startswith("%TO.N")))
+        f.write_text("\n".join(x for x in f.read_text().splitlines() if not x.startswith("%TO.N")))
     b, cfg = load(folder)
     nets = connectivity.build_nets(b, cfg)
     names = set(nets.net_class)
@@ -86,16 +100,28 @@ def test_unnamed_nets_and_the_ground_rule(tmp_path):
 
 
 def test_net_classes_from_names():
-    cls = connectivity.classify(["GND", "AGND", "/power/+3V3", "VDD_CORE", "1V8", "Board_0-GND", "CLK", "SDA"], {})
-    assert cls == {"GND": "ground", "AGND": "ground", "/power/+3V3": "power", "VDD_CORE": "power", "1V8": "power",
-                   "Board_0-GND": "ground", "CLK": "signal", "SDA": "signal"}
+    cls = connectivity.classify(
+        ["GND", "AGND", "/power/+3V3", "VDD_CORE", "1V8", "Board_0-GND", "CLK", "SDA"], {}
+    )
+    assert cls == {
+        "GND": "ground",
+        "AGND": "ground",
+        "/power/+3V3": "power",
+        "VDD_CORE": "power",
+        "1V8": "power",
+        "Board_0-GND": "ground",
+        "CLK": "signal",
+        "SDA": "signal",
+    }
 
 
 def test_ipc356_records(tmp_path):
     # REFERENCE 10 #33, #34 (KiCad-written IPC-D-356A lines)
-    text = ("C  IPC-D-356A test\nP  JOB   x\nP  UNITS CUST 0\n"
-            "317/N023            D1    -1    D0394PA00X+035309Y-027829X0669Y0669R000S0\n"
-            "317NET-(D381-A)     VIA        MD0079PA00X+036506Y-028140X0138Y0000R000S3\n999\n")
+    text = (
+        "C  IPC-D-356A test\nP  JOB   x\nP  UNITS CUST 0\n"
+        "317/N023            D1    -1    D0394PA00X+035309Y-027829X0669Y0669R000S0\n"
+        "317NET-(D381-A)     VIA        MD0079PA00X+036506Y-028140X0138Y0000R000S3\n999\n"
+    )
     p = tmp_path / "n.ipc"
     p.write_text(text)
     pts = importer.parse_netlist(type("F", (), {"name": "n.ipc", "path": p})())

@@ -1,4 +1,5 @@
-"""Batch audit of many released board archives: isolated, resumable, on local processes or a Dask cluster.
+"""Batch audit of many released board archives: isolated, resumable, on local processes or a Dask
+cluster.
 
 Each board runs in its own worker process (time and memory limits) and writes its reports
 into a private folder inside the output folder, which is renamed into place when complete;
@@ -41,14 +42,17 @@ def looks_like_fab_set(folder):
 
 def _has_kind(folder, kind):
     try:
-        return any(p.is_file() and not p.is_symlink() and is_fab_candidate(p) and sniff(p) == kind
-                   for p in folder.iterdir())
+        return any(
+            p.is_file() and not p.is_symlink() and is_fab_candidate(p) and sniff(p) == kind
+            for p in folder.iterdir()
+        )
     except OSError:
         return False
 
 
 def looks_like_split_set(folder):
-    """Gerbers in one subfolder and drills in a sibling (as some EDA exports write them): one board."""
+    """Gerbers in one subfolder and drills in a sibling (as some EDA exports write them): one
+    board."""
     try:
         subs = [c for c in folder.iterdir() if c.is_dir() and not c.is_symlink()]
     except OSError:
@@ -115,20 +119,27 @@ def content_hash(path, extra):
 
 def _limits(memory_mb):
     def apply():
-        try:  # the worker dies with the audit that started it (Linux), never left running on its own
+        # the worker dies with the audit that started it (Linux), never left running on
+        # its own
+        try:
             import ctypes
             import signal
-            ctypes.CDLL("libc.so.6", use_errno=True).prctl(1, int(signal.SIGKILL))  # PR_SET_PDEATHSIG
+
+            ctypes.CDLL("libc.so.6", use_errno=True).prctl(
+                1, int(signal.SIGKILL)
+            )  # PR_SET_PDEATHSIG
         except (OSError, AttributeError):
             pass
         if memory_mb:
             b = int(memory_mb) << 20
             resource.setrlimit(resource.RLIMIT_AS, (b, b))
+
     return apply
 
 
 def audit_one(task):
-    """Run one board in a worker process; returns its status row. Safe to call from a thread or a Dask worker."""
+    """Run one board in a worker process; returns its status row. Safe to call from a thread or a
+    Dask worker."""
     out = Path(task["out"])
     final = out / "boards" / task["board_id"]
     status_file = final / "status.json"
@@ -147,14 +158,22 @@ def audit_one(task):
     env = dict(os.environ, MPLCONFIGDIR=str(work / "mpl"), PYTHONDONTWRITEBYTECODE="1")
     reason = None
     try:
-        p = subprocess.run([sys.executable, "-m", "returngap.batchworker", str(tmp / "task.json")],
-                           capture_output=True, text=True, timeout=task["time_limit_s"], env=env,
-                           preexec_fn=_limits(task["memory_limit_mb"]))
+        p = subprocess.run(
+            [sys.executable, "-m", "returngap.batchworker", str(tmp / "task.json")],
+            capture_output=True,
+            text=True,
+            timeout=task["time_limit_s"],
+            env=env,
+            preexec_fn=_limits(task["memory_limit_mb"]),
+        )
         if p.returncode != 0 and not (tmp / "status.json").is_file():
             last = (p.stderr.strip().splitlines() or [""])[-1][:300]
             if p.returncode < 0 or "MemoryError" in p.stderr:
-                reason = f"worker stopped (signal {-p.returncode}), possibly the {task['memory_limit_mb']} MB memory " \
-                         f"limit; {last}".strip("; ")
+                reason = (
+                    f"worker stopped (signal {-p.returncode}), possibly the "
+                    f"{task['memory_limit_mb']} MB memory "
+                    f"limit; {last}".strip("; ")
+                )
             else:
                 reason = f"worker failed (exit {p.returncode}): {last}"
     except subprocess.TimeoutExpired:
@@ -182,8 +201,18 @@ def audit_one(task):
 
 
 def base_row(task, status, reason=None):
-    return {"board": task["board_id"], "source": task["source"], "status": status, "reason": reason,
-            "error": 0, "warning": 0, "info": 0, "worst": None, "report": None, "hash": task["hash"]}
+    return {
+        "board": task["board_id"],
+        "source": task["source"],
+        "status": status,
+        "reason": reason,
+        "error": 0,
+        "warning": 0,
+        "info": 0,
+        "worst": None,
+        "report": None,
+        "hash": task["hash"],
+    }
 
 
 def make_tasks(sources, out, settings, stackup_dir, fail_on, force, time_limit_s, memory_limit_mb):
@@ -194,19 +223,37 @@ def make_tasks(sources, out, settings, stackup_dir, fail_on, force, time_limit_s
             stem = path.stem if path.suffix.lower() == ".zip" else path.name
             cand = Path(stackup_dir) / f"{stem}.toml"
             stack = str(cand) if cand.is_file() else None
-        extra = {"settings": settings, "fail_on": fail_on, "tool": __version__,
-                 "stackup": Path(stack).read_text() if stack else None}
-        tasks.append({"board_id": board_id, "source": str(path), "stackup": stack, "out": str(out),
-                      "settings": settings, "fail_on": fail_on, "force": force, "time_limit_s": time_limit_s,
-                      "memory_limit_mb": memory_limit_mb, "hash": content_hash(path, extra)})
+        extra = {
+            "settings": settings,
+            "fail_on": fail_on,
+            "tool": __version__,
+            "stackup": Path(stack).read_text() if stack else None,
+        }
+        tasks.append(
+            {
+                "board_id": board_id,
+                "source": str(path),
+                "stackup": stack,
+                "out": str(out),
+                "settings": settings,
+                "fail_on": fail_on,
+                "force": force,
+                "time_limit_s": time_limit_s,
+                "memory_limit_mb": memory_limit_mb,
+                "hash": content_hash(path, extra),
+            }
+        )
     return tasks
 
 
 def run_tasks(tasks, jobs=2, scheduler=None, progress=None):
-    """The same per-board function on local threads (each waiting on its worker process) or on Dask."""
+    """The same per-board function on local threads (each waiting on its worker process) or on
+    Dask."""
     rows = []
     if scheduler:
-        from dask.distributed import Client, as_completed as dask_completed
+        from dask.distributed import Client
+        from dask.distributed import as_completed as dask_completed
+
         with Client(scheduler, timeout="30s") as client:
             futures = client.map(audit_one, tasks, pure=False)
             for fut in dask_completed(futures):
@@ -222,14 +269,34 @@ def run_tasks(tasks, jobs=2, scheduler=None, progress=None):
     return sorted(rows, key=lambda r: r["board"])
 
 
-SUMMARY_FIELDS = ["board", "source", "status", "reason", "error", "warning", "info", "worst", "report"]
+SUMMARY_FIELDS = [
+    "board",
+    "source",
+    "status",
+    "reason",
+    "error",
+    "warning",
+    "info",
+    "worst",
+    "report",
+]
+
+
+def _report_link(row, e):
+    return f"<a href='{e(row['report'])}'>report</a>" if row.get("report") else ""
 
 
 def write_summary(out, rows):
     out = Path(out)
     totals = {s: sum(1 for r in rows if r["status"] == s) for s in ("ok", "findings", "failed")}
-    data = {"format": FORMAT, "version": 1, "tool_version": __version__, "boards": len(rows), "totals": totals,
-            "rows": [{k: r.get(k) for k in SUMMARY_FIELDS} for r in rows]}
+    data = {
+        "format": FORMAT,
+        "version": 1,
+        "tool_version": __version__,
+        "boards": len(rows),
+        "totals": totals,
+        "rows": [{k: r.get(k) for k in SUMMARY_FIELDS} for r in rows],
+    }
     _atomic(out / "summary.json", json.dumps(data, indent=1) + "\n")
     buf = io.StringIO()
     w = csv.DictWriter(buf, fieldnames=SUMMARY_FIELDS, lineterminator="\n")
@@ -240,17 +307,26 @@ def write_summary(out, rows):
     e = html.escape
     rows_html = "".join(
         f"<tr><td>{e(r['board'])}</td><td class='st-{e(r['status'])}'>{e(r['status'])}</td>"
-        f"<td>{r['error']}</td><td>{r['warning']}</td><td>{r['info']}</td><td>{e(r.get('worst') or r.get('reason') or '')}</td>"
-        f"<td>{'<a href=' + chr(39) + e(r['report']) + chr(39) + '>report</a>' if r.get('report') else ''}</td></tr>"
-        for r in data["rows"])
-    page = (f"<!doctype html><html lang='en'><head><meta charset='utf-8'><title>returngap audit</title><style>"
-            "body{font:14px system-ui,sans-serif;margin:24px}table{border-collapse:collapse}"
-            "td,th{padding:4px 8px;border-bottom:1px solid #e3e8ef;text-align:left}th{background:#eef2f7}"
-            ".st-failed{color:#b24400;font-weight:600}.st-findings{color:#a66f00}</style></head><body>"
-            f"<h1>Return-path audit: {len(rows)} boards</h1><p>{totals['ok']} ok, {totals['findings']} with findings, "
-            f"{totals['failed']} failed. Estimates for review; they do not replace EMC testing.</p>"
-            "<table><thead><tr><th>board</th><th>status</th><th>error</th><th>warning</th><th>info</th>"
-            f"<th>worst finding / reason</th><th></th></tr></thead><tbody>{rows_html}</tbody></table></body></html>\n")
+        f"<td>{r['error']}</td><td>{r['warning']}</td><td>{r['info']}</td>"
+        f"<td>{e(r.get('worst') or r.get('reason') or '')}</td>"
+        f"<td>{_report_link(r, e)}</td></tr>"
+        for r in data["rows"]
+    )
+    page = (
+        "<!doctype html><html lang='en'><head><meta charset='utf-8'><title>returngap "
+        "audit</title><style>"
+        "body{font:14px system-ui,sans-serif;margin:24px}table{border-collapse:collapse}"
+        "td,th{padding:4px 8px;border-bottom:1px solid #e3e8ef;text-align:left}"
+        "th{background:#eef2f7}"
+        ".st-failed{color:#b24400;font-weight:600}.st-findings{color:#a66f00}"
+        "</style></head><body>"
+        f"<h1>Return-path audit: {len(rows)} boards</h1><p>{totals['ok']} ok, "
+        f"{totals['findings']} with findings, "
+        f"{totals['failed']} failed. Estimates for review; they do not replace EMC testing.</p>"
+        "<table><thead><tr><th>board</th><th>status</th><th>error</th><th>warning</th><th>info</th>"
+        "<th>worst finding / "
+        f"reason</th><th></th></tr></thead><tbody>{rows_html}</tbody></table></body></html>\n"
+    )
     _atomic(out / "summary.html", page)
     return data
 

@@ -20,9 +20,12 @@ def main(argv):
     from .errors import InputError
     from .pipeline import run_check
     from .projector import Settings
+
     s = task["settings"]
     # one process per board: the batch spreads boards over the cores, so no second process here
-    settings = Settings(rise_time_ns=s["rise_time_ns"], max_freq_GHz=s.get("max_freq_GHz"), workers=1)
+    settings = Settings(
+        rise_time_ns=s["rise_time_ns"], max_freq_GHz=s.get("max_freq_GHz"), workers=1
+    )
     try:
         result = run_check(task["source"], task["stackup"], settings, scratch=str(here))
         rep = report.findings_report(result)
@@ -31,9 +34,13 @@ def main(argv):
         bad = report.FAIL_LEVELS[task["fail_on"]]
         status = "findings" if any(f["severity"] in bad for f in rep["findings"]) else "ok"
         row = base_row(task, status)
-        row.update(error=counts["error"], warning=counts["warning"], info=counts["info"],
-                   worst=rep["findings"][0]["message"] if rep["findings"] else None,
-                   report=f"boards/{task['board_id']}/report.html")
+        row.update(
+            error=counts["error"],
+            warning=counts["warning"],
+            info=counts["info"],
+            worst=rep["findings"][0]["message"] if rep["findings"] else None,
+            report=f"boards/{task['board_id']}/report.html",
+        )
     except InputError as e:
         row = base_row(task, "failed", str(e))
     except MemoryError:

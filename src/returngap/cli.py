@@ -16,7 +16,6 @@ from . import __version__, forking, report
 from .errors import IncompleteError, InputError
 
 
-
 def _run(ctx, fn):
     """Bad input -> one line on stderr and exit 2; a traceback only with --debug."""
     debug = ctx.obj.get("debug") if ctx.obj else False
@@ -27,8 +26,11 @@ def _run(ctx, fn):
     except IncompleteError as e:  # the completeness gate: one line per problem
         for p in e.problems:
             click.echo(f"returngap: incomplete: {p}", err=True)
-        click.echo("returngap: board refused: its data is incomplete (--allow-incomplete gives a partial "
-                   "answer with these stated as assumptions)", err=True)
+        click.echo(
+            "returngap: board refused: its data is incomplete (--allow-incomplete gives a partial "
+            "answer with these stated as assumptions)",
+            err=True,
+        )
         sys.exit(2)
     except InputError as e:
         click.echo(f"returngap: error: {e}", err=True)
@@ -40,9 +42,14 @@ def _run(ctx, fn):
     except MemoryError:
         click.echo("returngap: error: out of memory while processing the board", err=True)
         sys.exit(2)
-    except Exception as e:  # a defect of ours or an input we do not understand; never a bare traceback
-        click.echo(f"returngap: error: could not process the board ({type(e).__name__}: {str(e)[:200]})"
-                   " (run with --debug for details)", err=True)
+    except (
+        Exception
+    ) as e:  # a defect of ours or an input we do not understand; never a bare traceback
+        click.echo(
+            f"returngap: error: could not process the board ({type(e).__name__}: {str(e)[:200]})"
+            " (run with --debug for details)",
+            err=True,
+        )
         if debug:
             traceback.print_exc()
         sys.exit(2)
@@ -67,7 +74,9 @@ def main(ctx, debug):
 
 @main.command()
 @click.argument("board", nargs=-1, required=True, type=click.Path())
-@click.option("--stackup", "stackup_file", type=click.Path(), help="Stackup / layer-mapping TOML file.")
+@click.option(
+    "--stackup", "stackup_file", type=click.Path(), help="Stackup / layer-mapping TOML file."
+)
 @click.option("--json", "as_json", is_flag=True, help="Print the layer report as JSON.")
 @click.pass_context
 def layers(ctx, board, stackup_file, as_json):
@@ -79,6 +88,7 @@ def layers(ctx, board, stackup_file, as_json):
         rep = report.layers_report(b, connectivity.build_nets(b, cfg))
         rep["problems"] = [str(p) for p in b.problems]
         click.echo(report.to_json(rep) if as_json else report.layers_text(rep), nl=not as_json)
+
     _run(ctx, go)
 
 
@@ -88,6 +98,7 @@ def _progress(items, label, quiet):
     if not show:
         return items
     from tqdm import tqdm
+
     return tqdm(items, desc=label, unit="", leave=False, file=sys.stderr)
 
 
@@ -95,8 +106,10 @@ PARALLEL_MIN_PICTURES = 6  # fewer are drawn in this process alone
 
 
 def write_outputs(result, rep, out_dir, fail_on, quiet=True):
-    """Everything `check --out` writes: JSON, CSV, JUnit, overview and per-finding PNGs, report.html."""
+    """Everything `check --out` writes: JSON, CSV, JUnit, overview and per-finding PNGs,
+    report.html."""
     from . import htmlpage, render
+
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     for old in out.glob("finding-*.png"):  # pictures of an earlier run would mislead
@@ -106,8 +119,12 @@ def write_outputs(result, rep, out_dir, fail_on, quiet=True):
     _write(out / "junit.xml", report.to_junit(rep, fail_on))
     images = {f["id"]: out / f"finding-{f['id']}.png" for f in rep["findings"]}
     # pictures are independent: on a large report, two forked processes draw every other one
-    todo = [(out / "overview.png", None, None)] + [(images[f["id"]], f, i) for i, f in enumerate(rep["findings"], 1)]
-    workers = forking.workers_for(result.settings.workers) if len(todo) >= PARALLEL_MIN_PICTURES else 1
+    todo = [(out / "overview.png", None, None)] + [
+        (images[f["id"]], f, i) for i, f in enumerate(rep["findings"], 1)
+    ]
+    workers = (
+        forking.workers_for(result.settings.workers) if len(todo) >= PARALLEL_MIN_PICTURES else 1
+    )
 
     def draw(k):
         for path, f, i in _progress(todo[k::workers], "pictures", quiet or k > 0):
@@ -115,32 +132,90 @@ def write_outputs(result, rep, out_dir, fail_on, quiet=True):
                 render.overview_png(result, rep, path)
             else:
                 render.finding_png(result, f, i, path)
+
     forking.fork_map(draw, workers, workers)
     _write(out / "report.html", htmlpage.page(rep, images, out / "overview.png"))
 
 
 @main.command()
 @click.argument("board", nargs=-1, required=True, type=click.Path())
-@click.option("--stackup", "stackup_file", type=click.Path(), help="Stackup / layer-mapping TOML file.")
-@click.option("--rise-time", "rise_ns", type=click.FloatRange(min=1e-4, max=1e3), help="10-90 % rise time, ns.")
-@click.option("--max-freq", "max_ghz", type=click.FloatRange(min=1e-4, max=1e3),
-              help="Highest frequency of interest, GHz (instead of --rise-time).")
-@click.option("--nets", "net_globs", multiple=True, help="Only nets matching this glob (repeatable).")
-@click.option("--json", "json_file", type=click.Path(), help="Write the findings report (JSON) here.")
-@click.option("--out", "out_dir", type=click.Path(), help="Write all reports and pictures into this folder.")
+@click.option(
+    "--stackup", "stackup_file", type=click.Path(), help="Stackup / layer-mapping TOML file."
+)
+@click.option(
+    "--rise-time",
+    "rise_ns",
+    type=click.FloatRange(min=1e-4, max=1e3),
+    help="10-90 % rise time, ns.",
+)
+@click.option(
+    "--max-freq",
+    "max_ghz",
+    type=click.FloatRange(min=1e-4, max=1e3),
+    help="Highest frequency of interest, GHz (instead of --rise-time).",
+)
+@click.option(
+    "--nets", "net_globs", multiple=True, help="Only nets matching this glob (repeatable)."
+)
+@click.option(
+    "--json", "json_file", type=click.Path(), help="Write the findings report (JSON) here."
+)
+@click.option(
+    "--out", "out_dir", type=click.Path(), help="Write all reports and pictures into this folder."
+)
 @click.option("--waivers", "waiver_file", type=click.Path(), help="TOML file of accepted findings.")
-@click.option("--baseline", "baseline_file", type=click.Path(), help="findings.json of an earlier revision.")
-@click.option("--baseline-tolerance", type=click.FloatRange(min=0), default=2.0, show_default=True,
-              help="How far (mm) a finding may move and still match the baseline.")
-@click.option("--fail-on", type=click.Choice(["error", "warning", "never"]), default="error", show_default=True)
-@click.option("--new-only", is_flag=True, help="With --baseline: only new findings count for --fail-on.")
-@click.option("--limit", type=click.IntRange(min=1), default=40, show_default=True, help="Rows in the printed table.")
+@click.option(
+    "--baseline", "baseline_file", type=click.Path(), help="findings.json of an earlier revision."
+)
+@click.option(
+    "--baseline-tolerance",
+    type=click.FloatRange(min=0),
+    default=2.0,
+    show_default=True,
+    help="How far (mm) a finding may move and still match the baseline.",
+)
+@click.option(
+    "--fail-on",
+    type=click.Choice(["error", "warning", "never"]),
+    default="error",
+    show_default=True,
+)
+@click.option(
+    "--new-only", is_flag=True, help="With --baseline: only new findings count for --fail-on."
+)
+@click.option(
+    "--limit",
+    type=click.IntRange(min=1),
+    default=40,
+    show_default=True,
+    help="Rows in the printed table.",
+)
 @click.option("--quiet", "-q", is_flag=True, help="Print only the summary line.")
-@click.option("--allow-incomplete", is_flag=True,
-              help="Go on when the board data is incomplete, stating each problem (the run's status says so).")
+@click.option(
+    "--allow-incomplete",
+    is_flag=True,
+    help="Go on when the board data is incomplete, stating each problem (the run's status says "
+    "so).",
+)
 @click.pass_context
-def check(ctx, board, stackup_file, rise_ns, max_ghz, net_globs, json_file, out_dir, waiver_file, baseline_file,
-          baseline_tolerance, fail_on, new_only, limit, quiet, allow_incomplete):
+def check(
+    ctx,
+    board,
+    stackup_file,
+    rise_ns,
+    max_ghz,
+    net_globs,
+    json_file,
+    out_dir,
+    waiver_file,
+    baseline_file,
+    baseline_tolerance,
+    fail_on,
+    new_only,
+    limit,
+    quiet,
+    allow_incomplete,
+):
     """Find where return current must detour around slots, splits and voids."""
     from . import pipeline, review
     from .projector import Settings
@@ -171,36 +246,102 @@ def check(ctx, board, stackup_file, rise_ns, max_ghz, net_globs, json_file, out_
         if not quiet:
             click.echo(report.findings_table(rep, limit))
             for w in (rep.get("waivers") or {}).get("stale", []):
-                click.echo(f"stale waiver #{w['waiver']} ({w.get('by')}): matches no finding", err=True)
+                click.echo(
+                    f"stale waiver #{w['waiver']} ({w.get('by')}): matches no finding", err=True
+                )
         block = report.notes_block(rep, quiet)
         if block:
             click.echo(block)
         click.echo(report.summary_line(rep))
         bad = report.FAIL_LEVELS[fail_on]
-        counted = [f for f in rep["findings"] if f["severity"] in bad and not f.get("waiver")
-                   and (not new_only or f.get("status") == "new")]
+        counted = [
+            f
+            for f in rep["findings"]
+            if f["severity"] in bad
+            and not f.get("waiver")
+            and (not new_only or f.get("status") == "new")
+        ]
         return 1 if counted else 0
+
     sys.exit(_run(ctx, go))
 
 
 @main.command()
 @click.argument("sources", nargs=-1, required=True, type=click.Path())
-@click.option("--out", "out_dir", required=True, type=click.Path(), help="Output folder (nothing is written elsewhere).")
-@click.option("--jobs", type=click.IntRange(min=1, max=64), default=2, show_default=True, help="Boards at a time.")
-@click.option("--stackup-dir", type=click.Path(file_okay=False), help="Folder of <board name>.toml stackup files.")
-@click.option("--rise-time", "rise_ns", type=click.FloatRange(min=1e-4, max=1e3), help="10-90 % rise time, ns.")
-@click.option("--max-freq", "max_ghz", type=click.FloatRange(min=1e-4, max=1e3), help="Highest frequency, GHz.")
-@click.option("--fail-on", type=click.Choice(["error", "warning", "never"]), default="error", show_default=True)
-@click.option("--time-limit", "time_limit_s", type=click.FloatRange(min=0.1), default=900, show_default=True,
-              help="Seconds per board.")
-@click.option("--memory-limit", "memory_limit_mb", type=click.IntRange(min=256), default=4096, show_default=True,
-              help="MB of address space per board worker.")
+@click.option(
+    "--out",
+    "out_dir",
+    required=True,
+    type=click.Path(),
+    help="Output folder (nothing is written elsewhere).",
+)
+@click.option(
+    "--jobs",
+    type=click.IntRange(min=1, max=64),
+    default=2,
+    show_default=True,
+    help="Boards at a time.",
+)
+@click.option(
+    "--stackup-dir",
+    type=click.Path(file_okay=False),
+    help="Folder of <board name>.toml stackup files.",
+)
+@click.option(
+    "--rise-time",
+    "rise_ns",
+    type=click.FloatRange(min=1e-4, max=1e3),
+    help="10-90 % rise time, ns.",
+)
+@click.option(
+    "--max-freq",
+    "max_ghz",
+    type=click.FloatRange(min=1e-4, max=1e3),
+    help="Highest frequency, GHz.",
+)
+@click.option(
+    "--fail-on",
+    type=click.Choice(["error", "warning", "never"]),
+    default="error",
+    show_default=True,
+)
+@click.option(
+    "--time-limit",
+    "time_limit_s",
+    type=click.FloatRange(min=0.1),
+    default=900,
+    show_default=True,
+    help="Seconds per board.",
+)
+@click.option(
+    "--memory-limit",
+    "memory_limit_mb",
+    type=click.IntRange(min=256),
+    default=4096,
+    show_default=True,
+    help="MB of address space per board worker.",
+)
 @click.option("--force", is_flag=True, help="Redo boards whose input and settings are unchanged.")
-@click.option("--scheduler", help="Address of a Dask distributed scheduler (optional extra 'dask').")
+@click.option(
+    "--scheduler", help="Address of a Dask distributed scheduler (optional extra 'dask')."
+)
 @click.option("--quiet", "-q", is_flag=True, help="Print only the summary line.")
 @click.pass_context
-def audit(ctx, sources, out_dir, jobs, stackup_dir, rise_ns, max_ghz, fail_on, time_limit_s, memory_limit_mb, force,
-          scheduler, quiet):
+def audit(
+    ctx,
+    sources,
+    out_dir,
+    jobs,
+    stackup_dir,
+    rise_ns,
+    max_ghz,
+    fail_on,
+    time_limit_s,
+    memory_limit_mb,
+    force,
+    scheduler,
+    quiet,
+):
     """Audit many board archives or folders: one report folder per board and a batch summary."""
     from . import audit as batch
     from .projector import Settings
@@ -215,14 +356,19 @@ def audit(ctx, sources, out_dir, jobs, stackup_dir, rise_ns, max_ghz, fail_on, t
     def go():
         out = Path(out_dir)
         out.mkdir(parents=True, exist_ok=True)
-        tasks = batch.make_tasks(sources, out, s, stackup_dir, fail_on, force, time_limit_s, memory_limit_mb)
+        tasks = batch.make_tasks(
+            sources, out, s, stackup_dir, fail_on, force, time_limit_s, memory_limit_mb
+        )
         if not tasks:
             raise InputError(", ".join(sources), "no board archives or fabrication folders found")
         bar = None
         if not quiet and sys.stderr.isatty() and not os.environ.get("CI"):
             from tqdm import tqdm
+
             bar = tqdm(total=len(tasks), desc="boards", file=sys.stderr, leave=False)
-        rows = batch.run_tasks(tasks, jobs, scheduler, progress=(lambda r: bar.update(1)) if bar else None)
+        rows = batch.run_tasks(
+            tasks, jobs, scheduler, progress=(lambda r: bar.update(1)) if bar else None
+        )
         if bar:
             bar.close()
         data = batch.write_summary(out, rows)
@@ -230,13 +376,19 @@ def audit(ctx, sources, out_dir, jobs, stackup_dir, rise_ns, max_ghz, fail_on, t
         if not quiet:
             for r in rows:
                 extra = r.get("reason") or r.get("worst") or ""
-                click.echo(f"{r['status']:8} {r['board']:40} E{r['error']} W{r['warning']} I{r['info']} "
-                           f"{'(unchanged) ' if r.get('skipped') else ''}{extra[:90]}")
+                click.echo(
+                    f"{r['status']:8} {r['board']:40} E{r['error']} W{r['warning']} I{r['info']} "
+                    f"{'(unchanged) ' if r.get('skipped') else ''}{extra[:90]}"
+                )
         t = data["totals"]
         done = sum(1 for r in rows if not r.get("skipped"))
-        click.echo(f"returngap audit: {len(rows)} board(s): {t['ok']} ok, {t['findings']} with findings, "
-                   f"{t['failed']} failed; {done} run, {len(rows) - done} unchanged; summary in {out / 'summary.html'}")
+        click.echo(
+            f"returngap audit: {len(rows)} board(s): {t['ok']} ok, {t['findings']} with findings, "
+            f"{t['failed']} failed; {done} run, {len(rows) - done} unchanged; summary in "
+            f"{out / 'summary.html'}"
+        )
         return 1 if t["findings"] or t["failed"] else 0
+
     sys.exit(_run(ctx, go))
 
 

@@ -20,11 +20,19 @@ def analysis_problems(board, planes, chains, settings):
     out = []
     n = len(board.copper)
     if n >= 3 and not any(planes.values()):
-        out.append(Problem(board.source, f"no reference plane found on a board of {n} copper layers (no layer's "
-                                         f"plane-net copper covers {settings.plane_min_fraction:.0%} of the outline)"))
+        out.append(
+            Problem(
+                board.source,
+                f"no reference plane found on a board of {n} copper layers (no layer's "
+                f"plane-net copper covers {settings.plane_min_fraction:.0%} of the outline)",
+            )
+        )
     if not chains:
         if n < 2:
-            why = f"only one copper layer ({board.copper[0].file}): no reference plane to check against"
+            why = (
+                f"only one copper layer ({board.copper[0].file}): no reference plane "
+                "to check against"
+            )
         elif settings.nets:
             why = f"no signal track of the nets {', '.join(settings.nets)} has a reference plane"
         else:

@@ -5,15 +5,23 @@ import tomllib
 
 from .errors import InputError
 
-KNOWN_TOP = {"board_thickness_mm", "copper_thickness_mm", "er", "layers", "dielectric", "plane_nets",
-             "ground_nets", "power_nets"}
+KNOWN_TOP = {
+    "board_thickness_mm",
+    "copper_thickness_mm",
+    "er",
+    "layers",
+    "dielectric",
+    "plane_nets",
+    "ground_nets",
+    "power_nets",
+}
 
 
 def _number(path, where, value, low, high):
     try:
         v = float(value)
     except (TypeError, ValueError):
-        raise InputError(path, f"{where} must be a number, not {value!r}")
+        raise InputError(path, f"{where} must be a number, not {value!r}") from None
     if not (low <= v <= high):
         raise InputError(path, f"{where} = {v} is outside {low}..{high}")
     return v
@@ -25,11 +33,11 @@ def read_toml(path):
         with open(path, "rb") as f:
             return tomllib.load(f)
     except OSError as e:
-        raise InputError(path, f"cannot read ({e.strerror})")
+        raise InputError(path, f"cannot read ({e.strerror})") from None
     except tomllib.TOMLDecodeError as e:
         m = re.search(r"at line (\d+)", str(e))
         line = getattr(e, "lineno", None) or (int(m.group(1)) if m else None)
-        raise InputError(path, f"not valid TOML ({str(e).split(' (at')[0]})", line)
+        raise InputError(path, f"not valid TOML ({str(e).split(' (at')[0]})", line) from None
 
 
 def load_stackup_file(path):
@@ -40,7 +48,11 @@ def load_stackup_file(path):
     if unknown:
         raise InputError(path, f"unknown key(s): {', '.join(sorted(unknown))}")
     out = {"path": str(path), "layers": {}, "dielectric": []}
-    for key, lo, hi in (("board_thickness_mm", 0.05, 20), ("copper_thickness_mm", 0.001, 0.5), ("er", 1.0, 20)):
+    for key, lo, hi in (
+        ("board_thickness_mm", 0.05, 20),
+        ("copper_thickness_mm", 0.001, 0.5),
+        ("er", 1.0, 20),
+    ):
         if key in data:
             out[key] = _number(path, key, data[key], lo, hi)
     layers = data.get("layers", {})
@@ -53,16 +65,23 @@ def load_stackup_file(path):
     for i, d in enumerate(diel):
         where = f"dielectric #{i + 1}"
         if not isinstance(d, dict) or "between" not in d or "thickness_mm" not in d:
-            raise InputError(path, f"{where} needs between = [\"Lx\", \"Ly\"] and thickness_mm")
+            raise InputError(path, f'{where} needs between = ["Lx", "Ly"] and thickness_mm')
         between = d["between"]
-        if (not isinstance(between, list) or len(between) != 2
-                or not all(isinstance(b, str) and b[:1] == "L" and b[1:].isdigit() for b in between)):
-            raise InputError(path, f"{where}: between must be two layer names like [\"L1\", \"L2\"]")
-        out["dielectric"].append({
-            "between": (between[0], between[1]),
-            "thickness_mm": _number(path, f"{where} thickness_mm", d["thickness_mm"], 0.005, 10),
-            "er": _number(path, f"{where} er", d.get("er", data.get("er", 4.3)), 1.0, 20),
-        })
+        if (
+            not isinstance(between, list)
+            or len(between) != 2
+            or not all(isinstance(b, str) and b[:1] == "L" and b[1:].isdigit() for b in between)
+        ):
+            raise InputError(path, f'{where}: between must be two layer names like ["L1", "L2"]')
+        out["dielectric"].append(
+            {
+                "between": (between[0], between[1]),
+                "thickness_mm": _number(
+                    path, f"{where} thickness_mm", d["thickness_mm"], 0.005, 10
+                ),
+                "er": _number(path, f"{where} er", d.get("er", data.get("er", 4.3)), 1.0, 20),
+            }
+        )
     for key in ("ground_nets", "power_nets"):
         if key in data:
             if not isinstance(data[key], list) or not all(isinstance(x, str) for x in data[key]):

@@ -18,10 +18,17 @@ import shapely
 from . import forking
 from .shapes import disjoint_union, intersects_pairs, touch_components
 
-GROUND_RE = re.compile(r"^(?:[ADPSCH]?GND\w*|GND\w*|VSS\w*|0V|EARTH|CHASSIS|GROUND\w*|\w*_GND|\w*GND)$", re.I)
-POWER_RE = re.compile(r"^(?:\+|-)?(?:V(?:CC|DD|EE|BUS|BAT|IN|IO|REF|CORE|SYS|PP|DDQ|TT)\w*|PWR\w*|POWER\w*|"
-                      r"P?\d+V\d*\w*|\d+V|V\d+\w*|\d+\.\d+V\w*)$", re.I)
-PLANE_AREA_FRACTION = 0.20  # an island this share of the board acts as a plane (common practice, no source)
+GROUND_RE = re.compile(
+    r"^(?:[ADPSCH]?GND\w*|GND\w*|VSS\w*|0V|EARTH|CHASSIS|GROUND\w*|\w*_GND|\w*GND)$", re.I
+)
+POWER_RE = re.compile(
+    r"^(?:\+|-)?(?:V(?:CC|DD|EE|BUS|BAT|IN|IO|REF|CORE|SYS|PP|DDQ|TT)\w*|PWR\w*|POWER\w*|"
+    r"P?\d+V\d*\w*|\d+V|V\d+\w*|\d+\.\d+V\w*)$",
+    re.I,
+)
+PLANE_AREA_FRACTION = (
+    0.20  # an island this share of the board acts as a plane (common practice, no source)
+)
 
 
 def leaf(name):
@@ -36,7 +43,17 @@ class LayerNets:
     polygon is the union of its pieces, built only when a check asks for it (planes, pours, floating
     copper), so signal tracks are never unioned."""
 
-    def __init__(self, name, pieces, piece_island, island_net, segment_net, flash_net, segment_fill, tree=None):
+    def __init__(
+        self,
+        name,
+        pieces,
+        piece_island,
+        island_net,
+        segment_net,
+        flash_net,
+        segment_fill,
+        tree=None,
+    ):
         self.name = name
         self.pieces = pieces
         self.piece_island = piece_island
@@ -58,7 +75,7 @@ class LayerNets:
         return len(self.island_net)
 
     def members(self, i):
-        return self._order[self._start[i]:self._start[i + 1]]
+        return self._order[self._start[i] : self._start[i + 1]]
 
     def island(self, i):
         """Polygon (rarely a MultiPolygon, where pieces only touch at a point) of island i."""
@@ -81,13 +98,15 @@ class LayerNets:
                 at = int(np.argmax(shapely.area(m)))
                 big, rest = m[at], np.delete(m, at)
                 shapely.prepare(big)
-                polys[k] = shapely.union_all(np.concatenate([[big], rest[~shapely.covers(big, rest)]]))
+                polys[k] = shapely.union_all(
+                    np.concatenate([[big], rest[~shapely.covers(big, rest)]])
+                )
             bucket = np.ceil(np.log2(np.maximum(size, 1))).astype(int)
             for b in np.unique(bucket[~one & ~many]):
                 rows = np.flatnonzero((bucket == b) & ~one & ~many)
                 grid = np.full((len(rows), int(size[rows].max())), None, dtype=object)
                 for r, k in enumerate(rows):
-                    grid[r, :size[k]] = self.pieces[self.members(need[k])]
+                    grid[r, : size[k]] = self.pieces[self.members(need[k])]
                 polys[rows] = shapely.union_all(grid, axis=1)
             bad = ~shapely.is_valid(polys[one]) if one.any() else np.zeros(0, dtype=bool)
             if bad.any():  # a drawn region that crosses itself; unions come out valid
@@ -102,12 +121,16 @@ class LayerNets:
 
     def island_areas(self):
         """Area of every island (each island's union, built once and kept)."""
-        return shapely.area(np.array(self.island_polygons(range(self.n_islands)), dtype=object)) \
-            if self.n_islands else np.zeros(0)
+        return (
+            shapely.area(np.array(self.island_polygons(range(self.n_islands)), dtype=object))
+            if self.n_islands
+            else np.zeros(0)
+        )
 
     def piece_area_bounds(self):
         """Per island, (sum of its pieces' areas, largest piece's area): its area lies between.
-        Worked out once (the pour test, the plane checks and the ground choice all ask), read-only."""
+        Worked out once (the pour test, the plane checks and the ground choice all ask),
+        read-only."""
         if self._area_bounds is None:
             area = shapely.area(self.pieces)
             largest = np.zeros(self.n_islands)
@@ -127,11 +150,14 @@ class LayerNets:
         """All copper of the given nets on this layer, as one geometry (cached)."""
         key = frozenset(nets)
         if key not in self._union:
-            self._union[key] = disjoint_union(p for _, p in self.islands_of(key))  # islands never touch
+            self._union[key] = disjoint_union(
+                p for _, p in self.islands_of(key)
+            )  # islands never touch
         return self._union[key]
 
     def islands_at(self, pts, distance=0.0):
-        """Island index per point (-1 off copper); with distance > 0, within that distance of copper."""
+        """Island index per point (-1 off copper); with distance > 0, within that distance of
+        copper."""
         out = np.full(len(pts), -1, dtype=int)
         if not len(pts) or not len(self.pieces):
             return out
@@ -148,12 +174,14 @@ class LayerNets:
 
 @dataclass
 class Nets:
-    layers: dict                      # layer name -> LayerNets
-    net_class: dict                   # net -> ground | power | signal
+    layers: dict  # layer name -> LayerNets
+    net_class: dict  # net -> ground | power | signal
     plane_nets: set
-    hole_net: dict                    # (drill file, hole index) -> net
+    hole_net: dict  # (drill file, hole index) -> net
     notes: list = field(default_factory=list)
-    conflicts: list = field(default_factory=list)   # NetConflict: one piece of copper, two net labels
+    conflicts: list = field(
+        default_factory=list
+    )  # NetConflict: one piece of copper, two net labels
 
     def is_signal(self, net):
         return self.net_class.get(net, "signal") == "signal"
@@ -221,8 +249,10 @@ def _fill_segments(layer, ln, seg_isl, pairs):
         total, largest = ln.piece_area_bounds()
         cand &= per_island > FILL_OVERLAP * largest
     if cand.any():
-        # Bonferroni: union area >= sum of piece areas - sum of pairwise overlaps; islands whose bound
-        # already rules a pour out (single tracks: pieces overlap only at their ends) are not unioned
+        # Bonferroni: union area >= sum of piece areas - sum of pairwise overlaps; islands
+        # whose bound
+        # already rules a pour out (single tracks: pieces overlap only at their ends) are
+        # not unioned
         lower = total.copy()
         a, b = pairs
         keep = cand[ln.piece_island[a]]
@@ -240,13 +270,13 @@ class NetConflict:
     """Copper joined into one net (touching, or through a plated hole) that carries another net's
     label too: a short in the released data, or a label the writer got wrong."""
 
-    net: str                  # the label most of the copper carries
-    other: str                # the other label
-    layer: str                # where the other label's copper joins it
+    net: str  # the label most of the copper carries
+    other: str  # the other label
+    layer: str  # where the other label's copper joins it
     x: float
     y: float
-    labels: int               # how many objects carry the other label there
-    part: str | None = None   # a part whose own pads carry both labels there (a net tie, a jumper)
+    labels: int  # how many objects carry the other label there
+    part: str | None = None  # a part whose own pads carry both labels there (a net tie, a jumper)
 
 
 def _labelled_point(board, li, island, name, per_layer):
@@ -285,17 +315,34 @@ def _tie_part(board, comp, per_layer, a, b):
 
 
 def _conflicts(board, comp, votes, per_layer, name, tally):
-    """One NetConflict per other label in a component: at the island where that label is strongest."""
+    """One NetConflict per other label in a component: at the island where that label is
+    strongest."""
     out = []
     for other in sorted(n for n in tally if n != name):
-        li, island = max((node for node in comp if votes.get(node, {}).get(other)),
-                         key=lambda node: (votes[node][other], -node[0], -node[1]))
+        li, island = max(
+            (node for node in comp if votes.get(node, {}).get(other)),
+            key=lambda node: (votes[node][other], -node[0], -node[1]),
+        )
         at = _labelled_point(board, li, island, other, per_layer)
         if at is None:  # a netlist point only
-            b = shapely.bounds(board.copper[li].pieces[per_layer[board.copper[li].name][0] == island])
-            at = (float((b[:, 0].min() + b[:, 2].max()) / 2), float((b[:, 1].min() + b[:, 3].max()) / 2))
-        out.append(NetConflict(name, other, board.copper[li].name, at[0], at[1], int(votes[(li, island)][other]),
-                               _tie_part(board, comp, per_layer, name, other)))
+            b = shapely.bounds(
+                board.copper[li].pieces[per_layer[board.copper[li].name][0] == island]
+            )
+            at = (
+                float((b[:, 0].min() + b[:, 2].max()) / 2),
+                float((b[:, 1].min() + b[:, 3].max()) / 2),
+            )
+        out.append(
+            NetConflict(
+                name,
+                other,
+                board.copper[li].name,
+                at[0],
+                at[1],
+                int(votes[(li, island)][other]),
+                _tie_part(board, comp, per_layer, name, other),
+            )
+        )
     return out
 
 
@@ -318,7 +365,8 @@ def classify(names, user_cfg):
 
 
 def _tally(votes, li, islands, names, weight):
-    """Add `weight` votes for each named object's net to its island (counted in numpy, not one by one)."""
+    """Add `weight` votes for each named object's net to its island (counted in numpy, not one by
+    one)."""
     uniq = sorted({n for n in names if n})
     code = {n: k for k, n in enumerate(uniq)}
     if not uniq:
@@ -331,8 +379,10 @@ def _tally(votes, li, islands, names, weight):
 
 
 def layer_islands(layer):
-    """Islands of one layer's pieces, and the island under each segment, flash and region; kept on the
-    layer (as layer.islands_found, with its pieces' tree as layer.piece_tree), so that the import can
+    """Islands of one layer's pieces, and the island under each segment, flash and region; kept on
+    the
+    layer (as layer.islands_found, with its pieces' tree as layer.piece_tree), so that the import
+    can
     work them out for each layer as it reads it, on either core."""
     pieces = layer.pieces
     shapely.prepare(pieces)  # point and hole tests below and in later stages
@@ -341,10 +391,13 @@ def layer_islands(layer):
     seg_isl = fl_isl = reg_isl = np.zeros(0, dtype=int)
     if count:
         s = layer.segments
-        seg_isl = _island_index(piece_island, tree, np.column_stack([(s[:, 0] + s[:, 2]) / 2, (s[:, 1] + s[:, 3]) / 2]))
+        seg_isl = _island_index(
+            piece_island, tree, np.column_stack([(s[:, 0] + s[:, 2]) / 2, (s[:, 1] + s[:, 3]) / 2])
+        )
         fl_isl = _island_index(piece_island, tree, layer.flashes[:, :2])
-        reg_xy = shapely.get_coordinates(shapely.point_on_surface(
-            np.array([r[0] for r in layer.regions], dtype=object))).reshape(-1, 2)
+        reg_xy = shapely.get_coordinates(
+            shapely.point_on_surface(np.array([r[0] for r in layer.regions], dtype=object))
+        ).reshape(-1, 2)
         reg_isl = _island_index(piece_island, tree, reg_xy)
     layer.islands_found = (piece_island, seg_isl, fl_isl, reg_isl, count, pairs)
     layer.piece_tree = tree
@@ -367,25 +420,39 @@ def build_nets(board, user_cfg=None):
     per_layer = {}
     votes = defaultdict(Counter)
     size = forking.board_segments(board)
-    with forking.two_threads(size) as pool:  # shapely's vectorised calls release the GIL: both cores
+    with forking.two_threads(
+        size
+    ) as pool:  # shapely's vectorised calls release the GIL: both cores
         found = list(pool.map(_layer_islands, board.copper))
-    for li, (layer, (piece_island, tree, seg_isl, fl_isl, reg_isl, count, pairs)) in \
-            enumerate(zip(board.copper, found)):
+    for li, (layer, (piece_island, tree, seg_isl, fl_isl, reg_isl, count, pairs)) in enumerate(
+        zip(board.copper, found)
+    ):
         if count:
             _tally(votes, li, seg_isl, layer.segment_net, 1)
             _tally(votes, li, fl_isl, layer.flash_net, 1)
-            _tally(votes, li, reg_isl, [r[1] for r in layer.regions], 5)  # a named pour speaks for its island
+            _tally(
+                votes, li, reg_isl, [r[1] for r in layer.regions], 5
+            )  # a named pour speaks for its island
         g.add_nodes_from((li, int(i)) for i in range(count))
         per_layer[layer.name] = (piece_island, tree, seg_isl, fl_isl, count, pairs)
 
     hole_nodes = {}
-    layer_pos = {l.name: i for i, l in enumerate(board.copper)}
+    layer_pos = {c.name: i for i, c in enumerate(board.copper)}
     tied = defaultdict(set)  # islands with a hole or pad in them: not floating
     for drill in board.drills:
-        geoms = list(shapely.buffer(shapely.points(drill.holes[:, :2]), np.maximum(drill.holes[:, 2] / 2, 0.01)))
-        geoms += list(shapely.buffer(shapely.linestrings(
-            [[(s[0], s[1]), (s[2], s[3])] for s in drill.slots]) if len(drill.slots) else [], drill.slots[:, 4] / 2
-            if len(drill.slots) else 0))
+        geoms = list(
+            shapely.buffer(
+                shapely.points(drill.holes[:, :2]), np.maximum(drill.holes[:, 2] / 2, 0.01)
+            )
+        )
+        geoms += list(
+            shapely.buffer(
+                shapely.linestrings([[(s[0], s[1]), (s[2], s[3])] for s in drill.slots])
+                if len(drill.slots)
+                else [],
+                drill.slots[:, 4] / 2 if len(drill.slots) else 0,
+            )
+        )
         geoms = np.array(geoms, dtype=object)
         if not len(geoms):
             continue
@@ -442,9 +509,11 @@ def build_nets(board, user_cfg=None):
         else:
             unnamed.append(comp)
     layers = {}
-    for li, layer in enumerate(board.copper):
+    for layer in board.copper:
         piece_island, tree, seg_isl, fl_isl, count, pairs = per_layer[layer.name]
-        layers[layer.name] = LayerNets(layer.name, layer.pieces, piece_island, [None] * count, [], [], None, tree)
+        layers[layer.name] = LayerNets(
+            layer.name, layer.pieces, piece_island, [None] * count, [], [], None, tree
+        )
     # stable generated names: order by layer and position (the centre of an island's bounds) of the
     # component's first island in that order, whatever order the pieces were drawn in
 
@@ -460,6 +529,7 @@ def build_nets(board, user_cfg=None):
 
     def key(comp):
         return min((li, *centre[li][i]) for li, i in comp)
+
     for k, comp in enumerate(sorted(unnamed, key=key)):
         for node in comp:
             node_net[node] = f"UNNAMED_{k + 1:04d}"
@@ -484,39 +554,53 @@ def build_nets(board, user_cfg=None):
         # islands between the two bounds are unioned here
         upper, lower = ln.piece_area_bounds()
         layer._area_of = ln.island_areas  # the layer's copper area, when a report asks for it
-        return {ln.island_net[i] for i in np.flatnonzero(upper >= limit)
-                if lower[i] >= limit or ln.island_area(int(i)) >= limit}
+        return {
+            ln.island_net[i]
+            for i in np.flatnonzero(upper >= limit)
+            if lower[i] >= limit or ln.island_area(int(i)) >= limit
+        }
+
     with forking.two_threads(size) as pool:
         big = set().union(*pool.map(finish, range(len(board.copper))))
     notes = []
-    if not any(c == "ground" for c in net_class.values()) and any(ln.n_islands for ln in layers.values()):
+    if not any(c == "ground" for c in net_class.values()) and any(
+        ln.n_islands for ln in layers.values()
+    ):
         # each island's area lies between its largest piece's and its pieces' sum: only nets whose
-        # upper bound reaches the best lower bound can have the most copper, so only theirs are unioned
+        # upper bound reaches the best lower bound can have the most copper, so only
+        # theirs are unioned
         upper, lower = Counter(), Counter()
         for ln in layers.values():
             up, lo = ln.piece_area_bounds()
-            for n, u, l in zip(ln.island_net, up.tolist(), lo.tolist()):
+            for n, u, lw in zip(ln.island_net, up.tolist(), lo.tolist()):
                 upper[n] += u
-                lower[n] += l
+                lower[n] += lw
         best = max(lower.values())
         area_by_net = Counter()
 
         def areas(ln):  # each layer's candidate islands unioned in one call (in two threads)
             idx = [i for i, n in enumerate(ln.island_net) if upper[n] >= best]
-            return [(ln.island_net[i], a) for i, a in zip(idx, shapely.area(ln.island_polygons(idx)))]
+            return [
+                (ln.island_net[i], a) for i, a in zip(idx, shapely.area(ln.island_polygons(idx)))
+            ]
+
         with forking.two_threads(size) as pool:
             for found in pool.map(areas, layers.values()):
                 for n, a in found:
                     area_by_net[n] += a
         gnd = max(area_by_net.items(), key=lambda kv: (kv[1], kv[0]))[0]
         net_class[gnd] = "ground"
-        notes.append(f"no net is named like a ground: {gnd}, the net with the most copper "
-                     f"({area_by_net[gnd]:.0f} mm2), is taken as ground")
+        notes.append(
+            f"no net is named like a ground: {gnd}, the net with the most copper "
+            f"({area_by_net[gnd]:.0f} mm2), is taken as ground"
+        )
     for n in sorted(big):
         if net_class[n] == "signal":
             net_class[n] = "power"
-            notes.append(f"net {n} has a plane-sized island (>= {PLANE_AREA_FRACTION:.0%} of the board) "
-                         "and is treated as a power plane")
+            notes.append(
+                f"net {n} has a plane-sized island (>= {PLANE_AREA_FRACTION:.0%} of the board) "
+                "and is treated as a power plane"
+            )
     plane_nets = {n for n, c in net_class.items() if c in ("ground", "power")}
     hole_net = {k: node_net[v] for k, v in hole_nodes.items()}
     for note in notes:

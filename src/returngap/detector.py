@@ -23,10 +23,10 @@ from .gridpath import CELLS, Lattice, lattice_way
 from .projector import footprint_polygon, line_z0
 
 EPS = 1e-6
-STEP_OFF_MM = 0.01     # how far beyond a gap's edge the detour path starts and ends
-MAX_STATIONS = 160     # transverse cuts per crossing for the interrupted share
-EDGE_HAIR_MM = 0.005   # a detour may graze a gap's edge by this much
-WINDOW_MM = 10.0       # side of the first detour window (at least); the second is three times as wide
+STEP_OFF_MM = 0.01  # how far beyond a gap's edge the detour path starts and ends
+MAX_STATIONS = 160  # transverse cuts per crossing for the interrupted share
+EDGE_HAIR_MM = 0.005  # a detour may graze a gap's edge by this much
+WINDOW_MM = 10.0  # side of the first detour window (at least); the second is three times as wide
 
 
 @dataclass
@@ -51,7 +51,9 @@ class Void:
         if len(self.edges) < 2000:
             return self.edges
         x0, y0, x1, y1 = self.geom.bounds
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):  # the stretch of line in the box
+        with np.errstate(
+            divide="ignore", invalid="ignore", over="ignore"
+        ):  # the stretch of line in the box
             ta = np.where(u != 0, (np.array([x0, y0]) - m) / u, -np.inf)
             tb = np.where(u != 0, (np.array([x1, y1]) - m) / u, np.inf)
         inside = (u != 0) | ((m >= (x0, y0)) & (m <= (x1, y1)))
@@ -63,7 +65,8 @@ class Void:
         tree = self.__dict__.get("_edge_tree")
         if tree is None:
             tree = self.__dict__["_edge_tree"] = shapely.STRtree(
-                shapely.linestrings(self.edges.reshape(-1, 2, 2)))
+                shapely.linestrings(self.edges.reshape(-1, 2, 2))
+            )
         t = np.linspace(lo, hi, max(2, int((hi - lo) / 2.0) + 2))  # pieces about 2 mm long
         a, b = m + t[:-1, None] * u, m + t[1:, None] * u
         # each piece's box, a hair larger: an edge through a piece's end is found from both sides
@@ -92,7 +95,9 @@ class Void:
         if len(xy) > 65:
             tree = cache.get(k)
             if tree is None:
-                tree = cache[k] = shapely.STRtree(shapely.linestrings(np.stack([xy[:-1], xy[1:]], axis=1)))
+                tree = cache[k] = shapely.STRtree(
+                    shapely.linestrings(np.stack([xy[:-1], xy[1:]], axis=1))
+                )
             e = tree.query_nearest(shapely.points(pts), all_matches=False)[1]
         else:
             e = None
@@ -126,13 +131,17 @@ class ReferenceCopper:
         copper = layer_nets.union_of(plane_nets)
         voids = shapely.get_parts(outline.difference(copper))
         edge = outline.boundary
-        voids = np.array([v for v in voids if v.geom_type == "Polygon" and v.area > 1e-6], dtype=object)
+        voids = np.array(
+            [v for v in voids if v.geom_type == "Polygon" and v.area > 1e-6], dtype=object
+        )
         shapely.prepare(edge)
         touches = shapely.dwithin(edge, voids, 1e-4) if len(voids) else np.zeros(0, dtype=bool)
         self.voids = [Void(v, not bool(t), k) for k, (v, t) in enumerate(zip(voids, touches))]
         self.void_geoms = np.array([v.geom for v in self.voids], dtype=object)
         self.void_tree = shapely.STRtree(self.void_geoms)
-        shapely.prepare(self.void_geoms)  # a distance test against a large void then skips most of its edges
+        shapely.prepare(
+            self.void_geoms
+        )  # a distance test against a large void then skips most of its edges
         self._shrunk = np.full(len(self.voids), None, dtype=object)
         self._have_shrunk = np.zeros(len(self.voids), dtype=bool)
         self._hulls = [None] * len(self.voids)
@@ -143,7 +152,8 @@ class ReferenceCopper:
         shapely.prepare(outline)
 
     def passable(self, segs):
-        """True for each straight piece of path that stays on the board and out of every void (a piece may
+        """True for each straight piece of path that stays on the board and out of every void (a
+        piece may
         run along a void's edge: each void is shrunk by a hair for the test)."""
         ok = shapely.covers(self.outline, segs)
         q = self.void_tree.query(segs)
@@ -163,15 +173,20 @@ class ReferenceCopper:
         return self._shrunk[k]
 
     def voids_near(self, line, distance):
-        """Positions (ascending) of the voids within `distance` of a line: boxes from the tree, then the
-        prepared voids tested (the tree's own distance test would walk every edge of a large void)."""
+        """Positions (ascending) of the voids within `distance` of a line: boxes from the tree,
+        then the
+        prepared voids tested (the tree's own distance test would walk every edge of a large
+        void)."""
         x0, y0, x1, y1 = line.bounds
-        c = self.void_tree.query(shapely.box(x0 - distance, y0 - distance, x1 + distance, y1 + distance))
+        c = self.void_tree.query(
+            shapely.box(x0 - distance, y0 - distance, x1 + distance, y1 + distance)
+        )
         return np.sort(c[shapely.dwithin(self.void_geoms[c], line, distance)])
 
     @functools.cached_property
     def inset_outline(self):
-        """The board outline shrunk by 10 um, built once: points outside it are at the board's edge."""
+        """The board outline shrunk by 10 um, built once: points outside it are at the board's
+        edge."""
         inset = self.outline.buffer(-0.01)
         shapely.prepare(inset)
         return inset
@@ -180,15 +195,20 @@ class ReferenceCopper:
         """The plane's free copper on a lattice of cells `size` mm (gridpath.Lattice), kept."""
         lat = self._lattices.get(size)
         if lat is None:
-            lat = self._lattices[size] = Lattice(self.outline, self.void_geoms, size, self.void_tree)
+            lat = self._lattices[size] = Lattice(
+                self.outline, self.void_geoms, size, self.void_tree
+            )
         return lat
 
     def along_edge(self, void):
-        """Per point of a gap's outer ring (the closing one aside), whether it lies on the board's edge."""
+        """Per point of a gap's outer ring (the closing one aside), whether it lies on the board's
+        edge."""
         flags = self._along_edge.get(void.index)
         if flags is None:
             xy = void.ring_points(0)[0][:-1]
-            flags = self._along_edge[void.index] = shapely.dwithin(self.edge, shapely.points(xy), 1e-4)
+            flags = self._along_edge[void.index] = shapely.dwithin(
+                self.edge, shapely.points(xy), 1e-4
+            )
         return flags
 
     def hull(self, k):
@@ -218,14 +238,17 @@ def interrupted_share(line, s_from, s_to, halfwidth, width, ref, gap):
         return 0.0, s_from
     n = int(min(MAX_STATIONS, max(3, (s_to - s_from) / max(ref.h_mm / 4, 0.02))))
     ss = np.linspace(s_from, s_to, n)
-    p, q, r = coords_along(line, np.concatenate([ss, np.minimum(ss + 1e-3, line.length),
-                                                 np.maximum(ss - 1e-3, 0.0)])).reshape(3, n, 2)
+    p, q, r = coords_along(
+        line, np.concatenate([ss, np.minimum(ss + 1e-3, line.length), np.maximum(ss - 1e-3, 0.0)])
+    ).reshape(3, n, 2)
     t = q - r
     t /= np.maximum(np.hypot(t[:, 0], t[:, 1]), EPS)[:, None]
     nrm = np.column_stack([-t[:, 1], t[:, 0]])
     lo = (p - halfwidth * np.abs(nrm)).min(axis=0) - 0.01
     hi = (p + halfwidth * np.abs(nrm)).max(axis=0) + 0.01
-    gap = shapely.clip_by_rect(gap, lo[0], lo[1], hi[0], hi[1])  # only the cuts' neighbourhood matters
+    gap = shapely.clip_by_rect(
+        gap, lo[0], lo[1], hi[0], hi[1]
+    )  # only the cuts' neighbourhood matters
     of_cut, x1, x2 = cut_intervals(ring_edges(gap), p, nrm, -halfwidth, halfwidth)
     if not len(of_cut):
         return 0.0, float(ss[0])
@@ -280,7 +303,9 @@ def slot_geometry(void, mid, tangent, reach, aspect_limit):
         elongated = width > 0 and length / width >= aspect_limit
         return dict(length=length, width=width, l1=l1, l2=l2, elongated=elongated)
     l1, l2, end1, end2 = _extent_across(void, mid, perp, reach)
-    if l1 + l2 <= 0:  # the cut missed (the crossing runs along the gap): size it by its local outline
+    if (
+        l1 + l2 <= 0
+    ):  # the cut missed (the crossing runs along the gap): size it by its local outline
         near = void.geom.intersection(shapely.Point(mid).buffer(max(reach / 20, 1.0)))
         if not near.is_empty:
             c = np.asarray(near.minimum_rotated_rectangle.exterior.coords)[:4]
@@ -289,7 +314,9 @@ def slot_geometry(void, mid, tangent, reach, aspect_limit):
     return dict(length=l1 + l2, width=None, l1=l1, l2=l2, end1=end1, end2=end2, elongated=True)
 
 
-PARALLEL_MIN_CHAINS = 10  # below this a second process costs more than it saves (measured by make bench)
+PARALLEL_MIN_CHAINS = (
+    10  # below this a second process costs more than it saves (measured by make bench)
+)
 
 
 class _GapScan:
@@ -309,8 +336,9 @@ class _GapScan:
     def copper(self, ref_layer):
         rc = self._copper.get(ref_layer)
         if rc is None:
-            rc = self._copper[ref_layer] = ReferenceCopper(self.nets.layers[ref_layer], self.nets.plane_nets,
-                                                           self.board.outline)
+            rc = self._copper[ref_layer] = ReferenceCopper(
+                self.nets.layers[ref_layer], self.nets.plane_nets, self.board.outline
+            )
         return rc
 
     def chain(self, ch, ref_nets):
@@ -327,7 +355,13 @@ class _GapScan:
             near = rc.voids_near(line, hw)  # every void the footprint meets
             own = self.own_hole_pts.get(ch.net)
             if own is not None:  # the antipad of the track's own via belongs to its layer change
-                near = [k for k in near if not (rc.voids[k].enclosed and shapely.intersects(rc.void_geoms[k], own).any())]
+                near = [
+                    k
+                    for k in near
+                    if not (
+                        rc.voids[k].enclosed and shapely.intersects(rc.void_geoms[k], own).any()
+                    )
+                ]
             if not len(near):
                 continue
             # the reference net: the plane net under most of the centre line
@@ -338,8 +372,9 @@ class _GapScan:
             # clip first: the void outside all plane copper can be as large as the board (all the
             # chain's voids at once)
             near = np.asarray(near, dtype=int)
-            local_all = shapely.clip_by_rect(rc.void_geoms[near], lx0 - hw - 0.1, ly0 - hw - 0.1,
-                                             lx1 + hw + 0.1, ly1 + hw + 0.1)
+            local_all = shapely.clip_by_rect(
+                rc.void_geoms[near], lx0 - hw - 0.1, ly0 - hw - 0.1, lx1 + hw + 0.1, ly1 + hw + 0.1
+            )
             keep = ~shapely.is_empty(local_all)
             near, local_all = near[keep], local_all[keep]
             try:
@@ -369,16 +404,55 @@ class _GapScan:
                     events.append(("graze", None, None))
                 for ev, s0, s1 in events:
                     try:
-                        f = _finding(self.board, ch, ref, rc, void, local, line, hw, ev, s0, s1, self.reach,
-                                     self.settings, ref_net)
+                        f = _finding(
+                            self.board,
+                            ch,
+                            ref,
+                            rc,
+                            void,
+                            local,
+                            line,
+                            hw,
+                            ev,
+                            s0,
+                            s1,
+                            self.reach,
+                            self.settings,
+                            ref_net,
+                        )
                     except shapely.errors.GEOSException:
                         # GEOS can fail on a nearly degenerate outline ("side location conflict"):
                         # once more with the gap snapped to a 1 nm grid, which makes it clean
-                        f = _finding(self.board, ch, ref, rc, void, shapely.set_precision(local, 1e-6), line, hw,
-                                     ev, s0, s1, self.reach, self.settings, ref_net)
+                        f = _finding(
+                            self.board,
+                            ch,
+                            ref,
+                            rc,
+                            void,
+                            shapely.set_precision(local, 1e-6),
+                            line,
+                            hw,
+                            ev,
+                            s0,
+                            s1,
+                            self.reach,
+                            self.settings,
+                            ref_net,
+                        )
                     if f is not None:
-                        out.append(((f["net"], f["layer"], f["reference_layer"], void.index, round(f["x_mm"], 1),
-                                     round(f["y_mm"], 1)), f))
+                        out.append(
+                            (
+                                (
+                                    f["net"],
+                                    f["layer"],
+                                    f["reference_layer"],
+                                    void.index,
+                                    round(f["x_mm"], 1),
+                                    round(f["y_mm"], 1),
+                                ),
+                                f,
+                            )
+                        )
         return out
 
 
@@ -394,8 +468,10 @@ def chain_plane_nets(nets, chains):
     for i, ch in enumerate(chains):
         for r in ch.footprints:
             by_ref.setdefault(r, []).append(i)
+
     def one(r):
         return majority_nets(nets.layers[r], nets.plane_nets, [chains[i].line for i in by_ref[r]])
+
     size = sum(len(ch.line.coords) - 1 for ch in chains)  # the tracks' segments, about
     with forking.two_threads(size) as pool:  # shapely lets go of the GIL in the tree queries
         for r, found in zip(by_ref, pool.map(one, by_ref)):
@@ -430,6 +506,7 @@ def gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of):
                     seen.add(key)
                     findings.append(f)
         return findings
+
     return tasks, combine, workers
 
 
@@ -449,16 +526,21 @@ def _footprint_overlap(line, hw, region):
     buffering only the stretch of line within hw of the region's box: exact, since footprint points
     in the box come only from line points within hw of it."""
     x0, y0, x1, y1 = region.bounds
-    piece = shapely.clip_by_rect(line, x0 - hw - 0.01, y0 - hw - 0.01, x1 + hw + 0.01, y1 + hw + 0.01)
+    piece = shapely.clip_by_rect(
+        line, x0 - hw - 0.01, y0 - hw - 0.01, x1 + hw + 0.01, y1 + hw + 0.01
+    )
     if piece.is_empty:
         return 0.0
     return float(shapely.area(shapely.intersection(footprint_polygon(piece, hw), region)))
 
 
 def _hull_detour(rc, pa, pb, gap_hull):
-    """The two ways round `gap_hull` (a gap's convex hull) and both ends, shorter first: the geodesic when the
-    gap is convex (or the ends lie outside its hull) and nothing else is in the way. An end in a pocket
-    of the hull (between the vias of a fence, say) first walks straight out of it, away from the other
+    """The two ways round `gap_hull` (a gap's convex hull) and both ends, shorter first: the
+    geodesic when the
+    gap is convex (or the ends lie outside its hull) and nothing else is in the way. An end in a
+    pocket
+    of the hull (between the vias of a fence, say) first walks straight out of it, away from the
+    other
     end. Returns (the first way that stays in copper or None, the shorter way's length)."""
     ends = np.array([[pa.x, pa.y], [pb.x, pb.y]])
     lead = [None, None]
@@ -467,12 +549,19 @@ def _hull_detour(rc, pa, pb, gap_hull):
         for k in np.flatnonzero(inside):
             p, other = ends[k], ends[1 - k]
             u = (p - other) / max(float(np.hypot(*(p - other))), 1e-12)
-            reach = float(np.hypot(gap_hull.bounds[2] - gap_hull.bounds[0], gap_hull.bounds[3] - gap_hull.bounds[1]))
+            reach = float(
+                np.hypot(
+                    gap_hull.bounds[2] - gap_hull.bounds[0], gap_hull.bounds[3] - gap_hull.bounds[1]
+                )
+            )
             ray = shapely.LineString([p, p + u * (reach + 1.0)])
             out = ray.intersection(gap_hull.exterior)
             if out.is_empty:
                 continue
-            q = min(shapely.get_coordinates(out), key=lambda c: float(np.hypot(*(c - p)))) + u * STEP_OFF_MM
+            q = (
+                min(shapely.get_coordinates(out), key=lambda c: float(np.hypot(*(c - p))))
+                + u * STEP_OFF_MM
+            )
             lead[k] = p.copy()
             ends[k] = q
     found = _hull_ring(ends, shapely.get_coordinates(gap_hull))
@@ -488,7 +577,9 @@ def _hull_detour(rc, pa, pb, gap_hull):
         ways.append((float(np.hypot(*np.diff(c, axis=0).T).sum()), c))
     ways.sort(key=lambda w: w[0])
     # both ways' pieces in one test
-    ok = rc.passable(shapely.linestrings(np.concatenate([np.stack([c[:-1], c[1:]], axis=1) for _, c in ways])))
+    ok = rc.passable(
+        shapely.linestrings(np.concatenate([np.stack([c[:-1], c[1:]], axis=1) for _, c in ways]))
+    )
     first = len(ways[0][1]) - 1
     for (length, c), clear in zip(ways, (ok[:first].all(), ok[first:].all())):
         if clear:
@@ -503,7 +594,8 @@ def _chain_detour(rc, void, pa, pb):
     line between the ends is an edge of that hull); of the two stretches (either way round) the one
     with the shorter hull is taken, and only when it stays clear of every other void is it returned,
     as then nothing shorter exists. A way is at least |pa q| + |q pb| long for any point q it goes
-    round, which spares the longer stretch's hull where that bound already exceeds the shorter way."""
+    round, which spares the longer stretch's hull where that bound already exceeds the shorter
+    way."""
     ends = np.array([[pa.x, pa.y], [pb.x, pb.y]])
     if not shapely.intersects(rc.shrunk(np.array([void.index]))[0], shapely.LineString(ends)):
         return None  # the straight line between the ends misses this gap: the way is not round it
@@ -518,13 +610,19 @@ def _chain_detour(rc, void, pa, pb):
         return None  # a stretch without a corner: the ends sit by one edge
     edge = rc.along_edge(void) if k == 0 and not void.enclosed else None
     stretches = []
-    for q, flags in ((xy[i:j], edge[i:j] if edge is not None else None),
-                     (np.concatenate([xy[j:m], xy[:i]]),
-                      np.concatenate([edge[j:m], edge[:i]]) if edge is not None else None)):
+    for q, flags in (
+        (xy[i:j], edge[i:j] if edge is not None else None),
+        (
+            np.concatenate([xy[j:m], xy[:i]]),
+            np.concatenate([edge[j:m], edge[:i]]) if edge is not None else None,
+        ),
+    ):
         if flags is not None and flags.any():
             continue  # this way runs along the board's edge: off the board
         step = max(1, len(q) // 256)  # a bound from some of the points is a bound still
-        bound = float(np.max(np.hypot(*(q[::step] - ends[0]).T) + np.hypot(*(q[::step] - ends[1]).T)))
+        bound = float(
+            np.max(np.hypot(*(q[::step] - ends[0]).T) + np.hypot(*(q[::step] - ends[1]).T))
+        )
         stretches.append((bound, q))
     stretches.sort(key=lambda t: t[0])
     best = None
@@ -577,13 +675,15 @@ def _hull_ring(ends, pts):
 
 
 def _ring_walk(ring, ia, ib, step):
-    """The ring's points from position ia to ib, both included, going forwards (step 1) or back (-1)."""
+    """The ring's points from position ia to ib, both included, going forwards (step 1) or back
+    (-1)."""
     n = len(ring)
     return ring[(ia + step * np.arange((step * (ib - ia)) % n + 1)) % n]
 
 
 def _local_geodesic(rc, pa, pb, void_pos, hw):
-    """Detour path round the gap: first the exact way round the gap alone when nothing else is in the
+    """Detour path round the gap: first the exact way round the gap alone when nothing else is in
+    the
     way (_chain_detour); else the shortest way on a grid of the copper in a window round the
     crossing, pulled taut (gridpath), in a small window and then one three times as wide, so that
     large voids stay cheap; last, the taut way round the whole gap's hull. Returns (length, path,
@@ -600,7 +700,9 @@ def _local_geodesic(rc, pa, pb, void_pos, hw):
     cell = WINDOW_MM / CELLS * 2 ** max(0, math.ceil(math.log2(2 * r / (1.5 * WINDOW_MM)) - 1e-9))
     cx, cy = (pa.x + pb.x) / 2, (pa.y + pb.y) / 2
     for level in range(2):
-        g = lattice_way(rc.lattice(cell * 3 ** level), rc.lattice(cell * 3 ** level / 2), pa, pb, r, rc.passable)
+        g = lattice_way(
+            rc.lattice(cell * 3**level), rc.lattice(cell * 3**level / 2), pa, pb, r, rc.passable
+        )
         if g is not None:
             return g[0], g[1], "grid-path"
         if cx - r <= vx0 and cy - r <= vy0 and cx + r >= vx1 and cy + r >= vy1:
@@ -620,7 +722,8 @@ def coords_along(line, s):
 
 def coords_along_lines(lines, dists):
     """(x, y) at distances dists[i] along lines[i], for many LineStrings in one interpolation: the
-    lines are laid end to end on one distance axis, a unit gap between one's end and the next's start."""
+    lines are laid end to end on one distance axis, a unit gap between one's end and the next's
+    start."""
     xy, idx = shapely.get_coordinates(np.asarray(lines, dtype=object), return_index=True)
     seg = np.hypot(*np.diff(xy, axis=0).T)
     seg[idx[1:] != idx[:-1]] = 1.0
@@ -628,7 +731,9 @@ def coords_along_lines(lines, dists):
     k = np.arange(len(dists))
     start = run[np.searchsorted(idx, k)]
     length = run[np.searchsorted(idx, k, side="right") - 1] - start
-    at = np.concatenate([np.clip(d, 0.0, n) + a for d, a, n in zip(dists, start, length)] or [np.zeros(0)])
+    at = np.concatenate(
+        [np.clip(d, 0.0, n) + a for d, a, n in zip(dists, start, length)] or [np.zeros(0)]
+    )
     return np.column_stack([np.interp(at, run, xy[:, 0]), np.interp(at, run, xy[:, 1])])
 
 
@@ -650,8 +755,12 @@ def majority_nets(ln, plane_nets, lines, samples=17):
     out = [None] * len(lines)
     if ok.any():
         pair, count = np.unique(which[ok] * len(names) + c[ok], return_counts=True)
-        for p, k in sorted(zip(pair.tolist(), count.tolist()), key=lambda t: (t[1], t[0] % len(names))):
-            out[p // len(names)] = names[p % len(names)]  # the last written wins: most samples, then name
+        for p, _ in sorted(
+            zip(pair.tolist(), count.tolist()), key=lambda t: (t[1], t[0] % len(names))
+        ):
+            out[p // len(names)] = names[
+                p % len(names)
+            ]  # the last written wins: most samples, then name
     return out
 
 
@@ -670,10 +779,15 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         near_line, near_void = shapely.shortest_line(line, local).coords
         mid_s = line.project(shapely.Point(near_line))
         near = local.intersection(line.buffer(hw, cap_style="flat"))
-        corners = np.asarray(near.exterior.coords) if near.geom_type == "Polygon" else shapely.get_coordinates(near)
+        corners = (
+            np.asarray(near.exterior.coords)
+            if near.geom_type == "Polygon"
+            else shapely.get_coordinates(near)
+        )
         at = shapely.line_locate_point(line, shapely.points(corners)) if len(corners) else []
         span = (float(min(at)), float(max(at))) if len(at) else (mid_s, mid_s)
-    # the gap's size first: a short enclosed gap (an antipad) is not reported, whatever it interrupts
+    # the gap's size first: a short enclosed gap (an antipad) is not reported, whatever it
+    # interrupts
     mid = line.interpolate(mid_s)
     tangent = _tangent(line, mid_s)
     geo = slot_geometry(void, (mid.x, mid.y), tangent, reach, settings.slot_aspect_ratio)
@@ -698,7 +812,11 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         ia = ib = None
         pa = pb = None
         if path_line is not None:
-            cr = [p for p in shapely.get_parts(path_line.intersection(local)) if p.geom_type == "LineString"]
+            cr = [
+                p
+                for p in shapely.get_parts(path_line.intersection(local))
+                if p.geom_type == "LineString"
+            ]
             if cr:
                 ss = np.sort(_ends_along(path_line, np.array(cr, dtype=object)), axis=None).tolist()
                 if ss[0] > STEP_OFF_MM and ss[-1] < path_line.length - STEP_OFF_MM:
@@ -724,12 +842,19 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         gap_type = "slot" if geo["elongated"] else "void"
     else:
         gap_type = "slot"  # a notch cut in from the plane's edge
-    width = geo["width"] if geo["width"] is not None and not split else (s1 - s0 if ev == "cross" else 0.0)
+    width = (
+        geo["width"]
+        if geo["width"] is not None and not split
+        else (s1 - s0 if ev == "cross" else 0.0)
+    )
     open_one_end = False
     if not void.enclosed and gap_type == "slot":
         open_one_end = True
-        e1_open = shapely.Point(geo["end1"]).distance(rc.edge) < 0.05 or not rc.inset_outline.contains(shapely.Point(geo["end1"]))
-        # the open end is the one that reaches the plane's outer edge; the stub model keeps the closed one
+        e1_open = shapely.Point(geo["end1"]).distance(
+            rc.edge
+        ) < 0.05 or not rc.inset_outline.contains(shapely.Point(geo["end1"]))
+        # the open end is the one that reaches the plane's outer edge; the stub model
+        # keeps the closed one
         l_closed = geo["l2"] if e1_open else geo["l1"]
         l_open = geo["l1"] if e1_open else geo["l2"]
     else:
@@ -737,15 +862,22 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
     slot_len = geo["length"]
     d_eff = detour if detour is not None else slot_len  # a split: the whole gap length
     l_hsdd = physics.hsdd_slot_inductance_nH(d_eff, w)
-    l_stub = physics.slot_stub_inductance_nH(l_closed, l_open, max(width, 0.01), l2_open=open_one_end,
-                                            strip_width_mm=max(slot_len / 2, 0.01))
+    l_stub = physics.slot_stub_inductance_nH(
+        l_closed,
+        l_open,
+        max(width, 0.01),
+        l2_open=open_one_end,
+        strip_width_mm=max(slot_len / 2, 0.01),
+    )
     vals = [v for v in (l_hsdd, l_stub) if v > 0]
     est = math.sqrt(l_hsdd * l_stub) if len(vals) == 2 else (vals[0] if vals else 0.0)
     lo, hi = (min(vals), max(vals)) if vals else (0.0, 0.0)
     z0 = line_z0(board, ch.layer, ch.width_mm, ref)
     refl = physics.series_inductance_reflection(est, z0, settings.rise_ns)
     f_res = physics.slot_resonance_GHz(slot_len, ref.plane_er_eff, open_at_one_end=open_one_end)
-    f_res_low = physics.slot_resonance_GHz(slot_len, ref.plane_er_full, open_at_one_end=open_one_end)
+    f_res_low = physics.slot_resonance_GHz(
+        slot_len, ref.plane_er_full, open_at_one_end=open_one_end
+    )
     if split:
         severity = "error"
     elif refl >= settings.reflection_budget:
@@ -759,7 +891,9 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         severity = "warning" if severity == "info" else "error"
     x, y = float(mid.x), float(mid.y)
     fid = stable_id("gap-crossing", ch.layer, ref.layer, ch.net, f"{x:.1f}", f"{y:.1f}", gap_type)
-    what = {"split": "crosses a split", "slot": "crosses a slot", "void": "crosses a void"}[gap_type]
+    what = {"split": "crosses a split", "slot": "crosses a slot", "void": "crosses a void"}[
+        gap_type
+    ]
     if ev == "graze":
         what = f"runs beside a {gap_type}"
     det = "no path within the plane" if detour is None else f"detour {detour:.2f} mm"
@@ -767,20 +901,42 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         det = f"detour about {detour:.2f} mm (round the gap's hull; no clear path was proven)"
     if split and ib is not None and ia is not None and rc.island_net[ib] != rc.island_net[ia]:
         det += f" ({rc.island_net[ia]} on one side, {rc.island_net[ib]} on the other)"
-    msg = (f"{ch.net} on {ch.layer} {what} in {ref_net} on {ref.layer} at ({x:.2f}, {y:.2f}) mm: {det}, "
-           f"{share:.0%} of return current interrupted, about {est:.1f} nH added ({lo:.1f}-{hi:.1f}), "
-           f"~{refl:.0%} reflection at {settings.rise_ns:g} ns; gap resonance near {f_res:.2f} GHz")
+    msg = (
+        f"{ch.net} on {ch.layer} {what} in {ref_net} on {ref.layer} at ({x:.2f}, {y:.2f}) mm: "
+        f"{det}, "
+        f"{share:.0%} of return current interrupted, about {est:.1f} nH added ({lo:.1f}-{hi:.1f}), "
+        f"~{refl:.0%} reflection at {settings.rise_ns:g} ns; gap resonance near {f_res:.2f} GHz"
+    )
     return {
-        "id": fid, "kind": "gap-crossing", "gap_type": gap_type, "severity": severity,
-        "net": ch.net, "layer": ch.layer, "reference_layer": ref.layer, "reference_net": ref_net,
-        "x_mm": x, "y_mm": y, "gap_length_mm": slot_len, "gap_width_mm": width,
-        "detour_mm": detour, "detour_method": detour_method, "interrupted_fraction": min(1.0, share),
-        "added_inductance_nH": est, "added_inductance_range_nH": [lo, hi],
+        "id": fid,
+        "kind": "gap-crossing",
+        "gap_type": gap_type,
+        "severity": severity,
+        "net": ch.net,
+        "layer": ch.layer,
+        "reference_layer": ref.layer,
+        "reference_net": ref_net,
+        "x_mm": x,
+        "y_mm": y,
+        "gap_length_mm": slot_len,
+        "gap_width_mm": width,
+        "detour_mm": detour,
+        "detour_method": detour_method,
+        "interrupted_fraction": min(1.0, share),
+        "added_inductance_nH": est,
+        "added_inductance_range_nH": [lo, hi],
         "inductance_method": "geometric mean of hsdd-slot-formula and slotline-stub-model",
-        "resonance_GHz": f_res, "resonance_range_GHz": sorted([f_res_low, f_res]),
-        "resonance_er_eff": ref.plane_er_eff, "resonance_mode": "quarter-wave" if open_one_end else "half-wave",
-        "reflection_fraction": refl, "z0_ohm": z0, "trace_width_mm": w, "height_mm": ref.h_mm,
-        "line_type": ref.kind, "plane_share": ref.share, "crossing": ev,
+        "resonance_GHz": f_res,
+        "resonance_range_GHz": sorted([f_res_low, f_res]),
+        "resonance_er_eff": ref.plane_er_eff,
+        "resonance_mode": "quarter-wave" if open_one_end else "half-wave",
+        "reflection_fraction": refl,
+        "z0_ohm": z0,
+        "trace_width_mm": w,
+        "height_mm": ref.h_mm,
+        "line_type": ref.kind,
+        "plane_share": ref.share,
+        "crossing": ev,
         "detour_path_mm": [[round(a, 4), round(b, 4)] for a, b in path] if path else None,
         "slot_ends_mm": [l_closed, l_open] if void.enclosed and gap_type == "slot" else None,
         "message": msg,

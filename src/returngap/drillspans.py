@@ -1,6 +1,7 @@
 """Which copper layers a drill file spans, from the files beside it.
 
-A layer-pair file (one line per drill file: `LayersSetName=...|DrillFile=name|DrillLayers=gtl,g1,...`)
+A layer-pair file (one line per drill file:
+`LayersSetName=...|DrillFile=name|DrillLayers=gtl,g1,...`)
 names the copper layers by their file extensions; a drill report names each drill file under a
 `Layer Pair : <from> to <to>` heading, with layers as Top, Bottom or L<n>. Drill file names are
 matched case-insensitively (writers give them in another case than the files carry).
@@ -9,8 +10,14 @@ matched case-insensitively (writers give them in another case than the files car
 import re
 from pathlib import PurePosixPath
 
-__all__ = ["is_layer_pairs", "is_drill_report", "read_layer_pairs", "read_drill_report", "span_from_tokens",
-           "span_from_names"]
+__all__ = [
+    "is_layer_pairs",
+    "is_drill_report",
+    "read_layer_pairs",
+    "read_drill_report",
+    "span_from_tokens",
+    "span_from_names",
+]
 
 LDP_LINE_RE = re.compile(r"DrillFile=([^|\r\n]+)\|DrillLayers=([^|\r\n]+)", re.I)
 DRR_PAIR_RE = re.compile(r"^\s*Layer Pair\s*:\s*(.+?)\s+to\s+(.+?)\s*$", re.I | re.M)
@@ -31,8 +38,10 @@ def _key(name):
 
 def read_layer_pairs(text):
     """{drill file name, lower case: [layer tokens, lower case]}."""
-    return {_key(m.group(1)): [t.strip().lower() for t in m.group(2).split(",") if t.strip()]
-            for m in LDP_LINE_RE.finditer(text)}
+    return {
+        _key(m.group(1)): [t.strip().lower() for t in m.group(2).split(",") if t.strip()]
+        for m in LDP_LINE_RE.finditer(text)
+    }
 
 
 def read_drill_report(text):

@@ -24,8 +24,11 @@ class IncompleteError(InputError):
     def __init__(self, problems):
         self.problems = list(problems)
         first = self.problems[0] if self.problems else None
-        super().__init__(first.file if first else "<board>", "; ".join(p.message for p in self.problems[:1]),
-                         first.line if first else None)
+        super().__init__(
+            first.file if first else "<board>",
+            "; ".join(p.message for p in self.problems[:1]),
+            first.line if first else None,
+        )
 
     def __reduce__(self):
         return (IncompleteError, (self.problems,))

@@ -1,5 +1,6 @@
 """Both cores for independent tasks: one forked child shares the task list with this process, so it
-inherits the tasks' data instead of receiving it pickled, and starts in a few milliseconds (a process
+inherits the tasks' data instead of receiving it pickled, and starts in a few milliseconds (a
+process
 pool takes several times longer, which small boards cannot afford)."""
 
 import gc
@@ -11,7 +12,9 @@ from concurrent.futures import ThreadPoolExecutor
 
 _PR_SET_PDEATHSIG = 1
 MAX_SHARED_TASKS = 4096  # the queue's numbers must fit a pipe's buffer (64 KiB on Linux) at once
-THREADS_MIN_SEGMENTS = 10_000  # below this two threads wait on each other's Python more than they gain
+THREADS_MIN_SEGMENTS = (
+    10_000  # below this two threads wait on each other's Python more than they gain
+)
 in_child = False  # True in a forked child: what a task returns there is pickled back to the parent
 
 
@@ -76,6 +79,7 @@ def _die_with_parent():
     try:  # Linux: the child never outlives the process that forked it
         import ctypes
         import signal
+
         ctypes.CDLL(None, use_errno=True).prctl(_PR_SET_PDEATHSIG, int(signal.SIGKILL))
     except (OSError, AttributeError):
         pass
@@ -89,7 +93,7 @@ def _shared(task, n):
         r, w = os.pipe()
         q, qw = os.pipe()
     except OSError:
-        raise _NoChild
+        raise _NoChild from None
     os.write(qw, struct.pack(f"{n}i", *range(n)))
     os.close(qw)
 
@@ -108,7 +112,7 @@ def _shared(task, n):
         gc.unfreeze()
         for fd in (r, w, q):
             os.close(fd)
-        raise _NoChild
+        raise _NoChild from None
     if pid == 0:
         _child(task, n, claim, stop, r, w)  # never returns
     gc.unfreeze()

@@ -1,4 +1,5 @@
-"""Thin fixes for gerbonara 1.6.3 parser defects; each one is tested in tests/test_gerbonara_compat.py.
+"""Thin fixes for gerbonara 1.6.3 parser defects; each one is tested in
+tests/test_gerbonara_compat.py.
 
 Drop a fix once upstream behaves (the tests will say so).
 """
@@ -30,11 +31,17 @@ def apply():
         return
     P = rs274x.GerberParser
     orig_sr, orig_coord, orig_start, orig_end = (
-        P._parse_step_repeat, P._parse_coord, P._parse_region_start, P._parse_region_end)
+        P._parse_step_repeat,
+        P._parse_coord,
+        P._parse_region_start,
+        P._parse_region_end,
+    )
 
     def parse_step_repeat(self, match):
         orig_sr(self, match)
-        if self.step_repeat_objects is not None and not isinstance(self.step_repeat_objects, _OpenBlock):
+        if self.step_repeat_objects is not None and not isinstance(
+            self.step_repeat_objects, _OpenBlock
+        ):
             self.step_repeat_objects = _OpenBlock(self.step_repeat_objects)
 
     def parse_coord(self, match):

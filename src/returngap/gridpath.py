@@ -20,16 +20,31 @@ from scipy.sparse.csgraph import dijkstra
 
 from .cuts import ring_edges
 
-CELLS = 128          # grid cells along a window's side in window_path
-TILE = 128           # lattice cells along a tile's side
-SHAPE_STEP = 16      # a window's side is a whole multiple of this many cells
-END_REACH = 2        # cells round each end searched for a free cell in clear sight of it
-FINE_MM = 0.1        # cells this fine get no second look: a narrower neck carries little return
-                     # current (our judgement, no source)
-NEAR_MM = 4.0        # the first search stops this far from pa; most ways are shorter
-SLIDES = (1.0, 0.5, 0.25, 0.125, 0.0625)  # how far a bend may slide towards its chord, tried together
+CELLS = 128  # grid cells along a window's side in window_path
+TILE = 128  # lattice cells along a tile's side
+SHAPE_STEP = 16  # a window's side is a whole multiple of this many cells
+END_REACH = 2  # cells round each end searched for a free cell in clear sight of it
+FINE_MM = 0.1  # cells this fine get no second look: a narrower neck carries little return
+# current (our judgement, no source)
+NEAR_MM = 4.0  # the first search stops this far from pa; most ways are shorter
+SLIDES = (
+    1.0,
+    0.5,
+    0.25,
+    0.125,
+    0.0625,
+)  # how far a bend may slide towards its chord, tried together
 _R2 = np.sqrt(2.0)
-_MOVES = [(0, 1, 1.0), (1, 0, 1.0), (0, -1, 1.0), (-1, 0, 1.0), (1, 1, _R2), (1, -1, _R2), (-1, 1, _R2), (-1, -1, _R2)]
+_MOVES = [
+    (0, 1, 1.0),
+    (1, 0, 1.0),
+    (0, -1, 1.0),
+    (-1, 0, 1.0),
+    (1, 1, _R2),
+    (1, -1, _R2),
+    (-1, 1, _R2),
+    (-1, -1, _R2),
+]
 
 
 def parity_grid(edges, x0, y0, size, cells):
@@ -44,7 +59,9 @@ def parity_grid(edges, x0, y0, size, cells):
     yc = y0 + (row + 0.5) * size
     x = xa[e] + (xb[e] - xa[e]) * (yc - ya[e]) / (yb[e] - ya[e])
     col = np.clip(np.floor((x - x0) / size - 0.5).astype(int) + 1, 0, cells)
-    flips = np.bincount(row * (cells + 1) + col, minlength=cells * (cells + 1)).reshape(cells, cells + 1)
+    flips = np.bincount(row * (cells + 1) + col, minlength=cells * (cells + 1)).reshape(
+        cells, cells + 1
+    )
     return (np.cumsum(flips, axis=1)[:, :cells] & 1).astype(bool)
 
 
@@ -78,9 +95,11 @@ class Lattice:
         j0, i0 = round(cx / s - n / 2), round(cy / s - n / 2)
         ta, tb = i0 // TILE, (i0 + n - 1) // TILE
         tc, td = j0 // TILE, (j0 + n - 1) // TILE
-        whole = np.block([[self._tile(ti, tj) for tj in range(tc, td + 1)] for ti in range(ta, tb + 1)])
+        whole = np.block(
+            [[self._tile(ti, tj) for tj in range(tc, td + 1)] for ti in range(ta, tb + 1)]
+        )
         r0, c0 = i0 - ta * TILE, j0 - tc * TILE
-        return whole[r0:r0 + n, c0:c0 + n].copy(), j0 * s, i0 * s
+        return whole[r0 : r0 + n, c0 : c0 + n].copy(), j0 * s, i0 * s
 
 
 def lattice_way(lattice, finer, pa, pb, half, passable):
@@ -99,7 +118,8 @@ def lattice_way(lattice, finer, pa, pb, half, passable):
 
 
 def window_path(outline, void_geoms, pa, pb, half, passable):
-    """Shortest way from pa to pb within a square window 2 * half wide round their midpoint that stays
+    """Shortest way from pa to pb within a square window 2 * half wide round their midpoint that
+    stays
     on `outline` and out of `void_geoms` (those meeting the window suffice); passable(segments) ->
     bools tests pieces against the exact geometry. Returns (length, [(x, y), ...]) or None where no
     way is found in the window. The window has CELLS cells a side; where they are coarser than
@@ -107,8 +127,14 @@ def window_path(outline, void_geoms, pa, pb, half, passable):
     size = 2 * half / CELLS
     voids = np.asarray(void_geoms, dtype=object)
     tree = shapely.STRtree(voids)
-    return lattice_way(Lattice(outline, voids, size, tree), Lattice(outline, voids, size / 2, tree),
-                       pa, pb, half, passable)
+    return lattice_way(
+        Lattice(outline, voids, size, tree),
+        Lattice(outline, voids, size / 2, tree),
+        pa,
+        pb,
+        half,
+        passable,
+    )
 
 
 def _template(h, w):
@@ -141,12 +167,12 @@ def _graph(free, size, src, src_d):
     pad[1:-1, 1:-1] = free
     ok = np.empty((h, w, 8), dtype=bool)
     for k, (di, dj, _) in enumerate(_MOVES):
-        np.logical_and(free, pad[1 + di:h + 1 + di, 1 + dj:w + 1 + dj], out=ok[:, :, k])
+        np.logical_and(free, pad[1 + di : h + 1 + di, 1 + dj : w + 1 + dj], out=ok[:, :, k])
         if di and dj:  # a diagonal needs both side cells free
-            ok[:, :, k] &= pad[1 + di:h + 1 + di, 1:w + 1]
-            ok[:, :, k] &= pad[1:h + 1, 1 + dj:w + 1 + dj]
+            ok[:, :, k] &= pad[1 + di : h + 1 + di, 1 : w + 1]
+            ok[:, :, k] &= pad[1 : h + 1, 1 + dj : w + 1 + dj]
     data = np.full(9 * n, np.inf)
-    data[:8 * n] = np.where(ok.reshape(n, 8), _UNIT * size, np.inf).ravel()
+    data[: 8 * n] = np.where(ok.reshape(n, 8), _UNIT * size, np.inf).ravel()
     data[8 * n + src] = src_d
     indices, indptr = _template(h, w)
     return csr_matrix((data, indices, indptr), shape=(n + 1, n + 1))
@@ -161,7 +187,7 @@ def _centres(cell, x0, y0, size, w):
     return np.column_stack([x0 + (cell % w + 0.5) * size, y0 + (cell // w + 0.5) * size])
 
 
-_ROUND = np.mgrid[-END_REACH:END_REACH + 1, -END_REACH:END_REACH + 1].reshape(2, -1)
+_ROUND = np.mgrid[-END_REACH : END_REACH + 1, -END_REACH : END_REACH + 1].reshape(2, -1)
 
 
 def _cells_round(p, x0, y0, size, shape):
@@ -183,7 +209,7 @@ def _in_sight(free, near, ends, x0, y0, size, passable):
     seen = passable(segs) if len(segs) else np.zeros(0, dtype=bool)
     out, at = [], 0
     for c, xy, p in zip(near, centres, ends):
-        s = seen[at:at + len(c)]
+        s = seen[at : at + len(c)]
         at += len(c)
         out.append((c[s], np.hypot(*(xy[s] - p).T)))
     return out
@@ -263,7 +289,9 @@ def _pull_taut(pts, passable, raster=None):
         if not len(k):
             continue
         to = p[k, None] + f * ((p[k - 1] + p[k + 1]) / 2 - p[k])[:, None]  # (bend, slide, xy)
-        ok = passable(np.concatenate([_segments(p[k - 1, None], to), _segments(to, p[k + 1, None])]).ravel())
+        ok = passable(
+            np.concatenate([_segments(p[k - 1, None], to), _segments(to, p[k + 1, None])]).ravel()
+        )
         ok = ok.reshape(2, len(k), len(SLIDES)).all(axis=0)
         best = np.argmax(ok, axis=1)
         moved = ok.any(axis=1)
@@ -272,7 +300,8 @@ def _pull_taut(pts, passable, raster=None):
 
 
 def _search(graph, dst, dst_d, limit):
-    """Dijkstra from the start node (the last) over `graph` (see _graph), at most `limit` long, to the
+    """Dijkstra from the start node (the last) over `graph` (see _graph), at most `limit` long, to
+    the
     cells dst (joined to pb at distances dst_d): the cells of the way, or None."""
     n = graph.shape[0] - 1
     d, pred = dijkstra(graph, directed=True, indices=n, return_predecessors=True, limit=limit)
@@ -302,7 +331,9 @@ def _grid_way(free, x0, y0, size, ends, passable):
     if not np.intersect1d(part.ravel()[src], part.ravel()[dst]).any():
         return False
     raster = lambda a, b: _raster_clear(free, x0, y0, size, a, b)  # noqa: E731 (free may change below)
-    for _ in range(4):  # a thin void the grid cannot see blocks a step: close that cell, search again
+    for _ in range(
+        4
+    ):  # a thin void the grid cannot see blocks a step: close that cell, search again
         graph = _graph(free, size, src, src_d)
         # most ways are short: first a search that stops NEAR_MM from pa, then the whole window
         seq = _search(graph, dst, dst_d, NEAR_MM)
@@ -317,7 +348,8 @@ def _grid_way(free, x0, y0, size, ends, passable):
         p = _pull_taut(pts[at], passable, raster)
         if not isinstance(p, int):
             return float(np.hypot(*np.diff(p, axis=0).T).sum()), [tuple(map(float, q)) for q in p]
-        # from turning point p nothing later is in sight: close the cells either side of the blocked steps
+        # from turning point p nothing later is in sight: close the cells either side of
+        # the blocked steps
         j = np.arange(at[p], at[p + 1])
         hit = j[~passable(_segments(pts[j], pts[j + 1]))]
         cells_hit = np.concatenate([hit - 1, hit])

@@ -11,30 +11,49 @@ import shapely
 
 from . import physics
 from .detector import coords_along_lines, stable_id
-from .shapes import disjoint_union
 from .projector import line_z0
+from .shapes import disjoint_union
 
-DEFAULT_PART_LOOP_NH = 1.0  # mounted two-terminal capacitor loop, typically 0.5-1.5 nH (from memory)
+DEFAULT_PART_LOOP_NH = (
+    1.0  # mounted two-terminal capacitor loop, typically 0.5-1.5 nH (from memory)
+)
 
 
 @dataclass
 class HazardSettings:
     """Defaults cite a source or say 'common practice, no source'."""
 
-    edge_distance_h: float = 3.0        # report tracks closer than 3 h to their plane edge (CVEL asks >= 1 h)
-    edge_min_run_mm: float = 1.0        # shorter runs are ignored (common practice, no source)
+    edge_distance_h: float = (
+        3.0  # report tracks closer than 3 h to their plane edge (CVEL asks >= 1 h)
+    )
+    edge_min_run_mm: float = 1.0  # shorter runs are ignored (common practice, no source)
     floating_min_area_mm2: float = 1.0  # smaller islands are ignored (common practice, no source)
-    floating_coupling_mm: float = 1.0   # an island this close to a track couples to it (common practice, no source)
-    stitch_fraction: float = 0.1        # lambda/10 (lambda/20 stricter); REFERENCE 6.3, common practice
-    stitch_min_pour_mm2: float = 20.0   # pours smaller than this are not checked (common practice, no source)
-    split_max_ratio: float = 3.0        # return-split only where the far way is within 3x the near one (same)
+    floating_coupling_mm: float = (
+        1.0  # an island this close to a track couples to it (common practice, no source)
+    )
+    stitch_fraction: float = 0.1  # lambda/10 (lambda/20 stricter); REFERENCE 6.3, common practice
+    stitch_min_pour_mm2: float = (
+        20.0  # pours smaller than this are not checked (common practice, no source)
+    )
+    split_max_ratio: float = (
+        3.0  # return-split only where the far way is within 3x the near one (same)
+    )
 
 
 def _finding(kind, severity, net, layer, x, y, message, **extra):
-    f = {"id": stable_id(kind, layer, extra.get("reference_layer"), net, f"{x:.1f}", f"{y:.1f}"),
-         "kind": kind, "gap_type": None, "severity": severity, "net": net, "layer": layer,
-         "reference_layer": extra.pop("reference_layer", None), "reference_net": extra.pop("reference_net", None),
-         "x_mm": float(x), "y_mm": float(y), "message": message}
+    f = {
+        "id": stable_id(kind, layer, extra.get("reference_layer"), net, f"{x:.1f}", f"{y:.1f}"),
+        "kind": kind,
+        "gap_type": None,
+        "severity": severity,
+        "net": net,
+        "layer": layer,
+        "reference_layer": extra.pop("reference_layer", None),
+        "reference_net": extra.pop("reference_net", None),
+        "x_mm": float(x),
+        "y_mm": float(y),
+        "message": message,
+    }
     f.update(extra)
     return f
 
@@ -60,11 +79,14 @@ def _plane_net_near(ln, plane_nets, x, y, reach=2.0):
         return None
     if len({ln.island_net[ln.piece_island[k]] for k in near}) == 1:
         return ln.island_net[ln.piece_island[near[0]]]
-    return ln.island_net[ln.piece_island[near[int(np.argmin(shapely.distance(ln.pieces[near], p)))]]]
+    return ln.island_net[
+        ln.piece_island[near[int(np.argmin(shapely.distance(ln.pieces[near], p)))]]
+    ]
 
 
 def _parts_bridging(board, nets, net_a, net_b):
-    """Centres of two-terminal parts with one pad on each net (from .P attributes or the netlist)."""
+    """Centres of two-terminal parts with one pad on each net (from .P attributes or the
+    netlist)."""
     table = getattr(nets, "_two_pin_parts", None)
     if table is None:
         table = nets._two_pin_parts = _two_pin_parts(board, nets)  # once per board, not per via
@@ -112,25 +134,31 @@ def reference_changes(board, nets, refs, settings):
         order = keep[np.argsort(code[keep], kind="stable")]
         start = np.searchsorted(code[order], np.arange(len(names) + 1))
         for k, n in enumerate(names):
-            rows = seg[order[start[k]:start[k + 1]]]
+            rows = seg[order[start[k] : start[k + 1]]]
             # (x, y, width) of both ends, segment by segment
-            ends[(layer.name, n)] = np.stack([rows[:, [0, 1, 4]], rows[:, [2, 3, 4]]], axis=1).reshape(-1, 3)
+            ends[(layer.name, n)] = np.stack(
+                [rows[:, [0, 1, 4]], rows[:, [2, 3, 4]]], axis=1
+            ).reshape(-1, 3)
     h_net = np.array([h[3] for h in holes], dtype=object)
     h_from = np.array([h[4] for h in holes])
     h_to = np.array([h[5] for h in holes])
-    layer_names = [l.name for l in board.copper]
+    layer_names = [c.name for c in board.copper]
     for x, y, r, net, a, b in holes:
         if not nets.is_signal(net):
             continue
         used = []
-        for ln_name in layer_names[a - 1:b]:
+        for ln_name in layer_names[a - 1 : b]:
             e = ends.get((ln_name, net))
-            if e is not None and len(e) and np.min(np.hypot(e[:, 0] - x, e[:, 1] - y) - e[:, 2] / 2) <= r + 0.3:
+            if (
+                e is not None
+                and len(e)
+                and np.min(np.hypot(e[:, 0] - x, e[:, 1] - y) - e[:, 2] / 2) <= r + 0.3
+            ):
                 width = float(e[np.argmin(np.hypot(e[:, 0] - x, e[:, 1] - y)), 2])
                 used.append((ln_name, width))
         if len(used) < 2:
             continue
-        (la, wa), (lb, wb) = used[0], used[-1]
+        (la, wa), (lb, _) = used[0], used[-1]
         ra = min(refs.get(la, []), key=lambda q: q.h_mm, default=None)
         rb = min(refs.get(lb, []), key=lambda q: q.h_mm, default=None)
         if ra is None or rb is None or ra.layer == rb.layer:
@@ -142,17 +170,39 @@ def reference_changes(board, nets, refs, settings):
         h = board.stackup.height_mm(ra.layer, rb.layer)
         z0 = line_z0(board, la, wa, ra)
         rv = max(r, 0.05)
-        common = dict(reference_layer=ra.layer, reference_net=na, other_reference_layer=rb.layer,
-                      other_reference_net=nb, to_layer=lb, plane_spacing_mm=h, z0_ohm=z0)
+        common = dict(
+            reference_layer=ra.layer,
+            reference_net=na,
+            other_reference_layer=rb.layer,
+            other_reference_net=nb,
+            to_layer=lb,
+            plane_spacing_mm=h,
+            z0_ohm=z0,
+        )
         if na == nb:
-            ok = np.flatnonzero((h_net == na) & (h_from <= min(int(ra.layer[1:]), int(rb.layer[1:])))
-                                & (h_to >= max(int(ra.layer[1:]), int(rb.layer[1:]))))
+            ok = np.flatnonzero(
+                (h_net == na)
+                & (h_from <= min(int(ra.layer[1:]), int(rb.layer[1:])))
+                & (h_to >= max(int(ra.layer[1:]), int(rb.layer[1:])))
+            )
             cand = list(zip(np.hypot(hx[ok] - x, hy[ok] - y).tolist(), ok.tolist()))
             if not cand:
-                findings.append(_finding("reference-change", "error", net, la, x, y,
-                                         f"{net} changes from {la} to {lb} at ({x:.2f}, {y:.2f}) mm; its return must move "
-                                         f"from {ra.layer} to {rb.layer} ({na}) but no stitching via joins them",
-                                         distance_mm=None, added_inductance_nH=None, **common))
+                findings.append(
+                    _finding(
+                        "reference-change",
+                        "error",
+                        net,
+                        la,
+                        x,
+                        y,
+                        f"{net} changes from {la} to {lb} at ({x:.2f}, {y:.2f}) mm; its return "
+                        "must move "
+                        f"from {ra.layer} to {rb.layer} ({na}) but no stitching via joins them",
+                        distance_mm=None,
+                        added_inductance_nH=None,
+                        **common,
+                    )
+                )
                 continue
             s, i = min(cand)
             ind = physics.via_pair_inductance_nH(h, s, rv)
@@ -160,41 +210,91 @@ def reference_changes(board, nets, refs, settings):
             sev = _grade(refl, settings.reflection_budget)
             if sev == "info" and refl < settings.reflection_budget / 4:
                 continue
-            findings.append(_finding(
-                "reference-change", sev, net, la, x, y,
-                f"{net} changes from {la} to {lb} at ({x:.2f}, {y:.2f}) mm; nearest {na} stitching via joining "
-                f"{ra.layer} and {rb.layer} is {s:.2f} mm away: about {ind:.2f} nH of via-pair loop, "
-                f"~{refl:.0%} reflection at {settings.rise_ns:g} ns",
-                distance_mm=s, return_x_mm=float(hx[i]), return_y_mm=float(hy[i]), added_inductance_nH=ind,
-                added_inductance_range_nH=[ind, ind], inductance_method="via-pair two-wire line",
-                reflection_fraction=refl, **common))
+            findings.append(
+                _finding(
+                    "reference-change",
+                    sev,
+                    net,
+                    la,
+                    x,
+                    y,
+                    f"{net} changes from {la} to {lb} at ({x:.2f}, {y:.2f}) mm; nearest {na} "
+                    "stitching via joining "
+                    f"{ra.layer} and {rb.layer} is {s:.2f} mm away: about {ind:.2f} nH of "
+                    "via-pair loop, "
+                    f"~{refl:.0%} reflection at {settings.rise_ns:g} ns",
+                    distance_mm=s,
+                    return_x_mm=float(hx[i]),
+                    return_y_mm=float(hy[i]),
+                    added_inductance_nH=ind,
+                    added_inductance_range_nH=[ind, ind],
+                    inductance_method="via-pair two-wire line",
+                    reflection_fraction=refl,
+                    **common,
+                )
+            )
         else:
             parts, known = _parts_bridging(board, nets, na, nb)
             if not parts:
-                why = "no two-terminal part bridges them" if known else "the data has no part information to tell"
-                findings.append(_finding(
-                    "reference-change", "error" if known else "warning", net, la, x, y,
-                    f"{net} changes from {la} to {lb} at ({x:.2f}, {y:.2f}) mm; its return moves from {na} on "
-                    f"{ra.layer} to {nb} on {rb.layer}: {why}", distance_mm=None, added_inductance_nH=None, **common))
+                why = (
+                    "no two-terminal part bridges them"
+                    if known
+                    else "the data has no part information to tell"
+                )
+                findings.append(
+                    _finding(
+                        "reference-change",
+                        "error" if known else "warning",
+                        net,
+                        la,
+                        x,
+                        y,
+                        f"{net} changes from {la} to {lb} at ({x:.2f}, {y:.2f}) mm; its return "
+                        f"moves from {na} on "
+                        f"{ra.layer} to {nb} on {rb.layer}: {why}",
+                        distance_mm=None,
+                        added_inductance_nH=None,
+                        **common,
+                    )
+                )
                 continue
-            d, ref_des, px, py = min((math.hypot(px - x, py - y), rd, px, py) for rd, px, py in parts)
+            d, ref_des, px, py = min(
+                (math.hypot(px - x, py - y), rd, px, py) for rd, px, py in parts
+            )
             spread = physics.via_pair_inductance_nH(h, max(d, 2.5 * rv), rv)
             lo, hi = spread + 0.5, spread + 1.5
             ind = spread + DEFAULT_PART_LOOP_NH
             refl = physics.series_inductance_reflection(ind, z0, settings.rise_ns)
             sev = _grade(refl, settings.reflection_budget)
-            findings.append(_finding(
-                "reference-change", sev, net, la, x, y,
-                f"{net} changes from {la} to {lb} at ({x:.2f}, {y:.2f}) mm; its return moves from {na} to {nb} "
-                f"through {ref_des}, {d:.2f} mm away: about {ind:.2f} nH ({lo:.2f}-{hi:.2f}), ~{refl:.0%} reflection",
-                distance_mm=d, bridge_part=ref_des, return_x_mm=px, return_y_mm=py, added_inductance_nH=ind,
-                added_inductance_range_nH=[lo, hi], inductance_method="via-pair spread + mounted part loop",
-                reflection_fraction=refl, **common))
+            findings.append(
+                _finding(
+                    "reference-change",
+                    sev,
+                    net,
+                    la,
+                    x,
+                    y,
+                    f"{net} changes from {la} to {lb} at ({x:.2f}, {y:.2f}) mm; its return "
+                    f"moves from {na} to {nb} "
+                    f"through {ref_des}, {d:.2f} mm away: about {ind:.2f} nH "
+                    f"({lo:.2f}-{hi:.2f}), ~{refl:.0%} reflection",
+                    distance_mm=d,
+                    bridge_part=ref_des,
+                    return_x_mm=px,
+                    return_y_mm=py,
+                    added_inductance_nH=ind,
+                    added_inductance_range_nH=[lo, hi],
+                    inductance_method="via-pair spread + mounted part loop",
+                    reflection_fraction=refl,
+                    **common,
+                )
+            )
     return findings
 
 
 def _segment_tree(lines):
-    """STRtree of the two-point pieces of a (multi)line: nearest-distance queries in log time, where the
+    """STRtree of the two-point pieces of a (multi)line: nearest-distance queries in log time,
+    where the
     distance to one large boundary costs a pass over all its vertices."""
     parts = shapely.get_parts(lines)
     xy, idx = shapely.get_coordinates(parts, return_index=True)
@@ -209,20 +309,26 @@ def _filled(copper):
     filled = shapely.polygons(shapely.get_exterior_ring(shapely.get_parts(copper)))
     inner, outer = shapely.STRtree(filled).query(filled)
     b = shapely.bounds(filled)
-    maybe = (inner != outer) & (b[outer, :2] <= b[inner, :2]).all(axis=1) & (b[outer, 2:] >= b[inner, 2:]).all(axis=1)
+    maybe = (
+        (inner != outer)
+        & (b[outer, :2] <= b[inner, :2]).all(axis=1)
+        & (b[outer, 2:] >= b[inner, 2:]).all(axis=1)
+    )
     inner, outer = inner[maybe], outer[maybe]
     nested = np.unique(inner[shapely.within(filled[inner], filled[outer])])
     return disjoint_union(np.delete(filled, nested))
 
 
 def edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of):
-    """Tracks whose return footprint runs along the edge of their reference plane's copper, or off it
-    at a track end. (A track crossing a gap between plane islands is a gap crossing, not an edge run.)"""
+    """Tracks whose return footprint runs along the edge of their reference plane's copper, or off
+    it
+    at a track end. (A track crossing a gap between plane islands is a gap crossing, not an edge
+    run.)"""
     findings = []
     by_layer = defaultdict(list)  # signal layer -> indices of its chains
     for k, ch in enumerate(chains):
         by_layer[ch.layer].append(k)
-    edges = {}    # reference layer -> (plane copper without its holes, tree of its edge segments)
+    edges = {}  # reference layer -> (plane copper without its holes, tree of its edge segments)
     sampled = {}  # chain index -> (net, ref, limit, s, points, inside, d)
     for layer, idx in by_layer.items():
         ref = min(refs.get(layer, []), key=lambda q: q.h_mm, default=None)
@@ -253,7 +359,8 @@ def edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of):
         sub = lines[todo]
         dists = [np.linspace(0, L, max(2, int(L / step) + 1)) for L in shapely.length(sub)]
         xy = coords_along_lines(sub, dists)
-        # only samples on pieces of line that come within reach of the edge, or lie off the plane, are
+        # only samples on pieces of line that come within reach of the edge, or lie off
+        # the plane, are
         # looked at: the rest are on the plane and farther than the limit from its edge
         at = np.flatnonzero(_samples_to_look_at(sub, dists, outer, edge_tree, limit))
         inside = np.ones(len(xy), dtype=bool)
@@ -262,11 +369,15 @@ def edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of):
             pts = shapely.points(xy[at])
             inside[at] = shapely.intersects(outer, pts)
             # distances within the limit from a bounded nearest search; off the plane, all of them
-            (k, _), dist = edge_tree.query_nearest(pts, max_distance=limit, return_distance=True, all_matches=False)
+            (k, _), dist = edge_tree.query_nearest(
+                pts, max_distance=limit, return_distance=True, all_matches=False
+            )
             d[at[k]] = dist
             off = np.flatnonzero(~inside[at] & np.isinf(d[at]))
             if len(off):
-                (k, _), dist = edge_tree.query_nearest(pts[off], return_distance=True, all_matches=False)
+                (k, _), dist = edge_tree.query_nearest(
+                    pts[off], return_distance=True, all_matches=False
+                )
                 d[at[off[k]]] = dist
         ends = np.cumsum([0] + [len(x) for x in dists])
         for j, t in enumerate(todo):
@@ -289,33 +400,59 @@ def edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of):
                 continue
             k = a + int(np.argmin(d[a:b])) if c == 1 else (b - 1 if a == 0 else a)
             signed = float(d[k]) if c == 1 else -float(np.max(d[a:b]))
-            share = physics.microstrip_fraction_beyond_edge(signed, ref.h_mm) if ref.other_h_mm is None else \
-                physics.stripline_fraction_between(signed, 1e3 * ref.h_mm, ref.h_mm, ref.other_h_mm) / ref.share
+            share = (
+                physics.microstrip_fraction_beyond_edge(signed, ref.h_mm)
+                if ref.other_h_mm is None
+                else physics.stripline_fraction_between(
+                    signed, 1e3 * ref.h_mm, ref.h_mm, ref.other_h_mm
+                )
+                / ref.share
+            )
             sev = "error" if c == 2 else ("warning" if signed < ref.h_mm else "info")
             px, py = pts[k]
             where = "runs off" if c == 2 else "runs along"
-            findings.append(_finding(
-                "edge-run", sev, ch.net, ch.layer, px, py,
-                f"{ch.net} on {ch.layer} {where} the edge of the plane copper on {ref.layer} for {length:.1f} mm, "
-                f"{'as far as' if c == 2 else 'closest'} {abs(signed):.2f} mm ({signed / ref.h_mm:.1f} h): about "
-                f"{share:.0%} of its return current on that plane lies beyond the edge",
-                reference_layer=ref.layer, reference_net=net, run_length_mm=length, edge_distance_mm=signed,
-                edge_distance_h=signed / ref.h_mm, beyond_edge_fraction=float(min(1.0, share)), height_mm=ref.h_mm))
+            findings.append(
+                _finding(
+                    "edge-run",
+                    sev,
+                    ch.net,
+                    ch.layer,
+                    px,
+                    py,
+                    f"{ch.net} on {ch.layer} {where} the edge of the plane copper on "
+                    f"{ref.layer} for {length:.1f} mm, "
+                    f"{'as far as' if c == 2 else 'closest'} {abs(signed):.2f} mm "
+                    f"({signed / ref.h_mm:.1f} h): about "
+                    f"{share:.0%} of its return current on that plane lies beyond the edge",
+                    reference_layer=ref.layer,
+                    reference_net=net,
+                    run_length_mm=length,
+                    edge_distance_mm=signed,
+                    edge_distance_h=signed / ref.h_mm,
+                    beyond_edge_fraction=float(min(1.0, share)),
+                    height_mm=ref.h_mm,
+                )
+            )
     return findings
 
 
 def _samples_to_look_at(lines, dists, outer, edge_tree, limit):
     """For samples at distances dists[i] along lines[i] (laid end to end, as coords_along_lines lays
-    them): True where the straight piece of line a sample lies on comes within `limit` of the plane's
+    them): True where the straight piece of line a sample lies on comes within `limit` of the
+    plane's
     edge or lies off the plane (`outer`). A piece farther than that from the edge does not cross it,
     so one point tells whether all of it is on the plane."""
     xy, idx = shapely.get_coordinates(lines, return_index=True)
     same = idx[1:] == idx[:-1]
     a, b, of_line = xy[:-1][same], xy[1:][same], idx[:-1][same]
     flag = np.zeros(len(a), dtype=bool)
-    # a bounded nearest search prunes more of the tree than a distance query (long pieces, large boxes)
-    flag[edge_tree.query_nearest(shapely.linestrings(np.stack([a, b], axis=1)), max_distance=limit,
-                                 all_matches=False)[0]] = True
+    # a bounded nearest search prunes more of the tree than a distance query (long pieces,
+    # large boxes)
+    flag[
+        edge_tree.query_nearest(
+            shapely.linestrings(np.stack([a, b], axis=1)), max_distance=limit, all_matches=False
+        )[0]
+    ] = True
     far = np.flatnonzero(~flag)
     mid = (a[far] + b[far]) / 2
     flag[far] = ~shapely.intersects_xy(outer, mid[:, 0], mid[:, 1])
@@ -331,11 +468,12 @@ def _samples_to_look_at(lines, dists, outer, edge_tree, limit):
 
 
 def floating_copper(board, nets, refs, chains, settings, hs):
-    """Copper islands tied to nothing (no hole, no pad in them) within coupling distance of a signal track."""
+    """Copper islands tied to nothing (no hole, no pad in them) within coupling distance of a
+    signal track."""
     findings = []
     all_holes = [(h[0], h[1]) for d in board.drills for h in d.holes]
     hole_tree = shapely.STRtree(shapely.points(np.array(all_holes).reshape(-1, 2)))
-    names = [l.name for l in board.copper]
+    names = [c.name for c in board.copper]
     for li, layer in enumerate(board.copper):
         ln = nets.layers[layer.name]
         pad_tree = shapely.STRtree(shapely.points(layer.flashes[:, :2].reshape(-1, 2)))
@@ -344,12 +482,18 @@ def floating_copper(board, nets, refs, chains, settings, hs):
             continue
         ttree = shapely.STRtree(np.array([c.line for c in tracks], dtype=object))
         track_nets = {c.net for c in chains if c.layer == layer.name}
-        cand = [i for i, net in enumerate(ln.island_net) if not ln.island_tied[i] and net not in track_nets]
+        cand = [
+            i
+            for i, net in enumerate(ln.island_net)
+            if not ln.island_tied[i] and net not in track_nets
+        ]
         for i, isl in zip(cand, ln.island_polygons(cand)):
             net = ln.island_net[i]
             if isl.area < hs.floating_min_area_mm2:
                 continue
-            if len(hole_tree.query(isl, predicate="intersects")) or len(pad_tree.query(isl, predicate="intersects")):
+            if len(hole_tree.query(isl, predicate="intersects")) or len(
+                pad_tree.query(isl, predicate="intersects")
+            ):
                 continue
             near = ttree.query(isl, predicate="dwithin", distance=hs.floating_coupling_mm)
             if not len(near):
@@ -364,21 +508,43 @@ def floating_copper(board, nets, refs, chains, settings, hs):
             length, width = max(a, b), max(min(a, b), 0.05)
             f_res = physics.patch_resonance_GHz(length, width, h, er)
             lam = physics.wavelength_mm(settings.knee_GHz, er)
-            vias = max(2, math.ceil(shapely.length(shapely.get_exterior_ring(shapely.get_parts(isl))).sum() / (lam / 20)))
+            vias = max(
+                2,
+                math.ceil(
+                    shapely.length(shapely.get_exterior_ring(shapely.get_parts(isl))).sum()
+                    / (lam / 20)
+                ),
+            )
             sev = "warning" if f_res <= 3 * settings.knee_GHz else "info"
             p = isl.representative_point()
-            findings.append(_finding(
-                "floating-copper", sev, track.net, layer.name, p.x, p.y,
-                f"unconnected copper island of {isl.area:.1f} mm2 on {layer.name} within "
-                f"{hs.floating_coupling_mm:g} mm of {track.net}: patch resonance near {f_res:.2f} GHz; "
-                f"stitch it with about {vias} vias (lambda/20 at {settings.knee_GHz:g} GHz) or remove it",
-                island_net=net, area_mm2=float(isl.area), island_length_mm=length, island_width_mm=width,
-                resonance_GHz=f_res, stitching_vias_needed=vias, height_mm=h))
+            findings.append(
+                _finding(
+                    "floating-copper",
+                    sev,
+                    track.net,
+                    layer.name,
+                    p.x,
+                    p.y,
+                    f"unconnected copper island of {isl.area:.1f} mm2 on {layer.name} within "
+                    f"{hs.floating_coupling_mm:g} mm of {track.net}: patch resonance near "
+                    f"{f_res:.2f} GHz; "
+                    f"stitch it with about {vias} vias (lambda/20 at {settings.knee_GHz:g} GHz) "
+                    "or remove it",
+                    island_net=net,
+                    area_mm2=float(isl.area),
+                    island_length_mm=length,
+                    island_width_mm=width,
+                    resonance_GHz=f_res,
+                    stitching_vias_needed=vias,
+                    height_mm=h,
+                )
+            )
     return findings
 
 
 def stitching_spacing(board, nets, refs, chains, settings, hs):
-    """Largest gap between neighbouring ground vias of a pour or plane, next to signal tracks, against lambda/10."""
+    """Largest gap between neighbouring ground vias of a pour or plane, next to signal tracks,
+    against lambda/10."""
     findings = []
     holes = nets.plated_holes(board)
     n_layers = len(board.copper)
@@ -398,14 +564,19 @@ def stitching_spacing(board, nets, refs, chains, settings, hs):
             isl = ln.island(k)
             if isl.area < hs.stitch_min_pour_mm2:
                 continue
-            pts = np.array([(x, y) for x, y, r, n, a, b in holes if n == net and a <= i <= b]).reshape(-1, 2)
+            pts = np.array(
+                [(x, y) for x, y, r, n, a, b in holes if n == net and a <= i <= b]
+            ).reshape(-1, 2)
             if len(pts):
                 pts = pts[shapely.dwithin(isl, shapely.points(pts), 0.05)]
             if len(pts) < 2:
                 continue
             edges = [(g, a, b) for g, a, b in _mst_edges(pts) if g > limit]
-            # only gaps that tracks run past: the gap's middle within a few mm of a track using this copper
-            if edges:  # nearest-track distances of all the gaps' middles in one bounded-nearest query
+            # only gaps that tracks run past: the gap's middle within a few mm of a
+            # track using this copper
+            if (
+                edges
+            ):  # nearest-track distances of all the gaps' middles in one bounded-nearest query
                 mids = shapely.points(np.array([(pts[a] + pts[b]) / 2 for _, a, b in edges]))
                 (_, _), dist = utree.query_nearest(mids, return_distance=True, all_matches=False)
                 edges = [e for e, d in zip(edges, dist) if d <= max(3.0, e[0] / 4)]
@@ -414,13 +585,26 @@ def stitching_spacing(board, nets, refs, chains, settings, hs):
             gap, a, b = max(edges)
             mx, my = (pts[a] + pts[b]) / 2
             sev = "warning" if gap <= 2 * limit else "error"
-            findings.append(_finding(
-                "stitching-spacing", sev, net, layer.name, mx, my,
-                f"{net} copper on {layer.name}: neighbouring stitching vias {gap:.1f} mm apart next to signal "
-                f"tracks, more than lambda/{round(1 / hs.stitch_fraction)} = {limit:.1f} mm at "
-                f"{settings.knee_GHz:g} GHz (eps_eff {eeff:.2f})", via_spacing_mm=gap, spacing_limit_mm=limit,
-                er_eff=eeff, via_count=int(len(pts)), from_via_mm=[float(pts[a][0]), float(pts[a][1])],
-                to_via_mm=[float(pts[b][0]), float(pts[b][1])]))
+            findings.append(
+                _finding(
+                    "stitching-spacing",
+                    sev,
+                    net,
+                    layer.name,
+                    mx,
+                    my,
+                    f"{net} copper on {layer.name}: neighbouring stitching vias {gap:.1f} mm "
+                    "apart next to signal "
+                    f"tracks, more than lambda/{round(1 / hs.stitch_fraction)} = {limit:.1f} mm at "
+                    f"{settings.knee_GHz:g} GHz (eps_eff {eeff:.2f})",
+                    via_spacing_mm=gap,
+                    spacing_limit_mm=limit,
+                    er_eff=eeff,
+                    via_count=int(len(pts)),
+                    from_via_mm=[float(pts[a][0]), float(pts[a][1])],
+                    to_via_mm=[float(pts[b][0]), float(pts[b][1])],
+                )
+            )
     return findings
 
 
@@ -446,7 +630,8 @@ def _mst_edges(pts):
 
 
 def return_splits(board, gap_findings, settings, hs):
-    """Where a closed slot leaves the return two ways round (its two ends), the share each way takes:
+    """Where a closed slot leaves the return two ways round (its two ends), the share each way
+    takes:
     at DC by resistance (copper strips of the footprint's width), at high frequency by inductance
     (two legs out and back, Rosa's partial inductance). A simple two-branch model."""
     out = []
@@ -467,14 +652,29 @@ def return_splits(board, gap_findings, settings, hs):
         ind_near = 2 * physics.wire_partial_inductance_nH(near, gmd)
         ind_far = 2 * physics.wire_partial_inductance_nH(far, gmd)
         dc, hf = physics.two_branch_shares(r_near, r_far, ind_near, ind_far)
-        out.append(_finding(
-            "return-split", "info", f["net"], f["layer"], f["x_mm"], f["y_mm"],
-            f"{f['net']} over the slot in {f['reference_net']} on {f['reference_layer']}: its return goes round "
-            f"the near end ({l_near:.1f} mm) and the far end ({l_far:.1f} mm): {dc:.0%} near at DC, "
-            f"{hf:.0%} near at high frequency", reference_layer=f["reference_layer"],
-            reference_net=f["reference_net"], branch_lengths_mm=[l_near, l_far], dc_share_near=dc,
-            hf_share_near=hf, branch_resistance_ohm=[r_near, r_far], branch_inductance_nH=[ind_near, ind_far],
-            gap_finding=f["id"]))
+        out.append(
+            _finding(
+                "return-split",
+                "info",
+                f["net"],
+                f["layer"],
+                f["x_mm"],
+                f["y_mm"],
+                f"{f['net']} over the slot in {f['reference_net']} on {f['reference_layer']}: "
+                "its return goes round "
+                f"the near end ({l_near:.1f} mm) and the far end ({l_far:.1f} mm): {dc:.0%} "
+                "near at DC, "
+                f"{hf:.0%} near at high frequency",
+                reference_layer=f["reference_layer"],
+                reference_net=f["reference_net"],
+                branch_lengths_mm=[l_near, l_far],
+                dc_share_near=dc,
+                hf_share_near=hf,
+                branch_resistance_ohm=[r_near, r_far],
+                branch_inductance_nH=[ind_near, ind_far],
+                gap_finding=f["id"],
+            )
+        )
     return out
 
 
@@ -484,22 +684,41 @@ def net_conflicts(nets):
     out = []
     for c in nets.conflicts:
         if c.part:
-            sev, why = "info", (f"joined by copper at part {c.part}, whose own pads carry both labels (a net tie, "
-                                f"a jumper or a bypassed part: check that it is intended)")
+            sev, why = (
+                "info",
+                (
+                    f"joined by copper at part {c.part}, whose own pads carry both labels (a "
+                    "net tie, "
+                    f"a jumper or a bypassed part: check that it is intended)"
+                ),
+            )
         else:
             sev, why = "error", "a short in the released data, or a wrong label"
-        out.append(_finding("net-conflict", sev, c.other, c.layer, c.x, c.y,
-                            f"copper of net {c.net} on {c.layer} also carries the label {c.other} "
-                            f"({c.labels} object(s)) at ({c.x:.2f}, {c.y:.2f}): {why}",
-                            conflicting_nets=[c.net, c.other], joined_by_part=c.part))
+        out.append(
+            _finding(
+                "net-conflict",
+                sev,
+                c.other,
+                c.layer,
+                c.x,
+                c.y,
+                f"copper of net {c.net} on {c.layer} also carries the label {c.other} "
+                f"({c.labels} object(s)) at ({c.x:.2f}, {c.y:.2f}): {why}",
+                conflicting_nets=[c.net, c.other],
+                joined_by_part=c.part,
+            )
+        )
     return out
 
 
 def checks_without_gaps(board, nets, refs, chains, settings, hs, plane_nets_of):
-    """The checks that do not need the gap crossings, as separate tasks (they run beside the gap scan;
+    """The checks that do not need the gap crossings, as separate tasks (they run beside the gap
+    scan;
     return_splits follows it): their findings, concatenated in this order, are the whole of them.
     plane_nets_of: detector.chain_plane_nets(nets, chains)."""
-    return [lambda: reference_changes(board, nets, refs, settings),
-            lambda: edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of),
-            lambda: floating_copper(board, nets, refs, chains, settings, hs),
-            lambda: stitching_spacing(board, nets, refs, chains, settings, hs)]
+    return [
+        lambda: reference_changes(board, nets, refs, settings),
+        lambda: edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of),
+        lambda: floating_copper(board, nets, refs, chains, settings, hs),
+        lambda: stitching_spacing(board, nets, refs, chains, settings, hs),
+    ]

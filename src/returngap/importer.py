@@ -7,7 +7,6 @@ gerbonara's file-name recognition. Disagreements are reported as assumptions.
 
 import functools
 import json
-import math
 import re
 import warnings
 from dataclasses import dataclass
@@ -43,8 +42,8 @@ def unescape_net(name):
 
 @dataclass
 class Role:
-    kind: str                   # copper | profile | drill | other
-    number: int | None = None   # copper: 1-based from the top, when the source gives it
+    kind: str  # copper | profile | drill | other
+    number: int | None = None  # copper: 1-based from the top, when the source gives it
     order_key: float | None = None
     side: str | None = None
     polarity: str = "positive"
@@ -62,8 +61,15 @@ def role_from_function(func, polarity=None, source=""):
     head = f[0].lower()
     if head == "copper" and len(f) >= 3 and re.fullmatch(r"L\d+", f[1]):
         side = {"top": "top", "inr": "inner", "bot": "bottom"}.get(f[2].lower(), "inner")
-        return Role("copper", number=int(f[1][1:]), side=side, polarity=pol,
-                    type_hint=f[3] if len(f) > 3 else None, source=source, label=func)
+        return Role(
+            "copper",
+            number=int(f[1][1:]),
+            side=side,
+            polarity=pol,
+            type_hint=f[3] if len(f) > 3 else None,
+            source=source,
+            label=func,
+        )
     if head in ("plated", "nonplated", "mixedplating"):
         span = None
         if len(f) >= 3 and f[1].isdigit() and f[2].isdigit():
@@ -84,13 +90,24 @@ def role_from_user(value, source="stackup file"):
     if low in ("profile", "outline"):
         return Role("profile", source=source, label=v)
     if low.startswith("drill"):
-        plated = None if low in ("drill", "drill:unknown") else not ("npth" in low or "nonplated" in low)
+        plated = (
+            None if low in ("drill", "drill:unknown") else not ("npth" in low or "nonplated" in low)
+        )
         m = re.search(r"(\d+)-(\d+)", low)
-        return Role("drill", plated=plated, span=(int(m.group(1)), int(m.group(2))) if m else None,
-                    source=source, label=v)
+        return Role(
+            "drill",
+            plated=plated,
+            span=(int(m.group(1)), int(m.group(2))) if m else None,
+            source=source,
+            label=v,
+        )
     if low in ("ignore", "other"):
         return Role("other", source=source, label=v)
-    raise InputError(source, f"unknown layer role {value!r} (use L<n>, profile, drill, drill:npth, drill:<a>-<b>, ignore)")
+    raise InputError(
+        source,
+        f"unknown layer role {value!r} (use L<n>, profile, drill, drill:npth, drill:<a>-<b>, "
+        "ignore)",
+    )
 
 
 def role_from_name(key):
@@ -102,7 +119,13 @@ def role_from_name(key):
         if side == "bottom":
             return Role("copper", order_key=1e9, side="bottom", source="file name", label=key)
         m = re.match(r"inner_(\d+)", side)
-        return Role("copper", order_key=int(m.group(1)) if m else 5e8, side="inner", source="file name", label=key)
+        return Role(
+            "copper",
+            order_key=int(m.group(1)) if m else 5e8,
+            side="inner",
+            source="file name",
+            label=key,
+        )
     if use == "outline":
         return Role("profile", source="file name", label=key)
     if side == "drill":
@@ -115,16 +138,17 @@ def read_text(fab):
     try:
         return fab.path.read_bytes().decode("latin-1")
     except OSError as e:
-        raise InputError(fab.name, f"cannot read ({e.strerror})")
+        raise InputError(fab.name, f"cannot read ({e.strerror})") from None
 
 
 def parse_job_file(fab, text):
-    """FilesAttributes and MaterialStackup of a JSON job file (legacy %TJ job files carry neither)."""
+    """FilesAttributes and MaterialStackup of a JSON job file (legacy %TJ job files carry
+    neither)."""
     if text.lstrip("\ufeff \t\r\n").startswith("{"):
         try:
             data = json.loads(text.lstrip("\ufeff"))
         except json.JSONDecodeError as e:
-            raise InputError(fab.name, f"job file is not valid JSON ({e.msg})", e.lineno)
+            raise InputError(fab.name, f"job file is not valid JSON ({e.msg})", e.lineno) from None
         if not isinstance(data, dict):
             raise InputError(fab.name, "job file is not a JSON object")
         return data
@@ -137,7 +161,8 @@ def job_file_roles(job):
     for entry in (job.get("FilesAttributes") or []) if isinstance(job, dict) else []:
         if isinstance(entry, dict) and entry.get("Path") and entry.get("FileFunction"):
             out[PurePosixPath(str(entry["Path"]).replace("\\", "/")).name] = role_from_function(
-                str(entry["FileFunction"]), entry.get("FilePolarity"), "job file")
+                str(entry["FileFunction"]), entry.get("FilePolarity"), "job file"
+            )
     return out
 
 
@@ -170,7 +195,10 @@ def _disagrees(a, b):
     """Two statements about one file that cannot both hold (unstated numbers or spans agree)."""
     if a.kind != b.kind:
         return True
-    return any(x is not None and y is not None and x != y for x, y in ((a.number, b.number), (a.span, b.span)))
+    return any(
+        x is not None and y is not None and x != y
+        for x, y in ((a.number, b.number), (a.span, b.span))
+    )
 
 
 def _own_role(f, text):
@@ -195,16 +223,28 @@ def identify(board_files, texts, job, user_layers, names=None):
     for f in candidates:
         base = PurePosixPath(f.name).name
         own = _own_role(f, texts[f.name])
-        ranked = [r for r in (user_roles.get(f.name) or user_roles.get(base), own, job_roles.get(base))
-                  if r is not None]
+        ranked = [
+            r
+            for r in (user_roles.get(f.name) or user_roles.get(base), own, job_roles.get(base))
+            if r is not None
+        ]
         chosen = ranked[0] if ranked else None
         for other in ranked[1:]:
             if _disagrees(other, chosen):
-                notes.append(f"{f.name}: {other.source} says '{other.label}', the {chosen.source} says "
-                             f"'{chosen.label}'; using the {chosen.source}")
-        if chosen is not None and chosen.kind == "drill" and own is not None and own.kind == "drill":
+                notes.append(
+                    f"{f.name}: {other.source} says '{other.label}', the {chosen.source} says "
+                    f"'{chosen.label}'; using the {chosen.source}"
+                )
+        if (
+            chosen is not None
+            and chosen.kind == "drill"
+            and own is not None
+            and own.kind == "drill"
+        ):
             chosen.span = chosen.span or own.span
-            chosen.plated = own.plated if chosen.plated is None and chosen is not own else chosen.plated
+            chosen.plated = (
+                own.plated if chosen.plated is None and chosen is not own else chosen.plated
+            )
         if chosen is None:
             chosen = names.get(f.name)
         if chosen is None and f.kind == "excellon":
@@ -215,7 +255,11 @@ def identify(board_files, texts, job, user_layers, names=None):
             chosen = Role("other", source=chosen.source, label=chosen.label)
         if chosen.kind in ("copper", "profile") and f.kind != "gerber":
             chosen = Role("other", source=chosen.source, label=chosen.label)
-        if f.kind == "gerber" and chosen.kind == "copper" and re.search(r"%IPNEG\*%", texts[f.name]):
+        if (
+            f.kind == "gerber"
+            and chosen.kind == "copper"
+            and re.search(r"%IPNEG\*%", texts[f.name])
+        ):
             chosen.polarity = "negative"
         roles[f.name] = chosen
     return roles, notes
@@ -246,8 +290,14 @@ def number_copper(roles, name_inners=None):
             raise InputError(copper[0][0], f"two copper files claim layer L{dup[0]}")
         return copper
     inners = sorted(name_inners or ())
-    by_name = name_inners is not None and inners == list(range(1, len(inners) + 1)) and all(
-        r.source == "file name" and (r.side != "inner" or float(r.order_key).is_integer()) for _, r in copper)
+    by_name = (
+        name_inners is not None
+        and inners == list(range(1, len(inners) + 1))
+        and all(
+            r.source == "file name" and (r.side != "inner" or float(r.order_key).is_integer())
+            for _, r in copper
+        )
+    )
     if by_name:
         for _, r in copper:
             r.number = _name_number(r, len(inners))
@@ -269,28 +319,41 @@ def _line_of(text, pos):
 
 
 def lint_gerber(fab, text, notes):
-    """Checks gerbonara does not make: format, unit switches, unclosed regions. Errors or stated recoveries."""
+    """Checks gerbonara does not make: format, unit switches, unclosed regions. Errors or stated
+    recoveries."""
     m = FS_RE.search(text)
     if m:
         xi, xd, yi, yd = map(int, m.groups())
         if not (1 <= xi <= 7 and 1 <= xd <= 7 and 1 <= yi <= 7 and 1 <= yd <= 7):
-            raise InputError(fab.name, f"coordinate format {xi}.{xd} / {yi}.{yd} is outside what the Gerber format "
-                                       "allows (at most 7 integer and 7 decimal digits)", _line_of(text, m.start()))
+            raise InputError(
+                fab.name,
+                f"coordinate format {xi}.{xd} / {yi}.{yd} is outside what the Gerber format "
+                "allows (at most 7 integer and 7 decimal digits)",
+                _line_of(text, m.start()),
+            )
     units = [(u.group(1), u.start()) for u in re.finditer(r"%MO(MM|IN)\*%", text)]
     if len({u for u, _ in units}) > 1:
-        raise InputError(fab.name, "changes units in the middle of the file (%MO given twice with different units)",
-                         _line_of(text, units[1][1]))
+        raise InputError(
+            fab.name,
+            "changes units in the middle of the file (%MO given twice with different units)",
+            _line_of(text, units[1][1]),
+        )
     opens = [g.start() for g in re.finditer(r"G36\*", text)]
     closes = len(re.findall(r"G37\*", text))
     if len(opens) > closes:
-        notes.append(f"{fab.name}: a region opened at line {_line_of(text, opens[-1])} is never closed (no G37); "
-                     "it is left out")
+        notes.append(
+            f"{fab.name}: a region opened at line {_line_of(text, opens[-1])} is never closed "
+            "(no G37); "
+            "it is left out"
+        )
     if m:
         digits = max(xi + xd, yi + yd)
-        long = re.search(r"[XY][+-]?(\d{%d,})" % (digits + 1), text)
+        long = re.search(rf"[XY][+-]?(\d{{{digits + 1},}})", text)
         if long:
-            notes.append(f"{fab.name}: coordinates carry more digits than %FS declares (line "
-                         f"{_line_of(text, long.start())}); read with the declared decimals")
+            notes.append(
+                f"{fab.name}: coordinates carry more digits than %FS declares (line "
+                f"{_line_of(text, long.start())}); read with the declared decimals"
+            )
 
 
 def check_extent(fab, layer):
@@ -298,8 +361,11 @@ def check_extent(fab, layer):
         return
     x0, y0, x1, y1 = layer.bounds
     if max(abs(x0), abs(y0), abs(x1), abs(y1)) > MAX_EXTENT_MM:
-        raise InputError(fab.name, f"coordinates reach {max(abs(x0), abs(y0), abs(x1), abs(y1)) / 1000:.0f} m from "
-                                   "the origin; the number format or the data is wrong")
+        raise InputError(
+            fab.name,
+            f"coordinates reach {max(abs(x0), abs(y0), abs(x1), abs(y1)) / 1000:.0f} m from "
+            "the origin; the number format or the data is wrong",
+        )
 
 
 def truncation(text):
@@ -312,7 +378,11 @@ def truncation(text):
         return None
     last = _line_of(text, len(body) - 1)
     if body[-1] not in "*%":
-        return f"truncated: no M02 end-of-file marker and the last command is cut off ({body[-20:]!r})", last
+        return (
+            "truncated: no M02 end-of-file marker and the last command is cut off "
+            f"({body[-20:]!r})",
+            last,
+        )
     if len(re.findall(r"G36\*", text)) > len(re.findall(r"G37\*", text)):
         return "truncated: no M02 end-of-file marker and a region is never closed", last
     return None
@@ -326,16 +396,23 @@ def parse_gerber(fab, text, notes):
         try:
             g = GerberFile.from_string(text, filename=fab.name)
         except RecursionError:
-            raise InputError(fab.name, "nesting too deep to read")
+            raise InputError(fab.name, "nesting too deep to read") from None
         except Exception as e:
             msg = str(e)
             m = re.match(r".*?:(\d+) \"(.*?)\": (.*)", msg, re.S)
             if m:
-                raise InputError(fab.name, f"{m.group(3)} (at {m.group(2)[:40]!r})", int(m.group(1)))
-            raise InputError(fab.name, f"cannot read as Gerber ({type(e).__name__}: {msg[:120]})")
+                raise InputError(
+                    fab.name, f"{m.group(3)} (at {m.group(2)[:40]!r})", int(m.group(1))
+                ) from None
+            raise InputError(
+                fab.name, f"cannot read as Gerber ({type(e).__name__}: {msg[:120]})"
+            ) from None
     for w in caught:
         if "missing mandatory M02" in str(w.message):
-            notes.append(f"{fab.name}: no M02 end-of-file marker, the file may be truncated; read what is there")
+            notes.append(
+                f"{fab.name}: no M02 end-of-file marker, the file may be truncated; read what "
+                "is there"
+            )
             break
     unknown = sum(1 for w in caught if "Unknown statement" in str(w.message))
     if unknown:
@@ -355,7 +432,7 @@ def _attr_net(attrs):
 
 def _aper_function(obj):
     a = getattr(obj, "aperture", None)
-    for k, v in (getattr(a, "attrs", None) or ()):
+    for k, v in getattr(a, "attrs", None) or ():
         if k == ".AperFunction":
             return v[0] if v else None
     return None
@@ -363,27 +440,39 @@ def _aper_function(obj):
 
 def build_layer(fab, g, role, outline, tol):
     """Copper geometry and drawn objects of one copper layer, in mm."""
-    layer = CopperLayer(name=f"L{role.number}", file=fab.name, side=role.side, polarity=role.polarity,
-                        type_hint=role.type_hint, identified_by=role.source)
+    layer = CopperLayer(
+        name=f"L{role.number}",
+        file=fab.name,
+        side=role.side,
+        polarity=role.polarity,
+        type_hint=role.type_hint,
+        identified_by=role.source,
+    )
     aps = shapes.ApertureShapes(tol)
     segs, seg_net, seg_fn = [], [], []
     flashes, fl_net, fl_fn, fl_part = [], [], [], []
-    runs = []                       # [(dark, [pieces])]
-    round_lines = []                # pending (coords, radius) of the current run, buffered together
+    runs = []  # [(dark, [pieces])]
+    round_lines = []  # pending (coords, radius) of the current run, buffered together
 
-    flash_at = []                   # pending (shape, x, y) of the current run, placed together
-    ap_info = {}                    # id(aperture) -> (width, round, function); apertures outlive the loop
+    flash_at = []  # pending (shape, x, y) of the current run, placed together
+    ap_info = {}  # id(aperture) -> (width, round, function); apertures outlive the loop
     quad_segs_of = functools.cache(lambda r: shapes.quad_segs_for(float(r), tol))
 
     def flush_round():
         if flash_at:
-            runs[-1][1].extend(shapes.place_all([b for b, _, _ in flash_at], [(x, y) for _, x, y in flash_at]))
+            runs[-1][1].extend(
+                shapes.place_all([b for b, _, _ in flash_at], [(x, y) for _, x, y in flash_at])
+            )
             flash_at.clear()
         if round_lines:
-            lines = shapely.linestrings([c for c, _ in round_lines]) if len({len(c) for c, _ in round_lines}) == 1 \
+            lines = (
+                shapely.linestrings([c for c, _ in round_lines])
+                if len({len(c) for c, _ in round_lines}) == 1
                 else np.array([shapely.LineString(c) for c, _ in round_lines], dtype=object)
+            )
             radii = np.array([r for _, r in round_lines])
-            # each stroke as finely as its own radius needs: a thin one batched with a wide one would
+            # each stroke as finely as its own radius needs: a thin one batched with a
+            # wide one would
             # otherwise get the wide one's many segments at every bend
             qs = np.array([quad_segs_of(r) for r in radii])
             out = np.empty(len(radii), dtype=object)
@@ -394,8 +483,8 @@ def build_layer(fab, g, role, outline, tol):
             round_lines.clear()
 
     Line, Arc, Flash, Region = go.Line, go.Arc, go.Flash, go.Region
-    unit_k = {}                     # id(unit) -> mm per unit (gerbonara's unit comparison is slow)
-    net_of = {}                     # .N value -> net name
+    unit_k = {}  # id(unit) -> mm per unit (gerbonara's unit comparison is slow)
+    net_of = {}  # .N value -> net name
     seg_add, net_add, fn_add = segs.append, seg_net.append, seg_fn.append
     for obj in g.objects:
         kind = type(obj)
@@ -426,18 +515,37 @@ def build_layer(fab, g, role, outline, tol):
                 pts = [(obj.x1 * k, obj.y1 * k), (obj.x2 * k, obj.y2 * k)]
             else:
                 c = obj.center
-                pts = shapes.arc_points(obj.x1 * k, obj.y1 * k, obj.x2 * k, obj.y2 * k, c[0] * k, c[1] * k,
-                                        obj.clockwise, tol)
+                pts = shapes.arc_points(
+                    obj.x1 * k,
+                    obj.y1 * k,
+                    obj.x2 * k,
+                    obj.y2 * k,
+                    c[0] * k,
+                    c[1] * k,
+                    obj.clockwise,
+                    tol,
+                )
             info = ap_info.get(id(obj.aperture))
             if info is None:  # once per aperture, not per stroke
-                info = ap_info[id(obj.aperture)] = (shapes.aperture_width_mm(obj.aperture),
-                                                    isinstance(obj.aperture, CircleAperture), _aper_function(obj))
+                info = ap_info[id(obj.aperture)] = (
+                    shapes.aperture_width_mm(obj.aperture),
+                    isinstance(obj.aperture, CircleAperture),
+                    _aper_function(obj),
+                )
             w, round_ap, fn = info
             if round_ap and w > 0:
                 if pts[0] == pts[-1] and len(pts) == 2:
-                    runs[-1][1].append(shapely.Point(pts[0]).buffer(w / 2, quad_segs=shapes.quad_segs_for(w / 2, tol)))
-                elif round_lines and round_lines[-1][1] == w / 2 and round_lines[-1][0][-1] == pts[0]:
-                    round_lines[-1][0].extend(pts[1:])  # a continuing stroke: one polyline, one buffer
+                    runs[-1][1].append(
+                        shapely.Point(pts[0]).buffer(
+                            w / 2, quad_segs=shapes.quad_segs_for(w / 2, tol)
+                        )
+                    )
+                elif (
+                    round_lines and round_lines[-1][1] == w / 2 and round_lines[-1][0][-1] == pts[0]
+                ):
+                    round_lines[-1][0].extend(
+                        pts[1:]
+                    )  # a continuing stroke: one polyline, one buffer
                 else:
                     round_lines.append((list(pts), w / 2))
             else:
@@ -491,7 +599,7 @@ def resolve_pieces(runs, negative_in=None):
     if negative_in is not None:
         last_clear = len(runs) - 1
     acc = shapely.Polygon()
-    for dark, pieces in runs[:last_clear + 1]:
+    for dark, pieces in runs[: last_clear + 1]:
         run = shapes.merge_pieces(pieces)
         if run.is_empty:
             continue
@@ -501,7 +609,7 @@ def resolve_pieces(runs, negative_in=None):
     if not acc.is_valid:
         acc = shapely.make_valid(acc)
     out = [p for p in shapely.get_parts(acc) if p.geom_type == "Polygon" and p.area > 0]
-    for _, pieces in runs[last_clear + 1:]:
+    for _, pieces in runs[last_clear + 1 :]:
         # buffers, placed aperture shapes and repaired regions: valid as built
         arr = np.array([p for p in pieces if p is not None], dtype=object)
         for p in arr:  # flashes of macro apertures can be multi-part
@@ -509,7 +617,9 @@ def resolve_pieces(runs, negative_in=None):
                 if p.area > 0:
                     out.append(p)
             else:
-                out.extend(q for q in shapely.get_parts(p) if q.geom_type == "Polygon" and q.area > 0)
+                out.extend(
+                    q for q in shapely.get_parts(p) if q.geom_type == "Polygon" and q.area > 0
+                )
     return np.array(out, dtype=object)
 
 
@@ -521,8 +631,12 @@ def _only_touches(raw):
     return not reason.startswith("Self-intersection")
 
 
-EXCELLON_CANDIDATES = [(u, nf, z) for u in (MM, Inch) for nf in ((2, 4), (3, 3), (2, 5), (3, 5), (4, 4), (3, 4), (4, 3))
-                       for z in ("leading", "trailing")]
+EXCELLON_CANDIDATES = [
+    (u, nf, z)
+    for u in (MM, Inch)
+    for nf in ((2, 4), (3, 3), (2, 5), (3, 5), (4, 4), (3, 4), (4, 3))
+    for z in ("leading", "trailing")
+]
 
 
 def _drill_points(d):
@@ -551,6 +665,7 @@ def _inside_fraction(pts, region):
 def parse_drill(fab, text, copper_region, notes):
     """Excellon via gerbonara; when the header is silent or the holes land off the board,
     try the usual number formats and keep the one whose holes fall on the copper."""
+
     def attempt(settings):
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
@@ -569,7 +684,11 @@ def parse_drill(fab, text, copper_region, notes):
             return d, f"{s.unit} {s.number_format} zeros={s.zeros}" if s else ""
     else:
         score = -1.0
-    declared_unit = MM if re.search(r"^\s*METRIC", text, re.M) else (Inch if re.search(r"^\s*INCH", text, re.M) else None)
+    declared_unit = (
+        MM
+        if re.search(r"^\s*METRIC", text, re.M)
+        else (Inch if re.search(r"^\s*INCH", text, re.M) else None)
+    )
     best, best_score, best_desc = d, score, None
     for unit, nf, zeros in EXCELLON_CANDIDATES:
         if declared_unit is not None and unit != declared_unit:
@@ -589,8 +708,10 @@ def parse_drill(fab, text, copper_region, notes):
         reason = m.group(3) if m else msg
         raise InputError(fab.name, f"cannot read as Excellon ({reason.split('.')[0][:150]})", line)
     if best_desc:
-        notes.append(f"{fab.name}: drill number format not stated or inconsistent; inferred {best_desc} "
-                     f"({best_score:.0%} of holes land on outer-layer copper)")
+        notes.append(
+            f"{fab.name}: drill number format not stated or inconsistent; inferred {best_desc} "
+            f"({best_score:.0%} of holes land on outer-layer copper)"
+        )
     return best, best_desc or ""
 
 
@@ -641,19 +762,31 @@ def build_drill(fab, d, role, n_layers, text, fmt, span, span_source):
             slots.append((o.x1 * k, o.y1 * k, o.x2 * k, o.y2 * k, dia))
             slot_pl.append(plated)
     unknown = any(p is None for p in hole_pl + slot_pl)
-    per_tool = bool(tools_x2) or any(getattr(getattr(o, "aperture", None), "plated", None) is not None
-                                     for o in d.objects)
+    per_tool = bool(tools_x2) or any(
+        getattr(getattr(o, "aperture", None), "plated", None) is not None for o in d.objects
+    )
     fill = True if role.plated is None else role.plated  # holes nobody speaks for: plated (stated)
     every = [fill if p is None else p for p in hole_pl + slot_pl]
     summary = True if all(every) else (False if not any(every) else None)
-    source = "tool sections" if per_tool else (role.source if role.plated is not None else "assumed")
-    drill = DrillFile(file=fab.name, plated=summary, from_layer=span[0], to_layer=min(span[1], n_layers),
-                      holes=np.array(holes, dtype=float).reshape(-1, 3),
-                      slots=np.array(slots, dtype=float).reshape(-1, 5), hole_is_via=via_flags,
-                      hole_plated=np.array([fill if p is None else p for p in hole_pl], dtype=bool),
-                      slot_plated=np.array([fill if p is None else p for p in slot_pl], dtype=bool),
-                      identified_by=role.source, span_source=span_source, plating_source=source,
-                      number_format=fmt, skipped=skipped)
+    source = (
+        "tool sections" if per_tool else (role.source if role.plated is not None else "assumed")
+    )
+    drill = DrillFile(
+        file=fab.name,
+        plated=summary,
+        from_layer=span[0],
+        to_layer=min(span[1], n_layers),
+        holes=np.array(holes, dtype=float).reshape(-1, 3),
+        slots=np.array(slots, dtype=float).reshape(-1, 5),
+        hole_is_via=via_flags,
+        hole_plated=np.array([fill if p is None else p for p in hole_pl], dtype=bool),
+        slot_plated=np.array([fill if p is None else p for p in slot_pl], dtype=bool),
+        identified_by=role.source,
+        span_source=span_source,
+        plating_source=source,
+        number_format=fmt,
+        skipped=skipped,
+    )
     return drill, unknown
 
 
@@ -666,7 +799,7 @@ def parse_netlist(fab):
     try:
         text = fab.path.read_bytes().decode("latin-1")
     except OSError as e:
-        raise InputError(fab.name, f"cannot read ({e.strerror})")
+        raise InputError(fab.name, f"cannot read ({e.strerror})") from None
     scale = IPC_UNITS["CUST 0"]
     pts = []
     for lineno, raw in enumerate(text.splitlines(), 1):
@@ -689,9 +822,17 @@ def parse_netlist(fab):
         # access side, columns 39-41: A00 both sides, A01 the top, A<n> layer n (the bottom)
         acc = re.match(r"A(\d\d)", line[38:41])
         side = int(acc.group(1)) if acc and int(acc.group(1)) > 0 else None
-        pts.append(NetPoint(net=unescape_net(net), x=int(m.group(1)) * scale, y=int(m.group(2)) * scale,
-                            refdes=refdes, pin=pin or None, is_via=is_via,
-                            layers=(side, side) if side else None))
+        pts.append(
+            NetPoint(
+                net=unescape_net(net),
+                x=int(m.group(1)) * scale,
+                y=int(m.group(2)) * scale,
+                refdes=refdes,
+                pin=pin or None,
+                is_via=is_via,
+                layers=(side, side) if side else None,
+            )
+        )
     return pts
 
 
@@ -701,9 +842,19 @@ def _guarded(name, fn, *args):
         return fn(*args)
     except InputError:
         raise
-    except (ValueError, TypeError, AttributeError, IndexError, KeyError, ZeroDivisionError, OverflowError,
-            shapely.errors.GEOSException) as e:
-        raise InputError(name, f"cannot build its geometry ({type(e).__name__}: {str(e)[:120]})")
+    except (
+        ValueError,
+        TypeError,
+        AttributeError,
+        IndexError,
+        KeyError,
+        ZeroDivisionError,
+        OverflowError,
+        shapely.errors.GEOSException,
+    ) as e:
+        raise InputError(
+            name, f"cannot build its geometry ({type(e).__name__}: {str(e)[:120]})"
+        ) from None
 
 
 PARALLEL_MIN_BYTES = 20_000  # copper text below which a second process costs more than it saves
@@ -716,15 +867,26 @@ def _copper_layer(fab, text, role, provisional, tol):
     cut = truncation(text)
     if cut is not None:
         problems.append(Problem(fab.name, cut[0], cut[1]))
-    layer = _guarded(fab.name, build_layer, fab, parse_gerber(fab, text, notes), role,
-                     provisional if provisional is not None else shapely.Polygon(), tol)
+    layer = _guarded(
+        fab.name,
+        build_layer,
+        fab,
+        parse_gerber(fab, text, notes),
+        role,
+        provisional if provisional is not None else shapely.Polygon(),
+        tol,
+    )
     check_extent(fab, layer)
     if layer.skipped_objects:
-        notes.append(f"{fab.name}: {layer.skipped_objects} object(s) drawn before any aperture was "
-                     "selected were left out")
+        notes.append(
+            f"{fab.name}: {layer.skipped_objects} object(s) drawn before any aperture was "
+            "selected were left out"
+        )
     if layer.repaired_regions:
-        notes.append(f"{fab.name}: {layer.repaired_regions} self-intersecting region(s) repaired "
-                     "(split into valid parts)")
+        notes.append(
+            f"{fab.name}: {layer.repaired_regions} self-intersecting region(s) repaired "
+            "(split into valid parts)"
+        )
     if role.polarity == "negative" and (provisional is None or provisional.is_empty):
         raise InputError(fab.name, "negative-polarity copper needs a board profile file")
     return layer, notes, problems
@@ -734,7 +896,8 @@ def _copper_layers(by_name, texts, copper_roles, provisional, tol, want, per_lay
     """Every copper layer, top to bottom, each passed to per_layer (when given) as soon as it is
     built. The layers are independent, so a large board's are read on both cores, largest file
     first so the two processes finish together. (Only shapely geometry and plain arrays come back
-    from the other process: gerbonara's objects compare units by identity, which pickling breaks.)"""
+    from the other process: gerbonara's objects compare units by identity, which pickling
+    breaks.)"""
     size = sum(len(texts[name]) for name, _ in copper_roles)
     workers = forking.workers_for(want) if size >= PARALLEL_MIN_BYTES else 1
     order = sorted(range(len(copper_roles)), key=lambda k: -len(texts[copper_roles[k][0]]))
@@ -745,20 +908,28 @@ def _copper_layers(by_name, texts, copper_roles, provisional, tol, want, per_lay
         if per_layer is not None:
             per_layer(layer)
         return (_wkb_packed(layer) if forking.in_child else layer), notes, problems
+
     done = forking.fork_map(task, len(order), workers)
     out = [None] * len(order)
     for j, k in enumerate(order):
         layer, notes, problems = done[j]
-        out[k] = (_wkb_unpacked(layer) if isinstance(layer.regions, tuple) else layer), notes, problems
+        out[k] = (
+            (_wkb_unpacked(layer) if isinstance(layer.regions, tuple) else layer),
+            notes,
+            problems,
+        )
     return out
 
 
-# geometry crosses between processes as WKB: pickling shapely objects one by one costs five times more
+# geometry crosses between processes as WKB: pickling shapely objects one by one costs five times
+# more
 def _wkb_packed(layer):
     layer.piece_tree = None  # rebuilt where it is needed
     layer.pieces = shapely.to_wkb(layer.pieces)
-    layer.regions = (shapely.to_wkb(np.array([r[0] for r in layer.regions], dtype=object)),
-                     [r[1:] for r in layer.regions])
+    layer.regions = (
+        shapely.to_wkb(np.array([r[0] for r in layer.regions], dtype=object)),
+        [r[1:] for r in layer.regions],
+    )
     return layer
 
 
@@ -779,11 +950,14 @@ def _broken_files(bf):
 
 
 def _stated_role(name, user_roles, job_roles, names):
-    """What the user, the job file or the file name says a file is (for files that could not be read)."""
+    """What the user, the job file or the file name says a file is (for files that could not be
+    read)."""
     base = PurePosixPath(name).name
     guess = names.get(name)
     if guess is not None and guess.kind == "drill":
-        guess = None  # the name rules take any .txt for a drill file: too loose for a file that failed
+        guess = (
+            None  # the name rules take any .txt for a drill file: too loose for a file that failed
+        )
     for r in (user_roles.get(name) or user_roles.get(base), job_roles.get(base), guess):
         if r is not None:
             return r
@@ -797,7 +971,10 @@ def _expected_copper(job, copper_roles, stated):
     gs = job.get("GeneralSpecs") if isinstance(job, dict) else None
     n_job = gs.get("LayerNumber") if isinstance(gs, dict) else None
     n_entries = sum(1 for r in job_file_roles(job).values() if r.kind == "copper")
-    for n, why in ((n_job, "the job file's LayerNumber"), (n_entries or None, "the job file's FilesAttributes")):
+    for n, why in (
+        (n_job, "the job file's LayerNumber"),
+        (n_entries or None, "the job file's FilesAttributes"),
+    ):
         if isinstance(n, (int, float)) and 0 < int(n) <= 256:
             for k in range(1, int(n) + 1):
                 want.setdefault(k, f"{why} gives {int(n)} copper layers")
@@ -819,7 +996,9 @@ def _layer_problems(bf, stated, copper_numbers, want, problems):
     for name, role in stated.items():
         if role.kind in ("copper", "drill", "profile"):
             what = f"copper L{role.number}" if role.kind == "copper" and role.number else role.kind
-            problems.append(Problem(name, f"{reasons[name]}, but the {role.source} says it is {what}"))
+            problems.append(
+                Problem(name, f"{reasons[name]}, but the {role.source} says it is {what}")
+            )
     told = {r.number for r in stated.values() if r.kind == "copper"}
     for k in sorted(set(want) - set(copper_numbers) - told):
         problems.append(Problem(f"L{k}", f"no readable copper file for layer L{k} ({want[k]})"))
@@ -859,8 +1038,12 @@ def _profile_candidates(roles, bf, texts, notes, parsed_cache):
     return out
 
 
-OUTLINE_NAME_RE = re.compile(r"(\.gko|\.gml|edge[_.-]?cuts|outline|profile|dimension|contour)", re.I)
-MECHANICAL_NAME_RE = re.compile(r"(\.gm\d+|\.gko|\.gml|edge[_.-]?cuts|outline|profile|dimension|mech)", re.I)
+OUTLINE_NAME_RE = re.compile(
+    r"(\.gko|\.gml|edge[_.-]?cuts|outline|profile|dimension|contour)", re.I
+)
+MECHANICAL_NAME_RE = re.compile(
+    r"(\.gm\d+|\.gko|\.gml|edge[_.-]?cuts|outline|profile|dimension|mech)", re.I
+)
 
 
 def pick_outline(roles, bf, texts, layers, tol, notes, problems):
@@ -871,31 +1054,43 @@ def pick_outline(roles, bf, texts, layers, tol, notes, problems):
     cands = _profile_candidates(roles, bf, texts, notes, cache)
     user = [c for c in cands if c[1] == 0]
     looked = []
-    for name, rank, g in (user or cands):
+    for name, rank, g in user or cands:
         loops = outline.loops_of(g, tol)
         if loops is not None:
             looked.append((name, loops, rank, len(g.objects)))
     if looked and not len(sample.xy):  # only negative copper: nothing to test a loop against yet
         name, loops = looked[0][0], looked[0][1]
-        return max(loops.figures, key=lambda p: p.area), name, "the most trusted profile file, as drawn (no " \
-            "positive copper to test it against)"
+        return (
+            max(loops.figures, key=lambda p: p.area),
+            name,
+            "the most trusted profile file, as drawn (no positive copper to test it against)",
+        )
     if user and looked:
         name, loops = looked[0][0], looked[0][1]
         shell = max(loops.figures, key=lambda p: p.area)
         share, ratio = outline.fit(sample, shell)
         if share < outline.MIN_CONTAINED or ratio > outline.MAX_AREA_RATIO:
-            problems.append(Problem(name, f"the outline the stackup file names holds {share:.0%} of the copper "
-                                          f"and is {ratio:.1f} times the copper's extent"))
+            problems.append(
+                Problem(
+                    name,
+                    f"the outline the stackup file names holds {share:.0%} of the copper "
+                    f"and is {ratio:.1f} times the copper's extent",
+                )
+            )
         return shell, name, "named as the profile in the stackup file"
     choice = outline.choose(looked, sample)
     if choice is not None:
         return choice.polygon, choice.file, choice.why
-    pts = np.vstack([shapely.get_coordinates(shapely.convex_hull(c.pieces)) for c in layers if len(c.pieces)]
-                    or [np.zeros((0, 2))])
+    pts = np.vstack(
+        [shapely.get_coordinates(shapely.convex_hull(c.pieces)) for c in layers if len(c.pieces)]
+        or [np.zeros((0, 2))]
+    )
     hull = shapely.MultiPoint(pts).convex_hull if len(pts) >= 3 else shapely.Polygon()
     tried = ", ".join(n for n, _, _ in cands) or "none"
-    notes.append(f"no closed outline holds the copper (files tried: {tried}); board outline taken as the "
-                 "convex hull of all copper")
+    notes.append(
+        f"no closed outline holds the copper (files tried: {tried}); board outline taken as the "
+        "convex hull of all copper"
+    )
     return hull, None, "the convex hull of all copper (no outline file fits)"
 
 
@@ -922,8 +1117,15 @@ def drill_span(name, role, n_layers, side_files):
 
 
 def _side_files(bf, texts, layers):
-    out = {"layer pairs": {}, "report": {}, "layer pairs file": None, "report file": None,
-           "suffix": {PurePosixPath(c.file).suffix.lower(): int(c.name[1:]) for c in layers if not c.missing}}
+    out = {
+        "layer pairs": {},
+        "report": {},
+        "layer pairs file": None,
+        "report file": None,
+        "suffix": {
+            PurePosixPath(c.file).suffix.lower(): int(c.name[1:]) for c in layers if not c.missing
+        },
+    }
     for f in bf.fab:
         if f.kind == "layerpairs":
             out["layer pairs"].update(drillspans.read_layer_pairs(texts[f.name]))
@@ -938,13 +1140,21 @@ def _drill_problems(name, text, drill, notes, problems):
     if not re.search(r"^\s*M(30|00)\b", text, re.M):
         problems.append(Problem(name, "truncated: no M30 end-of-program marker"))
     if drill.skipped:
-        notes.append(f"{name}: {drill.skipped} hole(s) given before any tool was selected were left out")
+        notes.append(
+            f"{name}: {drill.skipped} hole(s) given before any tool was selected were left out"
+        )
     if not drill.hole_count:
         notes.append(f"{name}: drill file has no holes")
 
 
-def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_MM, scratch=None, workers=0,
-               per_layer=None):
+def load_board(
+    sources,
+    user_layers=None,
+    chord_tol_mm=shapes.DEFAULT_CHORD_TOL_MM,
+    scratch=None,
+    workers=0,
+    per_layer=None,
+):
     """Read a board (folder, zip or file list) into the board model; copper layers in `workers`
     processes (0: both cores on a large board), each passed to per_layer (when given) in the process
     that built it, for work of later stages that needs one layer only. What makes the model
@@ -958,18 +1168,33 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
                 job = parse_job_file(f, texts[f.name]) or job
                 job_name = f.name
         broken = _broken_files(bf)
-        names = NameRoles([(f.name, f.path) for f in bf.fab if f.kind in ("gerber", "excellon")]
-                          + [(n, Path(n)) for n, _ in broken])
+        names = NameRoles(
+            [(f.name, f.path) for f in bf.fab if f.kind in ("gerber", "excellon")]
+            + [(n, Path(n)) for n, _ in broken]
+        )
         roles, id_notes = identify(bf, texts, job, user_layers, names)
         notes.extend(id_notes)
         user_roles = {k: role_from_user(v) for k, v in (user_layers or {}).items()}
-        stated = {n: r for n, _ in broken if (r := _stated_role(n, user_roles, job_file_roles(job), names))}
-        inners = {int(r.order_key) for r in list(roles.values()) + list(stated.values())
-                  if r.kind == "copper" and r.source == "file name" and r.side == "inner"
-                  and r.order_key is not None and float(r.order_key).is_integer()}
+        stated = {
+            n: r
+            for n, _ in broken
+            if (r := _stated_role(n, user_roles, job_file_roles(job), names))
+        }
+        inners = {
+            int(r.order_key)
+            for r in list(roles.values()) + list(stated.values())
+            if r.kind == "copper"
+            and r.source == "file name"
+            and r.side == "inner"
+            and r.order_key is not None
+            and float(r.order_key).is_integer()
+        }
         copper_roles = number_copper(roles, inners)
         if not copper_roles:
-            raise InputError(bf.source, "no copper layer could be identified (give a [layers] mapping in a stackup file)")
+            raise InputError(
+                bf.source,
+                "no copper layer could be identified (give a [layers] mapping in a stackup file)",
+            )
         by_name = {f.name: f for f in bf.fab}
         positive = [(n, r) for n, r in copper_roles if r.polarity != "negative"]
         negative = [(n, r) for n, r in copper_roles if r.polarity == "negative"]
@@ -979,10 +1204,13 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
             layers.append(layer)
             notes.extend(layer_notes)
             problems.extend(layer_problems)
-        board_outline, outline_file, why = pick_outline(roles, bf, texts, layers, chord_tol_mm, notes, problems)
+        board_outline, outline_file, why = pick_outline(
+            roles, bf, texts, layers, chord_tol_mm, notes, problems
+        )
         if negative:
-            for layer, layer_notes, layer_problems in _copper_layers(by_name, texts, negative, board_outline,
-                                                                     chord_tol_mm, workers, per_layer):
+            for layer, layer_notes, layer_problems in _copper_layers(
+                by_name, texts, negative, board_outline, chord_tol_mm, workers, per_layer
+            ):
                 layers.append(layer)
                 notes.extend(layer_notes)
                 problems.extend(layer_problems)
@@ -990,13 +1218,29 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
         present = {int(c.name[1:]) for c in layers}
         _layer_problems(bf, stated, present, want, problems)
         for k in sorted(set(range(1, max(want | {0: 0}) + 1)) - present):
-            layers.append(CopperLayer(name=f"L{k}", file=f"(missing L{k})", side="inner", missing=True,
-                                      identified_by="placeholder"))
+            layers.append(
+                CopperLayer(
+                    name=f"L{k}",
+                    file=f"(missing L{k})",
+                    side="inner",
+                    missing=True,
+                    identified_by="placeholder",
+                )
+            )
         layers.sort(key=lambda c: int(c.name[1:]))
         _sides(layers)
-        board = Board(name=bf.name, source=bf.source, copper=layers, drills=[], outline=board_outline,
-                      ignored=list(bf.ignored), job=job, job_file=job_name, outline_file=outline_file,
-                      outline_why=why)
+        board = Board(
+            name=bf.name,
+            source=bf.source,
+            copper=layers,
+            drills=[],
+            outline=board_outline,
+            ignored=list(bf.ignored),
+            job=job,
+            job_file=job_name,
+            outline_file=outline_file,
+            outline_why=why,
+        )
         n = len(layers)
         real = [c for c in layers if not c.missing]
         # holes of a correctly read drill file land on the pads of the outer layers
@@ -1007,32 +1251,46 @@ def load_board(sources, user_layers=None, chord_tol_mm=shapes.DEFAULT_CHORD_TOL_
                 f = by_name[name]
                 d, fmt = parse_drill(f, texts[name], region, notes)
                 span, span_source = drill_span(name, role, n, side)
-                drill, unknown = _guarded(name, build_drill, f, d, role, n, texts[name], fmt, span, span_source)
+                drill, unknown = _guarded(
+                    name, build_drill, f, d, role, n, texts[name], fmt, span, span_source
+                )
                 _drill_problems(name, texts[name], drill, notes, problems)
                 if unknown and drill.hole_count:
                     notes.append(f"{name}: plating not stated; holes assumed plated")
-                if span_source.startswith("assumed") and len([r for r in roles.values() if r.kind == "drill"]) > 1:
+                if (
+                    span_source.startswith("assumed")
+                    and len([r for r in roles.values() if r.kind == "drill"]) > 1
+                ):
                     notes.append(f"{name}: no layer span stated; taken as a through hole L1-L{n}")
                 board.drills.append(drill)
             elif role.kind == "other":
-                board.other_files.append({"file": name, "role": role.label, "identified_by": role.source})
+                board.other_files.append(
+                    {"file": name, "role": role.label, "identified_by": role.source}
+                )
         for f in bf.fab:
             if f.kind == "ipc356":
                 board.netlist.extend(parse_netlist(f))
                 board.netlist_file = f.name
-        for l in real:
-            if not len(l.pieces):
-                problems.append(Problem(l.file, f"copper layer {l.name} draws no copper"))
+        for c in real:
+            if not len(c.pieces):
+                problems.append(Problem(c.file, f"copper layer {c.name} draws no copper"))
         if not any(d.hole_count for d in board.drills):
             if n >= 3:
-                problems.append(Problem(bf.source, f"no drill holes on a board of {n} copper layers: vias and "
-                                                   "plated holes would all be missing"))
+                problems.append(
+                    Problem(
+                        bf.source,
+                        f"no drill holes on a board of {n} copper layers: vias and "
+                        "plated holes would all be missing",
+                    )
+                )
             elif n == 2:
                 notes.append("no drill holes: the two copper layers are taken as joined nowhere")
         for note in notes:
             board.assume(note)
-        for l in real:
-            if l.identified_by == "file name":
-                board.assume(f"{l.file}: identified as copper {l.name} ({l.side}) from its file name only")
+        for c in real:
+            if c.identified_by == "file name":
+                board.assume(
+                    f"{c.file}: identified as copper {c.name} ({c.side}) from its file name only"
+                )
         board.problems = problems
         return board

@@ -17,21 +17,47 @@ from . import drillspans
 from .errors import InputError
 
 MAX_MEMBERS = 5000
-MAX_TOTAL_BYTES = 1 << 30      # expanded size of one archive
-MAX_RATIO = 200                # expanded / compressed, per member
+MAX_TOTAL_BYTES = 1 << 30  # expanded size of one archive
+MAX_RATIO = 200  # expanded / compressed, per member
 SNIFF_BYTES = 65536
 
 JUNK_NAMES = {".ds_store", "thumbs.db", "desktop.ini"}
-NON_FAB_SUFFIXES = {".pdf", ".png", ".jpg", ".jpeg", ".bmp", ".svg", ".csv", ".xls", ".xlsx", ".doc",
-                    ".docx", ".html", ".htm", ".md", ".pos", ".step", ".stp", ".kicad_pcb", ".sch",
-                    ".brd", ".zip", ".7z", ".rar", ".py", ".json_", ".log", ".toml"}
+NON_FAB_SUFFIXES = {
+    ".pdf",
+    ".png",
+    ".jpg",
+    ".jpeg",
+    ".bmp",
+    ".svg",
+    ".csv",
+    ".xls",
+    ".xlsx",
+    ".doc",
+    ".docx",
+    ".html",
+    ".htm",
+    ".md",
+    ".pos",
+    ".step",
+    ".stp",
+    ".kicad_pcb",
+    ".sch",
+    ".brd",
+    ".zip",
+    ".7z",
+    ".rar",
+    ".py",
+    ".json_",
+    ".log",
+    ".toml",
+}
 
 
 @dataclass
 class FabFile:
-    name: str          # path relative to the board root, for messages and reports
-    path: Path         # where it can be read
-    kind: str          # gerber | excellon | job | ipc356 | layerpairs | drillreport
+    name: str  # path relative to the board root, for messages and reports
+    path: Path  # where it can be read
+    kind: str  # gerber | excellon | job | ipc356 | layerpairs | drillreport
 
 
 def _safe_member_name(info):
@@ -47,7 +73,7 @@ def unpack_zip(archive, dest):
     try:
         zf = zipfile.ZipFile(archive)
     except (zipfile.BadZipFile, OSError, ValueError) as e:
-        raise InputError(archive, f"not a readable zip archive ({e})")
+        raise InputError(archive, f"not a readable zip archive ({e})") from None
     with zf:
         infos = zf.infolist()
         if len(infos) > MAX_MEMBERS:
@@ -56,7 +82,10 @@ def unpack_zip(archive, dest):
         for info in infos:
             name = _safe_member_name(info)
             if name is None:
-                raise InputError(archive, f"unsafe member path {info.filename!r} (absolute or outside the archive)")
+                raise InputError(
+                    archive,
+                    f"unsafe member path {info.filename!r} (absolute or outside the archive)",
+                )
             if info.flag_bits & 0x1:
                 raise InputError(archive, f"encrypted member {info.filename!r}")
             mode = (info.external_attr >> 16) & 0o170000
@@ -64,10 +93,19 @@ def unpack_zip(archive, dest):
                 raise InputError(archive, f"symbolic link member {info.filename!r}")
             total += info.file_size
             if total > MAX_TOTAL_BYTES:
-                raise InputError(archive, f"expands beyond {MAX_TOTAL_BYTES >> 20} MiB (possible zip bomb)")
-            if info.compress_size and info.file_size / info.compress_size > MAX_RATIO and info.file_size > (1 << 20):
-                raise InputError(archive, f"member {info.filename!r} compresses {info.file_size // info.compress_size}:1"
-                                          " (possible zip bomb)")
+                raise InputError(
+                    archive, f"expands beyond {MAX_TOTAL_BYTES >> 20} MiB (possible zip bomb)"
+                )
+            if (
+                info.compress_size
+                and info.file_size / info.compress_size > MAX_RATIO
+                and info.file_size > (1 << 20)
+            ):
+                raise InputError(
+                    archive,
+                    f"member {info.filename!r} compresses {info.file_size // info.compress_size}:1"
+                    " (possible zip bomb)",
+                )
         root = Path(dest).resolve()
         for info in infos:
             if info.is_dir():
@@ -82,18 +120,23 @@ def unpack_zip(archive, dest):
                     while chunk := src.read(1 << 20):
                         written += len(chunk)
                         if written > info.file_size + 1024:
-                            raise InputError(archive, f"member {info.filename!r} is larger than its header says")
+                            raise InputError(
+                                archive, f"member {info.filename!r} is larger than its header says"
+                            )
                         out.write(chunk)
             except (zipfile.BadZipFile, EOFError, OSError, ValueError, NotImplementedError) as e:
-                raise InputError(archive, f"member {info.filename!r} is corrupt ({e})")
+                raise InputError(archive, f"member {info.filename!r} is corrupt ({e})") from None
     return dest
 
 
 def is_fab_candidate(path):
     """Not ignored by name (metadata, documents) before its content is looked at."""
     name = path.name.lower()
-    return not (name in JUNK_NAMES or name.startswith("._") or
-                (path.suffix.lower() in NON_FAB_SUFFIXES and path.suffix.lower() != ".gbrjob"))
+    return not (
+        name in JUNK_NAMES
+        or name.startswith("._")
+        or (path.suffix.lower() in NON_FAB_SUFFIXES and path.suffix.lower() != ".gbrjob")
+    )
 
 
 def sniff(path):
@@ -107,21 +150,29 @@ def sniff(path):
         return None
     text = head.decode("latin-1")
     stripped = text.lstrip("\ufeff \t\r\n")
-    if stripped.startswith("{") and ('"FilesAttributes"' in text or '"GeneralSpecs"' in text or '"Header"' in text):
+    if stripped.startswith("{") and (
+        '"FilesAttributes"' in text or '"GeneralSpecs"' in text or '"Header"' in text
+    ):
         return "job"
     if "%TF.FileFunction,JobInfo" in text:
         return "job"
-    if re.search(r"^P\s+UNITS\s+CUST|^P\s+JOB\b", text, re.M) and re.search(r"^3[0-9]{2}", text, re.M):
+    if re.search(r"^P\s+UNITS\s+CUST|^P\s+JOB\b", text, re.M) and re.search(
+        r"^3[0-9]{2}", text, re.M
+    ):
         return "ipc356"
-    if re.search(r"^\s*(?:G0?4[^\n]*\*\s*)?%FS[LTD]?[AI]?X\d\dY\d\d", text, re.M) or \
-            re.search(r"^\s*%MO(MM|IN)\*%", text, re.M):
+    if re.search(r"^\s*(?:G0?4[^\n]*\*\s*)?%FS[LTD]?[AI]?X\d\dY\d\d", text, re.M) or re.search(
+        r"^\s*%MO(MM|IN)\*%", text, re.M
+    ):
         return "gerber"
-    if re.search(r"^\s*M48\s*$", text, re.M) or (re.search(r"^(METRIC|INCH)\b", text, re.M)
-                                                 and re.search(r"^T\d+C[\d.]+", text, re.M)):
+    if re.search(r"^\s*M48\s*$", text, re.M) or (
+        re.search(r"^(METRIC|INCH)\b", text, re.M) and re.search(r"^T\d+C[\d.]+", text, re.M)
+    ):
         return "excellon"
     if re.search(r"^G04 .*\*\s*$", text, re.M) and re.search(r"D0?[123]\*", text):
         return "gerber"
-    if re.search(r"^T\d+\s*$", text, re.M) and re.search(r"^X[+-]?[\d.]+Y[+-]?[\d.]+\s*$", text, re.M):
+    if re.search(r"^T\d+\s*$", text, re.M) and re.search(
+        r"^X[+-]?[\d.]+Y[+-]?[\d.]+\s*$", text, re.M
+    ):
         return "excellon-headerless"
     if drillspans.is_layer_pairs(text):
         return "layerpairs"
@@ -151,7 +202,9 @@ class BoardFiles:
         self._tmp = None
         self.fab = []
         self.ignored = []
-        sources = [Path(s) for s in ([sources] if isinstance(sources, (str, os.PathLike)) else sources)]
+        sources = [
+            Path(s) for s in ([sources] if isinstance(sources, (str, os.PathLike)) else sources)
+        ]
         if not sources:
             raise InputError("<board>", "no input given")
         if len(sources) == 1 and sources[0].is_dir():
@@ -200,11 +253,16 @@ class BoardFiles:
             self.ignored.append({"file": rel, "reason": "symbolic link not followed"})
             return
         if path.suffix.lower() in NON_FAB_SUFFIXES and path.suffix.lower() != ".gbrjob":
-            self.ignored.append({"file": rel, "reason": f"not fabrication data ({path.suffix.lower()})"})
+            self.ignored.append(
+                {"file": rel, "reason": f"not fabrication data ({path.suffix.lower()})"}
+            )
             return
         kind = sniff(path)
         if kind == "excellon-headerless":
-            raise InputError(rel, "drill file has no M48 header: its units, number format and tool sizes are unknown")
+            raise InputError(
+                rel,
+                "drill file has no M48 header: its units, number format and tool sizes are unknown",
+            )
         if kind is None:
             self.ignored.append({"file": rel, "reason": why_not(path)})
             return

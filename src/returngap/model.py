@@ -8,32 +8,34 @@ import shapely
 
 @dataclass
 class CopperLayer:
-    """One copper layer: its copper as pieces (overlapping shapes, never unioned here: a union of every
+    """One copper layer: its copper as pieces (overlapping shapes, never unioned here: a union of
+    every
     track is the one cost that does not scale) plus the drawn objects that later stages need."""
 
-    name: str                 # "L1" .. "Ln", top to bottom
+    name: str  # "L1" .. "Ln", top to bottom
     file: str
-    side: str                 # top | inner | bottom
+    side: str  # top | inner | bottom
     polarity: str = "positive"
-    type_hint: str | None = None      # Signal | Plane | Mixed | Hatched, when the file says
+    type_hint: str | None = None  # Signal | Plane | Mixed | Hatched, when the file says
     identified_by: str = ""
-    # shapely Polygons that together make the copper: the parts of everything a later clear object cut
+    # shapely Polygons that together make the copper: the parts of everything a later clear
+    # object cut
     # (resolved in file order), then each dark object drawn after the last clear one, as drawn
     pieces: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=object))
     # dark strokes as centre-line segments: columns x1, y1, x2, y2, width (mm)
     segments: np.ndarray = field(default_factory=lambda: np.zeros((0, 5)))
-    segment_net: list = field(default_factory=list)       # str or None per segment
+    segment_net: list = field(default_factory=list)  # str or None per segment
     segment_function: list = field(default_factory=list)  # .AperFunction or None
     # dark flashes: columns x, y, size (mm)
     flashes: np.ndarray = field(default_factory=lambda: np.zeros((0, 3)))
     flash_net: list = field(default_factory=list)
     flash_function: list = field(default_factory=list)
-    flash_part: list = field(default_factory=list)        # (refdes, pin) or None
+    flash_part: list = field(default_factory=list)  # (refdes, pin) or None
     # dark regions: (polygon, net, function)
     regions: list = field(default_factory=list)
     repaired_regions: int = 0
     skipped_objects: int = 0
-    missing: bool = False             # a placeholder for a layer whose file is absent or unreadable
+    missing: bool = False  # a placeholder for a layer whose file is absent or unreadable
 
     @property
     def index(self):
@@ -41,7 +43,8 @@ class CopperLayer:
 
     @property
     def geometry(self):
-        """The copper as one (Multi)Polygon: a union, so only for pictures, cross-checks and small boards."""
+        """The copper as one (Multi)Polygon: a union, so only for pictures, cross-checks and small
+        boards."""
         if getattr(self, "_geometry", None) is None:
             parts = [p for p in self.pieces if p is not None and not p.is_empty]
             self._geometry = shapely.union_all(parts) if parts else shapely.Polygon()
@@ -52,11 +55,17 @@ class CopperLayer:
         if not len(self.pieces):
             return None
         b = shapely.bounds(self.pieces)
-        return float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max())
+        return (
+            float(b[:, 0].min()),
+            float(b[:, 1].min()),
+            float(b[:, 2].max()),
+            float(b[:, 3].max()),
+        )
 
     @property
     def copper_area_mm2(self):
-        # from connectivity's islands when it has run (exact, without a whole-layer union); else the union
+        # from connectivity's islands when it has run (exact, without a whole-layer
+        # union); else the union
         if getattr(self, "_area", None) is None:
             of = getattr(self, "_area_of", None)
             self._area = float(of().sum()) if of is not None else float(self.geometry.area)
@@ -69,16 +78,16 @@ class CopperLayer:
 @dataclass
 class DrillFile:
     file: str
-    plated: bool | None       # every hole plated / none plated / None: mixed (see hole_plated)
-    from_layer: int           # 1-based copper layer numbers
+    plated: bool | None  # every hole plated / none plated / None: mixed (see hole_plated)
+    from_layer: int  # 1-based copper layer numbers
     to_layer: int
-    holes: np.ndarray = field(default_factory=lambda: np.zeros((0, 3)))    # x, y, diameter
-    slots: np.ndarray = field(default_factory=lambda: np.zeros((0, 5)))    # x1, y1, x2, y2, width
-    hole_is_via: list = field(default_factory=list)   # True / False / None per hole
+    holes: np.ndarray = field(default_factory=lambda: np.zeros((0, 3)))  # x, y, diameter
+    slots: np.ndarray = field(default_factory=lambda: np.zeros((0, 5)))  # x1, y1, x2, y2, width
+    hole_is_via: list = field(default_factory=list)  # True / False / None per hole
     hole_plated: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=bool))
     slot_plated: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=bool))
     identified_by: str = ""
-    span_source: str = ""     # where the layer span came from
+    span_source: str = ""  # where the layer span came from
     plating_source: str = ""  # where the plating came from
     number_format: str = ""
     skipped: int = 0
@@ -94,7 +103,7 @@ class DrillFile:
 
 @dataclass
 class Dielectric:
-    between: tuple            # ("L1", "L2")
+    between: tuple  # ("L1", "L2")
     thickness_mm: float
     er: float
     source: str = ""
@@ -102,7 +111,7 @@ class Dielectric:
 
 @dataclass
 class Stackup:
-    dielectrics: list         # top to bottom, one between each pair of neighbouring copper layers
+    dielectrics: list  # top to bottom, one between each pair of neighbouring copper layers
     copper_thickness_mm: dict  # layer name -> thickness
     board_thickness_mm: float
     source: str = ""
@@ -137,7 +146,7 @@ class NetPoint:
     refdes: str | None
     pin: str | None
     is_via: bool
-    layers: tuple | None      # (k, k): reached from layer k only (IPC access side); None: both sides
+    layers: tuple | None  # (k, k): reached from layer k only (IPC access side); None: both sides
 
 
 @dataclass
@@ -157,20 +166,20 @@ class Problem:
 class Board:
     name: str
     source: str
-    copper: list              # CopperLayer, top to bottom
-    drills: list              # DrillFile
-    outline: object           # shapely Polygon of the board profile
+    copper: list  # CopperLayer, top to bottom
+    drills: list  # DrillFile
+    outline: object  # shapely Polygon of the board profile
     stackup: Stackup | None = None
-    netlist: list = field(default_factory=list)   # NetPoint
+    netlist: list = field(default_factory=list)  # NetPoint
     assumptions: list = field(default_factory=list)
-    ignored: list = field(default_factory=list)   # {"file", "reason"}
+    ignored: list = field(default_factory=list)  # {"file", "reason"}
     other_files: list = field(default_factory=list)  # recognised but unused here (mask, silk, ...)
-    problems: list = field(default_factory=list)     # Problem: what makes this model incomplete
-    job: dict = field(default_factory=dict)          # the job file's JSON, when there is one
+    problems: list = field(default_factory=list)  # Problem: what makes this model incomplete
+    job: dict = field(default_factory=dict)  # the job file's JSON, when there is one
     job_file: str | None = None
     netlist_file: str | None = None
-    outline_file: str | None = None                  # the file the outline came from (None: the copper)
-    outline_why: str = ""                            # why that outline was taken
+    outline_file: str | None = None  # the file the outline came from (None: the copper)
+    outline_why: str = ""  # why that outline was taken
 
     def layer(self, name):
         for c in self.copper:

@@ -19,11 +19,11 @@ from . import shapes
 
 __all__ = ["CopperSample", "Loops", "OutlineChoice", "choose", "loops_of", "copper_sample", "fit"]
 
-WELD_MM = 0.005          # stroke ends closer than this are one point (writers round differently)
-MIN_CONTAINED = 0.95     # share of the copper area an outline must hold (our own judgement, no source)
-DRAWING_RANK = 5         # candidates of this rank are mechanical drawing layers, not named as the outline
-NEAR_BEST = 0.005        # a loop within this share of the best-holding loop holds "all" the copper (same)
-MAX_AREA_RATIO = 3.0     # outline area / extent of the copper inside it (our own judgement, no source)
+WELD_MM = 0.005  # stroke ends closer than this are one point (writers round differently)
+MIN_CONTAINED = 0.95  # share of the copper area an outline must hold (our own judgement, no source)
+DRAWING_RANK = 5  # candidates of this rank are mechanical drawing layers, not named as the outline
+NEAR_BEST = 0.005  # a loop within this share of the best-holding loop holds "all" the copper (same)
+MAX_AREA_RATIO = 3.0  # outline area / extent of the copper inside it (our own judgement, no source)
 
 
 @dataclass
@@ -52,19 +52,25 @@ class CopperSample:
 
 
 def copper_sample(layers):
-    pieces = np.concatenate([c.pieces for c in layers if len(c.pieces)] or [np.zeros(0, dtype=object)])
+    pieces = np.concatenate(
+        [c.pieces for c in layers if len(c.pieces)] or [np.zeros(0, dtype=object)]
+    )
     if not len(pieces):
         return CopperSample(np.zeros((0, 2)), np.zeros(0), np.zeros((0, 4)), pieces)
-    return CopperSample(shapely.get_coordinates(shapely.point_on_surface(pieces)), shapely.area(pieces),
-                        shapely.bounds(pieces), pieces)
+    return CopperSample(
+        shapely.get_coordinates(shapely.point_on_surface(pieces)),
+        shapely.area(pieces),
+        shapely.bounds(pieces),
+        pieces,
+    )
 
 
 @dataclass
 class Loops:
     """The closed figures drawn in one file."""
 
-    faces: list          # polygons between the noded strokes (holes included, as faces of their own)
-    figures: list        # each connected figure's filled outer ring
+    faces: list  # polygons between the noded strokes (holes included, as faces of their own)
+    figures: list  # each connected figure's filled outer ring
 
 
 def _strokes(g, tol):
@@ -75,8 +81,18 @@ def _strokes(g, tol):
             out.append([(obj.x1 * k, obj.y1 * k), (obj.x2 * k, obj.y2 * k)])
         elif isinstance(obj, go.Arc):
             c = obj.center
-            out.append(shapes.arc_points(obj.x1 * k, obj.y1 * k, obj.x2 * k, obj.y2 * k, c[0] * k, c[1] * k,
-                                         obj.clockwise, tol))
+            out.append(
+                shapes.arc_points(
+                    obj.x1 * k,
+                    obj.y1 * k,
+                    obj.x2 * k,
+                    obj.y2 * k,
+                    c[0] * k,
+                    c[1] * k,
+                    obj.clockwise,
+                    tol,
+                )
+            )
         elif isinstance(obj, go.Region):
             pts = shapes.ring_points(obj.outline, obj.arc_centers or [], tol, k)
             if len(pts) > 2:
@@ -98,6 +114,7 @@ def _weld(strokes):
             parent[i] = parent[parent[i]]
             i = parent[i]
         return i
+
     for i, j in zip(a.tolist(), b.tolist()):
         ri, rj = root(i), root(j)
         if ri != rj:
@@ -123,11 +140,15 @@ def loops_of(g, tol):
     lines = lines[shapely.length(lines) > 0]
     # snap-rounding on a 1 um grid nodes the strokes, T-junctions included
     noded = shapely.union_all(lines, grid_size=0.001)
-    faces = [p for p in shapely.get_parts(shapely.polygonize(shapely.get_parts(noded))) if p.area > 1e-6]
+    faces = [
+        p for p in shapely.get_parts(shapely.polygonize(shapely.get_parts(noded))) if p.area > 1e-6
+    ]
     if not faces:
         return None
     merged = shapely.union_all(faces, grid_size=0.001)
-    figures = [shapely.Polygon(p.exterior) for p in shapely.get_parts(merged) if p.geom_type == "Polygon"]
+    figures = [
+        shapely.Polygon(p.exterior) for p in shapely.get_parts(merged) if p.geom_type == "Polygon"
+    ]
     return Loops(faces, figures)
 
 
@@ -153,8 +174,12 @@ def _cutouts(shell, loops_list, sample):
     """Faces inside the shell with no copper of any layer at their interior point: cut-outs. (A face
     inside a cut-out is board again and holds copper; a part outline drawn over a plane holds the
     plane's copper: both stay.)"""
-    faces = [f for loops in loops_list for f in loops.faces
-             if f.area < shell.area * 0.999 and shell.contains(f.representative_point())]
+    faces = [
+        f
+        for loops in loops_list
+        for f in loops.faces
+        if f.area < shell.area * 0.999 and shell.contains(f.representative_point())
+    ]
     if not faces:
         return []
     pts = shapely.point_on_surface(np.array(faces, dtype=object))
@@ -163,7 +188,11 @@ def _cutouts(shell, loops_list, sample):
 
 def _faces_inside(loops, shell):
     pts = shapely.point_on_surface(np.array(loops.faces, dtype=object))
-    return int(shapely.contains_xy(shell, shapely.get_coordinates(pts)[:, 0], shapely.get_coordinates(pts)[:, 1]).sum())
+    return int(
+        shapely.contains_xy(
+            shell, shapely.get_coordinates(pts)[:, 0], shapely.get_coordinates(pts)[:, 1]
+        ).sum()
+    )
 
 
 @dataclass
@@ -202,14 +231,17 @@ def choose(candidates, sample):
     # source, then the plainest drawing (fewest faces inside the loop: part outlines, notes)
     same = [f for f in fits if f[0] <= smallest * 1.005]
     loops_of_file = {n: lp for n, lp, _, _ in candidates}
-    _, _, _, name, shell, share, ratio = min(same, key=lambda f: (
-        f[1], _faces_inside(loops_of_file[f[3]], f[4]), f[0], f[3]))
+    _, _, _, name, shell, share, ratio = min(
+        same, key=lambda f: (f[1], _faces_inside(loops_of_file[f[3]], f[4]), f[0], f[3])
+    )
     rank = min(r for n, _, r, _ in candidates if n == name)
     same_file = [lp for n, lp, _, _ in candidates if n == name]
     # a drawing layer's empty faces are part outlines and keep-outs as often as cut-outs
     cuts = _cutouts(shell, same_file, sample) if rank <= DRAWING_RANK - 1 else []
     poly = shell.difference(shapely.union_all(cuts)) if cuts else shell
-    why = (f"the smallest closed loop holding {share:.1%} of the copper"
-           + (f", {len(cuts)} cut-out(s)" if cuts else "")
-           + ("; a drawing layer, so no cut-outs taken from it" if rank >= DRAWING_RANK else ""))
+    why = (
+        f"the smallest closed loop holding {share:.1%} of the copper"
+        + (f", {len(cuts)} cut-out(s)" if cuts else "")
+        + ("; a drawing layer, so no cut-outs taken from it" if rank >= DRAWING_RANK else "")
+    )
     return OutlineChoice(poly, name, why, share, ratio)

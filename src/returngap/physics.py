@@ -8,16 +8,18 @@ import math
 
 import numpy as np
 
-C_MM_PER_NS = 299.792458          # speed of light
-MU0_NH_PER_MM = 0.4 * math.pi     # 4*pi*1e-7 H/m = 0.4*pi nH/mm
+C_MM_PER_NS = 299.792458  # speed of light
+MU0_NH_PER_MM = 0.4 * math.pi  # 4*pi*1e-7 H/m = 0.4*pi nH/mm
 ETA0_OHM = 376.730313
 
 
 # --- return-current distribution -------------------------------------------------------
 
+
 def microstrip_fraction_within(k):
     """Share of a microstrip's return current within +-k*h of the trace centre: (2/pi)*atan(k).
-    Filament over an infinite plane; Johnson & Graham, High-Speed Digital Design (1993), sec. 5.1."""
+    Filament over an infinite plane; Johnson & Graham, High-Speed Digital Design (1993), sec.
+    5.1."""
     return 2.0 / math.pi * math.atan(k)
 
 
@@ -57,8 +59,12 @@ def microstrip_fraction_between(x1_mm, x2_mm, width_mm, h_mm):
         v = (np.arctan2(x2, h_mm) - np.arctan2(x1, h_mm)) / math.pi
     else:
         a = width_mm / 2.0
-        v = (_prim_atan(x2 + a, h_mm) - _prim_atan(x1 + a, h_mm)
-             - _prim_atan(x2 - a, h_mm) + _prim_atan(x1 - a, h_mm)) / (math.pi * width_mm)
+        v = (
+            _prim_atan(x2 + a, h_mm)
+            - _prim_atan(x1 + a, h_mm)
+            - _prim_atan(x2 - a, h_mm)
+            + _prim_atan(x1 - a, h_mm)
+        ) / (math.pi * width_mm)
     return _scalar_or_array(np.where(x2 > x1, v, 0.0))
 
 
@@ -73,6 +79,7 @@ def stripline_fraction_between(x1_mm, x2_mm, h_self_mm, h_other_mm):
 
     def prim(x):
         return np.arctan(np.tanh(math.pi * x / b / 2.0) / t) / math.pi
+
     return _scalar_or_array(np.where(x2 > x1, prim(x2) - prim(x1), 0.0))
 
 
@@ -89,13 +96,18 @@ def stripline_halfwidth_for_fraction(fraction, h_self_mm, h_other_mm):
 
 # --- transmission lines ------------------------------------------------------------------
 
+
 def _hj_z01(u):
     f = 6.0 + (2.0 * math.pi - 6.0) * math.exp(-((30.666 / u) ** 0.7528))
     return ETA0_OHM / (2.0 * math.pi) * math.log(f / u + math.sqrt(1.0 + (2.0 / u) ** 2))
 
 
 def _hj_eeff(u, er):
-    a = 1.0 + math.log((u ** 4 + (u / 52.0) ** 2) / (u ** 4 + 0.432)) / 49.0 + math.log(1.0 + (u / 18.1) ** 3) / 18.7
+    a = (
+        1.0
+        + math.log((u**4 + (u / 52.0) ** 2) / (u**4 + 0.432)) / 49.0
+        + math.log(1.0 + (u / 18.1) ** 3) / 18.7
+    )
     b = 0.564 * ((er - 0.9) / (er + 3.0)) ** 0.053
     return (er + 1.0) / 2.0 + (er - 1.0) / 2.0 * (1.0 + 10.0 / u) ** (-a * b)
 
@@ -128,13 +140,15 @@ def _agm(a, b):
 
 
 def ellipk_c(kc):
-    """K(k) from the complementary modulus kc = sqrt(1 - k^2): pi / (2 * AGM(1, kc)). Given kc directly,
+    """K(k) from the complementary modulus kc = sqrt(1 - k^2): pi / (2 * AGM(1, kc)). Given kc
+    directly,
     it stays accurate where k is within rounding of 1."""
     return math.inf if kc <= 0 else math.pi / (2.0 * _agm(1.0, kc))
 
 
 def ellipk(k):
-    """Complete elliptic integral of the first kind K(k) (modulus k), by the arithmetic-geometric mean."""
+    """Complete elliptic integral of the first kind K(k) (modulus k), by the arithmetic-geometric
+    mean."""
     return ellipk_c(math.sqrt(max(0.0, 1.0 - k * k)))
 
 
@@ -143,18 +157,23 @@ def stripline_z0(width_mm, b_mm, er):
     Z0 = (30*pi/sqrt(er)) * K(k)/K(k'), k = sech(pi*w/2b). Cohn, IRE Trans. MTT 2, 1954."""
     x = math.pi * width_mm / (2.0 * b_mm)
     sech = 1.0 / math.cosh(x) if x < 700 else 0.0
-    # K(k) / K(k') with k = sech x, k' = tanh x; each from its complement (tanh x, sech x) for accuracy
+    # K(k) / K(k') with k = sech x, k' = tanh x; each from its complement (tanh x, sech x) for
+    # accuracy
     if sech == 0.0:
-        return 30.0 * math.pi / math.sqrt(er) * (math.pi / 2) / (x + math.log(2.0))  # wide-strip limit
+        return (
+            30.0 * math.pi / math.sqrt(er) * (math.pi / 2) / (x + math.log(2.0))
+        )  # wide-strip limit
     return 30.0 * math.pi / math.sqrt(er) * ellipk_c(math.tanh(x)) / ellipk_c(sech)
 
 
 def line_inductance_nH_per_mm(z0_ohm, eeff):
-    """Loop inductance per length of a TEM line: L' = Z0*sqrt(eeff)/c (definition of line parameters)."""
+    """Loop inductance per length of a TEM line: L' = Z0*sqrt(eeff)/c (definition of line
+    parameters)."""
     return z0_ohm * math.sqrt(eeff) / C_MM_PER_NS
 
 
 # --- slots and splits ----------------------------------------------------------------------
+
 
 def hsdd_slot_inductance_nH(slot_length_mm, trace_width_mm):
     """Handbook slot estimate L = 5 * D * ln(D/W) nH, D and W in inches (D = length the return
@@ -211,8 +230,10 @@ def slot_resonance_GHz(slot_length_mm, eeff, open_at_one_end=False):
 
 # --- frequency, reflection ------------------------------------------------------------------
 
+
 def knee_frequency_GHz(rise_time_ns):
-    """F_knee = 0.5 / T_r (10-90 % rise time). Johnson & Graham, High-Speed Digital Design, sec. 1.1."""
+    """F_knee = 0.5 / T_r (10-90 % rise time). Johnson & Graham, High-Speed Digital Design, sec.
+    1.1."""
     return 0.5 / rise_time_ns
 
 
@@ -233,6 +254,7 @@ def wavelength_mm(freq_GHz, eeff):
 
 
 # --- vias, edges, islands ------------------------------------------------------------------
+
 
 def via_pair_inductance_nH(length_mm, spacing_mm, radius_mm):
     """Loop inductance of a signal via and its return via: (mu0*h/pi) * acosh(s/(2r)), the two-wire
@@ -255,7 +277,13 @@ def patch_resonance_GHz(length_mm, width_mm, h_mm, er, tied_at_one_end=False):
     extension dL after Hammerstad 1975 (Balanis, Antenna Theory, 3rd ed., sec. 14.2; from memory).
     Half that frequency when the island is tied to the plane at one end."""
     e = (er + 1) / 2 + (er - 1) / 2 * (1 + 12 * h_mm / width_mm) ** -0.5
-    dl = 0.412 * h_mm * (e + 0.3) * (width_mm / h_mm + 0.264) / ((e - 0.258) * (width_mm / h_mm + 0.8))
+    dl = (
+        0.412
+        * h_mm
+        * (e + 0.3)
+        * (width_mm / h_mm + 0.264)
+        / ((e - 0.258) * (width_mm / h_mm + 0.8))
+    )
     f = C_MM_PER_NS / (2 * (length_mm + 2 * dl) * math.sqrt(e))
     return f / 2 if tied_at_one_end else f
 
@@ -274,8 +302,8 @@ def copper_resistance_ohm(length_mm, width_mm, thickness_mm, resistivity_ohm_m=1
 def wire_partial_inductance_nH(length_mm, radius_mm):
     """Partial self-inductance of a straight conductor, high-frequency form (no internal term):
     (mu0/2pi) * [l*ln((l + sqrt(l^2 + r^2))/r) - sqrt(l^2 + r^2) + r] (Rosa 1908; Grover 1946)."""
-    l, r = length_mm, radius_mm
-    if l <= 0 or r <= 0:
+    ln, r = length_mm, radius_mm
+    if ln <= 0 or r <= 0:
         return 0.0
-    q = math.sqrt(l * l + r * r)
-    return MU0_NH_PER_MM / (2 * math.pi) * (l * math.log((l + q) / r) - q + r)
+    q = math.sqrt(ln * ln + r * r)
+    return MU0_NH_PER_MM / (2 * math.pi) * (ln * math.log((ln + q) / r) - q + r)

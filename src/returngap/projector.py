@@ -8,7 +8,6 @@ return current (REFERENCE: 1/(1+(x/h)^2) for microstrip, the two-plate law for s
 """
 
 import fnmatch
-import math
 from collections import defaultdict
 from collections.abc import Mapping
 from dataclasses import dataclass
@@ -18,30 +17,57 @@ import shapely
 
 from . import physics
 
-NON_TRACK_FUNCTIONS = {"NonConductor", "Profile", "Material", "NonMaterial", "Other", "Drawing", "Border",
-                       "CopperBalancing", "EtchedComponent"}
+NON_TRACK_FUNCTIONS = {
+    "NonConductor",
+    "Profile",
+    "Material",
+    "NonMaterial",
+    "Other",
+    "Drawing",
+    "Border",
+    "CopperBalancing",
+    "EtchedComponent",
+}
 
 
 @dataclass
 class Settings:
     """Check settings; defaults cite a source or say 'common practice, no source'."""
 
-    rise_time_ns: float = 0.5          # a fast CMOS edge (common practice, no source)
+    rise_time_ns: float = 0.5  # a fast CMOS edge (common practice, no source)
     max_freq_GHz: float | None = None  # when given, overrides the rise time: T_r = 0.5 / f
-    current_fraction: float = 0.90     # share of the return current the footprint holds (REFERENCE sec. 1.4)
-    reflection_budget: float = 0.10    # 10 % reflection noise (Bogatin, from memory)
-    min_interrupted_fraction: float = 0.10  # smaller interruptions are not reported (common practice, no source)
-    min_detour_mm: float = 1.0         # crossings with a shorter detour (and no split) are not reported (same)
-    min_gap_length_mm: float = 2.0     # single via antipads beside or under a track are not reported (common practice, no source)
-    slot_aspect_ratio: float = 3.0     # elongated beyond this: a slot, else a void (common practice, no source)
-    plane_min_fraction: float = 0.20   # a layer whose plane-net copper covers this share of the board is a reference
-    nets: tuple = ()                   # glob patterns; empty = every signal net
-    workers: int = 0                   # processes for import and gap scan: 0 = both cores on a large board, 1 = one
-    allow_incomplete: bool = False     # state the completeness gate's problems instead of refusing the board
+    current_fraction: float = (
+        0.90  # share of the return current the footprint holds (REFERENCE sec. 1.4)
+    )
+    reflection_budget: float = 0.10  # 10 % reflection noise (Bogatin, from memory)
+    min_interrupted_fraction: float = (
+        0.10  # smaller interruptions are not reported (common practice, no source)
+    )
+    min_detour_mm: float = (
+        1.0  # crossings with a shorter detour (and no split) are not reported (same)
+    )
+    # single via antipads beside or under a track are not reported (common practice, no
+    # source)
+    min_gap_length_mm: float = 2.0
+    slot_aspect_ratio: float = (
+        3.0  # elongated beyond this: a slot, else a void (common practice, no source)
+    )
+    plane_min_fraction: float = (
+        0.20  # a layer whose plane-net copper covers this share of the board is a reference
+    )
+    nets: tuple = ()  # glob patterns; empty = every signal net
+    workers: int = 0  # processes for import and gap scan: 0 = both cores on a large board, 1 = one
+    allow_incomplete: bool = (
+        False  # state the completeness gate's problems instead of refusing the board
+    )
 
     @property
     def rise_ns(self):
-        return physics.rise_time_for_knee_ns(self.max_freq_GHz) if self.max_freq_GHz else self.rise_time_ns
+        return (
+            physics.rise_time_for_knee_ns(self.max_freq_GHz)
+            if self.max_freq_GHz
+            else self.rise_time_ns
+        )
 
     @property
     def knee_GHz(self):
@@ -49,11 +75,16 @@ class Settings:
 
     def as_dict(self):
         return {
-            "rise_time_ns": round(self.rise_ns, 6), "knee_frequency_GHz": round(self.knee_GHz, 6),
-            "current_fraction": self.current_fraction, "reflection_budget": self.reflection_budget,
-            "min_interrupted_fraction": self.min_interrupted_fraction, "min_detour_mm": self.min_detour_mm,
-            "min_gap_length_mm": self.min_gap_length_mm, "slot_aspect_ratio": self.slot_aspect_ratio,
-            "plane_min_fraction": self.plane_min_fraction, "nets": list(self.nets),
+            "rise_time_ns": round(self.rise_ns, 6),
+            "knee_frequency_GHz": round(self.knee_GHz, 6),
+            "current_fraction": self.current_fraction,
+            "reflection_budget": self.reflection_budget,
+            "min_interrupted_fraction": self.min_interrupted_fraction,
+            "min_detour_mm": self.min_detour_mm,
+            "min_gap_length_mm": self.min_gap_length_mm,
+            "slot_aspect_ratio": self.slot_aspect_ratio,
+            "plane_min_fraction": self.plane_min_fraction,
+            "nets": list(self.nets),
             "allow_incomplete": self.allow_incomplete,
         }
 
@@ -61,13 +92,13 @@ class Settings:
 @dataclass
 class Reference:
     layer: str
-    h_mm: float                 # dielectric height from the signal layer to this plane
-    other_h_mm: float | None    # stripline: height to the other plane
-    share: float                # share of the return current on this plane
-    er: float                   # dielectric between signal and plane
+    h_mm: float  # dielectric height from the signal layer to this plane
+    other_h_mm: float | None  # stripline: height to the other plane
+    share: float  # share of the return current on this plane
+    er: float  # dielectric between signal and plane
     plane_is_outer: bool
-    plane_er_eff: float         # for slot resonance: er buried, (er+1)/2 on an outer layer
-    plane_er_full: float        # the substrate's own er: the conservative (lowest-frequency) bound
+    plane_er_eff: float  # for slot resonance: er buried, (er+1)/2 on an outer layer
+    plane_er_full: float  # the substrate's own er: the conservative (lowest-frequency) bound
 
     @property
     def kind(self):
@@ -75,13 +106,15 @@ class Reference:
 
 
 def footprint_polygon(line, halfwidth):
-    """The strip of plane under a track that holds the chosen share of its return current: the centre
+    """The strip of plane under a track that holds the chosen share of its return current: the
+    centre
     line buffered by the half-width, flat at the track's ends."""
     return shapely.buffer(line, halfwidth, quad_segs=4, cap_style="flat", join_style="round")
 
 
 class Footprints(Mapping):
-    """Reference layer -> (footprint polygon, half-width) of one chain. A polygon is buffered only when
+    """Reference layer -> (footprint polygon, half-width) of one chain. A polygon is buffered only
+    when
     first asked for: most tracks meet no gap, and the half-width alone answers 'is a gap near?'."""
 
     def __init__(self, line, outline):
@@ -115,7 +148,7 @@ class Chain:
     net: str
     layer: str
     width_mm: float
-    line: object                # shapely LineString
+    line: object  # shapely LineString
     footprints: Footprints = None  # reference layer -> (polygon, half-width)
 
 
@@ -146,7 +179,7 @@ def _er_around(stackup, layer_name, n_layers):
 def references(board, nets, settings):
     """For each copper layer: the plane(s) its tracks return in."""
     planes = plane_layers(board, nets, settings)
-    names = [l.name for l in board.copper]
+    names = [c.name for c in board.copper]
     st = board.stackup
     out = {}
     for i, name in enumerate(names):
@@ -161,8 +194,18 @@ def references(board, nets, settings):
             share = physics.stripline_plane_share(h, oh) if oh is not None else 1.0
             outer = r in (names[0], names[-1])
             er_plane = _er_around(st, r, len(names))
-            refs.append(Reference(r, h, oh, share, st.er_between(name, r), outer,
-                                  (er_plane + 1) / 2 if outer else er_plane, er_plane))
+            refs.append(
+                Reference(
+                    r,
+                    h,
+                    oh,
+                    share,
+                    st.er_between(name, r),
+                    outer,
+                    (er_plane + 1) / 2 if outer else er_plane,
+                    er_plane,
+                )
+            )
         out[name] = refs
     return out, planes
 
@@ -178,7 +221,9 @@ def line_z0(board, layer, width_mm, ref):
 def footprint_halfwidth(width_mm, ref, fraction):
     if ref.other_h_mm is None:
         return width_mm / 2 + physics.microstrip_k_for_fraction(fraction) * ref.h_mm
-    return width_mm / 2 + physics.stripline_halfwidth_for_fraction(fraction, ref.h_mm, ref.other_h_mm)
+    return width_mm / 2 + physics.stripline_halfwidth_for_fraction(
+        fraction, ref.h_mm, ref.other_h_mm
+    )
 
 
 def wanted(net, settings):
@@ -198,11 +243,17 @@ def chains(board, nets, refs, settings):
         fill = ln.segment_fill if ln.segment_fill is not None else np.zeros(len(seg), dtype=bool)
         net_ok = {n: nets.is_signal(n) and wanted(n, settings) for n in set(ln.segment_net)}
         ok = np.fromiter((net_ok[n] for n in ln.segment_net), bool, len(seg))
-        ok &= np.fromiter((fn not in NON_TRACK_FUNCTIONS for fn in layer.segment_function), bool, len(seg))
+        ok &= np.fromiter(
+            (fn not in NON_TRACK_FUNCTIONS for fn in layer.segment_function), bool, len(seg)
+        )
         # ends snapped to a 10 nm grid so that strokes drawn end to end meet exactly; strokes that
         # shrink to a point there are dropped
         xy = np.round(seg[:, :4], 5)
-        ok &= ~np.asarray(fill, dtype=bool) & (seg[:, 4] > 0) & ((xy[:, 0] != xy[:, 2]) | (xy[:, 1] != xy[:, 3]))
+        ok &= (
+            ~np.asarray(fill, dtype=bool)
+            & (seg[:, 4] > 0)
+            & ((xy[:, 0] != xy[:, 2]) | (xy[:, 1] != xy[:, 3]))
+        )
         groups = defaultdict(list)
         for k, w in zip(np.flatnonzero(ok).tolist(), np.round(seg[ok, 4], 4).tolist()):
             groups[(ln.segment_net[k], w)].append(k)
@@ -212,8 +263,9 @@ def chains(board, nets, refs, settings):
         rows = np.concatenate([groups[k] for k in keys])
         which = np.repeat(np.arange(len(keys)), [len(groups[k]) for k in keys])
         # every (net, width) group merged into its longest runs in one vectorised pass
-        merged = shapely.line_merge(shapely.multilinestrings(shapely.linestrings(xy[rows].reshape(-1, 2, 2)),
-                                                             indices=which))
+        merged = shapely.line_merge(
+            shapely.multilinestrings(shapely.linestrings(xy[rows].reshape(-1, 2, 2)), indices=which)
+        )
         parts, of_group = shapely.get_parts(merged, return_index=True)
         for line, g in zip(parts, of_group.tolist()):
             net, w = keys[g]

@@ -15,13 +15,13 @@ import shapely  # noqa: E402
 from matplotlib.patches import PathPatch  # noqa: E402
 from matplotlib.path import Path as MPath  # noqa: E402
 
-PLANE = "#c9d6e3"       # reference-plane copper
+PLANE = "#c9d6e3"  # reference-plane copper
 PLANE_EDGE = "#7f93a8"
-OTHER_NET = "#e8dcc0"   # copper of another plane net on the same layer
+OTHER_NET = "#e8dcc0"  # copper of another plane net on the same layer
 TRACK = "#1f2a44"
 FOOTPRINT = "#56b4e980"  # translucent sky blue
-GAP = "#d55e00"          # vermilion: the gap the track crosses
-DETOUR = "#009e73"       # bluish green: the detour path
+GAP = "#d55e00"  # vermilion: the gap the track crosses
+DETOUR = "#009e73"  # bluish green: the detour path
 MARK = {"error": "#d55e00", "warning": "#e69f00", "info": "#0072b2"}
 WIDTH_PX = 1200
 
@@ -56,7 +56,15 @@ def _scale_bar(ax, x0, x1, y0, y1):
             break
     bx, by = x0 + 0.04 * span, y0 + 0.05 * (y1 - y0)
     ax.plot([bx, bx + bar], [by, by], color="black", lw=3, solid_capstyle="butt", zorder=20)
-    ax.text(bx + bar / 2, by + 0.02 * (y1 - y0), f"{bar:g} mm", ha="center", va="bottom", fontsize=9, zorder=20)
+    ax.text(
+        bx + bar / 2,
+        by + 0.02 * (y1 - y0),
+        f"{bar:g} mm",
+        ha="center",
+        va="bottom",
+        fontsize=9,
+        zorder=20,
+    )
 
 
 def _figure(x0, y0, x1, y1, caption_lines=0):
@@ -79,19 +87,27 @@ def _plane_geoms(result, layer, net=None):
     for i, p in ln.islands_of(result.nets.plane_nets):
         n = ln.island_net[i]
         (ref if net is None or n == net else other).append(p)
-    return shapely.union_all(ref) if ref else shapely.Polygon(), shapely.union_all(other) if other else shapely.Polygon()
+    return shapely.union_all(ref) if ref else shapely.Polygon(), shapely.union_all(
+        other
+    ) if other else shapely.Polygon()
 
 
 def overview_png(result, report, path):
-    """The whole board: the reference plane with most findings, every checked track, findings numbered."""
+    """The whole board: the reference plane with most findings, every checked track, findings
+    numbered."""
     board = result.board
     x0, y0, x1, y1 = board.outline.bounds
     pad = 0.03 * max(x1 - x0, y1 - y0)
     x0, y0, x1, y1 = x0 - pad, y0 - pad, x1 + pad, y1 + pad
     findings = report["findings"]
     layers = [f["reference_layer"] for f in findings if f.get("reference_layer")]
-    base = max(set(layers), key=layers.count) if layers else next(
-        (name for name, is_plane in result.planes.items() if is_plane), board.copper[0].name)
+    base = (
+        max(set(layers), key=layers.count)
+        if layers
+        else next(
+            (name for name, is_plane in result.planes.items() if is_plane), board.copper[0].name
+        )
+    )
     fig, ax = _figure(x0, y0, x1, y1)
     _fill(ax, board.outline, "white", edge="#444444", lw=0.8, z=0)
     plane, other = _plane_geoms(result, base)
@@ -102,21 +118,38 @@ def overview_png(result, report, path):
     for i, f in enumerate(findings, 1):
         col = MARK[f["severity"]]
         ax.plot(f["x_mm"], f["y_mm"], "o", ms=9, mfc="none", mec=col, mew=2.0, zorder=10)
-        ax.annotate(str(i), (f["x_mm"], f["y_mm"]), xytext=(6, 6), textcoords="offset points", fontsize=8,
-                    color=col, fontweight="bold", zorder=11)
+        ax.annotate(
+            str(i),
+            (f["x_mm"], f["y_mm"]),
+            xytext=(6, 6),
+            textcoords="offset points",
+            fontsize=8,
+            color=col,
+            fontweight="bold",
+            zorder=11,
+        )
     s = report["summary"]
-    ax.set_title(f"{report['board']['name']}: plane copper of {base}, {s['tracks_checked']} checked tracks, "
-                 f"{s['findings']} findings ({s['error']} error, {s['warning']} warning, {s['info']} info)",
-                 fontsize=10)
+    ax.set_title(
+        f"{report['board']['name']}: plane copper of {base}, {s['tracks_checked']} checked tracks, "
+        f"{s['findings']} findings ({s['error']} error, {s['warning']} warning, {s['info']} info)",
+        fontsize=10,
+    )
     _scale_bar(ax, x0, x1, y0, y1)
-    fig.text(0.01, 0.005, "Estimates for review only; see the report's disclaimer.", fontsize=7, color="#555555")
+    fig.text(
+        0.01,
+        0.005,
+        "Estimates for review only; see the report's disclaimer.",
+        fontsize=7,
+        color="#555555",
+    )
     fig.tight_layout()
     fig.savefig(path, dpi=100)
     plt.close(fig)
 
 
 def finding_png(result, finding, number, path):
-    """Zoomed view of one finding: plane, gap, track, return footprint, detour path and the numbers."""
+    """Zoomed view of one finding: plane, gap, track, return footprint, detour path and the
+    numbers."""
     ref_layer = finding.get("reference_layer") or finding["layer"]
     x, y = finding["x_mm"], finding["y_mm"]
     path_pts = finding.get("detour_path_mm") or []
@@ -157,17 +190,30 @@ def finding_png(result, finding, number, path):
         if fp is not None:
             _fill(ax, fp[0].intersection(window), FOOTPRINT, "none", 0, z=3)
         c = np.asarray(ch.line.coords)
-        ax.plot(c[:, 0], c[:, 1], color=TRACK, lw=max(1.5, ch.width_mm * 72 * 10 / (2 * half)), zorder=4,
-                solid_capstyle="round")
+        ax.plot(
+            c[:, 0],
+            c[:, 1],
+            color=TRACK,
+            lw=max(1.5, ch.width_mm * 72 * 10 / (2 * half)),
+            zorder=4,
+            solid_capstyle="round",
+        )
     if path_pts:
         p = np.asarray(path_pts)
         ax.plot(p[:, 0], p[:, 1], color=DETOUR, lw=2.2, ls="--", zorder=6, label="return path")
     ax.plot(x, y, "o", ms=14, mfc="none", mec=MARK[finding["severity"]], mew=2.5, zorder=7)
     ax.plot(x, y, "o", ms=5, mfc=MARK[finding["severity"]], mec="none", zorder=8)
-    what = f"{finding['gap_type']} ({finding['kind']})" if finding.get("gap_type") else finding["kind"]
-    over = f" over {finding['reference_net']} on {ref_layer}" if finding.get("reference_net") else ""
-    ax.set_title(f"#{number} {finding['severity'].upper()}  {finding['net']} on {finding['layer']}{over}: {what}",
-                 fontsize=10)
+    what = (
+        f"{finding['gap_type']} ({finding['kind']})" if finding.get("gap_type") else finding["kind"]
+    )
+    over = (
+        f" over {finding['reference_net']} on {ref_layer}" if finding.get("reference_net") else ""
+    )
+    ax.set_title(
+        f"#{number} {finding['severity'].upper()}  {finding['net']} on "
+        f"{finding['layer']}{over}: {what}",
+        fontsize=10,
+    )
     _scale_bar(ax, x0, x1, y0, y1)
     fig.text(0.01, 0.01, caption, fontsize=9, family="monospace", va="bottom")
     fig.tight_layout(rect=(0, 0.07, 1, 1))
@@ -176,7 +222,9 @@ def finding_png(result, finding, number, path):
     height = fig.get_size_inches()[1] * fig.dpi
     fig.savefig(path, dpi=100)
     plt.close(fig)
-    return float(px), float(height - py)  # where the finding sits in the picture, pixels from top-left
+    return float(px), float(
+        height - py
+    )  # where the finding sits in the picture, pixels from top-left
 
 
 def _caption(f):
@@ -193,7 +241,10 @@ def _caption(f):
     det = "none in plane (split)" if f.get("detour_mm") is None else f"{f['detour_mm']:.2f} mm"
     lo, hi = f.get("added_inductance_range_nH") or (0, 0)
     res = f.get("resonance_GHz")
-    return (f"detour {det}   added {f['added_inductance_nH']:.2f} nH ({lo:.2f}-{hi:.2f})   "
-            f"resonance {res:.2f} GHz   return interrupted {100 * f['interrupted_fraction']:.0f} %\n"
-            f"gap {f['gap_length_mm']:.2f} x {f['gap_width_mm']:.2f} mm at ({f['x_mm']:.2f}, {f['y_mm']:.2f}) mm   "
-            f"id {f['id']}   estimates, not measurements")
+    return (
+        f"detour {det}   added {f['added_inductance_nH']:.2f} nH ({lo:.2f}-{hi:.2f})   "
+        f"resonance {res:.2f} GHz   return interrupted {100 * f['interrupted_fraction']:.0f} %\n"
+        f"gap {f['gap_length_mm']:.2f} x {f['gap_width_mm']:.2f} mm at ({f['x_mm']:.2f}, "
+        f"{f['y_mm']:.2f}) mm   "
+        f"id {f['id']}   estimates, not measurements"
+    )

@@ -4,15 +4,28 @@ import datetime
 import fnmatch
 import json
 import math
+
 from .config import read_toml
 from .errors import InputError
 
-WAIVER_KEYS = {"id", "kind", "net", "layer", "reference_layer", "gap_type", "near_mm", "radius_mm", "by", "reason",
-               "date"}
+WAIVER_KEYS = {
+    "id",
+    "kind",
+    "net",
+    "layer",
+    "reference_layer",
+    "gap_type",
+    "near_mm",
+    "radius_mm",
+    "by",
+    "reason",
+    "date",
+}
 
 
 def load_waivers(path):
-    """[[waiver]] tables: an id, or a match on kind / net (glob) / layers / location; who, why and when."""
+    """[[waiver]] tables: an id, or a match on kind / net (glob) / layers / location; who, why and
+    when."""
     data = read_toml(path)
     items = data.get("waiver", [])
     if not isinstance(items, list):
@@ -26,7 +39,9 @@ def load_waivers(path):
             raise InputError(path, f"waiver #{i}: unknown key(s) {', '.join(sorted(unknown))}")
         for key in ("by", "reason"):
             if not str(w.get(key, "")).strip():
-                raise InputError(path, f"waiver #{i}: '{key}' is required (who accepted it, and why)")
+                raise InputError(
+                    path, f"waiver #{i}: '{key}' is required (who accepted it, and why)"
+                )
         if not any(k in w for k in ("id", "net", "near_mm")):
             raise InputError(path, f"waiver #{i}: give an id, or a net and/or near_mm to match on")
         if "near_mm" in w and (not isinstance(w["near_mm"], list) or len(w["near_mm"]) != 2):
@@ -59,14 +74,21 @@ def apply_waivers(report, waivers):
     for f in report["findings"]:
         for w in waivers:
             if _matches(w, f):
-                f["waiver"] = {"by": str(w["by"]), "reason": str(w["reason"]), "date": w.get("date"),
-                               "waiver": w["index"]}
+                f["waiver"] = {
+                    "by": str(w["by"]),
+                    "reason": str(w["reason"]),
+                    "date": w.get("date"),
+                    "waiver": w["index"],
+                }
                 used.add(w["index"])
                 break
     report["waivers"] = {
         "applied": sorted(used),
-        "stale": [{k: v for k, v in w.items() if k != "index"} | {"waiver": w["index"]}
-                  for w in waivers if w["index"] not in used],
+        "stale": [
+            {k: v for k, v in w.items() if k != "index"} | {"waiver": w["index"]}
+            for w in waivers
+            if w["index"] not in used
+        ],
     }
     return report
 
@@ -75,9 +97,9 @@ def load_baseline(path):
     try:
         data = json.loads(open(path, encoding="utf-8").read())
     except OSError as e:
-        raise InputError(path, f"cannot read ({e.strerror})")
+        raise InputError(path, f"cannot read ({e.strerror})") from None
     except json.JSONDecodeError as e:
-        raise InputError(path, f"not valid JSON ({e.msg})", e.lineno)
+        raise InputError(path, f"not valid JSON ({e.msg})", e.lineno) from None
     if not isinstance(data, dict) or data.get("format") != "returngap-findings":
         raise InputError(path, "not a returngap findings report")
     return data
@@ -98,8 +120,13 @@ def compare(report, baseline, tolerance_mm=2.0):
             for j, o in enumerate(old):
                 if j in taken:
                     continue
-                if (o.get("kind"), o.get("net"), o.get("layer"), o.get("reference_layer"), o.get("gap_type")) != \
-                        (f["kind"], f["net"], f["layer"], f.get("reference_layer"), f.get("gap_type")):
+                if (
+                    o.get("kind"),
+                    o.get("net"),
+                    o.get("layer"),
+                    o.get("reference_layer"),
+                    o.get("gap_type"),
+                ) != (f["kind"], f["net"], f["layer"], f.get("reference_layer"), f.get("gap_type")):
                     continue
                 d = math.dist((o["x_mm"], o["y_mm"]), (f["x_mm"], f["y_mm"]))
                 if d <= tolerance_mm and (best is None or d < best[0]):
@@ -111,9 +138,28 @@ def compare(report, baseline, tolerance_mm=2.0):
             taken.add(i)
             f["status"] = "unchanged"
             f["baseline_id"] = old[i]["id"]
-    report["resolved"] = [{k: o.get(k) for k in ("id", "kind", "gap_type", "severity", "net", "layer",
-                                                  "reference_layer", "x_mm", "y_mm", "message")}
-                          for j, o in enumerate(old) if j not in taken]
-    report["baseline"] = {"board": baseline.get("board", {}).get("name"), "findings": len(old),
-                          "tolerance_mm": tolerance_mm}
+    report["resolved"] = [
+        {
+            k: o.get(k)
+            for k in (
+                "id",
+                "kind",
+                "gap_type",
+                "severity",
+                "net",
+                "layer",
+                "reference_layer",
+                "x_mm",
+                "y_mm",
+                "message",
+            )
+        }
+        for j, o in enumerate(old)
+        if j not in taken
+    ]
+    report["baseline"] = {
+        "board": baseline.get("board", {}).get("name"),
+        "findings": len(old),
+        "tolerance_mm": tolerance_mm,
+    }
     return report

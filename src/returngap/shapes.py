@@ -8,12 +8,11 @@ import math
 
 import numpy as np
 import shapely
-from scipy.sparse import coo_matrix
-from scipy.sparse.csgraph import connected_components
 from gerbonara import apertures as ap
-from gerbonara import graphic_objects as go
 from gerbonara import graphic_primitives as gp
 from gerbonara.utils import MM
+from scipy.sparse import coo_matrix
+from scipy.sparse.csgraph import connected_components
 from shapely import affinity
 
 DEFAULT_CHORD_TOL_MM = 0.001
@@ -58,8 +57,16 @@ def ring_points(outline, arc_centers, tol, scale=1.0):
         arc = arc_centers[i] if i < len(arc_centers) else None
         if arc and arc[0] is not None and arc[1][0] is not None:
             cw, (cx, cy) = arc
-            seg = arc_points(p1[0] * scale, p1[1] * scale, p2[0] * scale, p2[1] * scale,
-                             cx * scale, cy * scale, cw, tol)
+            seg = arc_points(
+                p1[0] * scale,
+                p1[1] * scale,
+                p2[0] * scale,
+                p2[1] * scale,
+                cx * scale,
+                cy * scale,
+                cw,
+                tol,
+            )
             pts.extend(seg[:-1])
         else:
             pts.append((p1[0] * scale, p1[1] * scale))
@@ -67,13 +74,15 @@ def ring_points(outline, arc_centers, tol, scale=1.0):
 
 
 def polygon_from_points(pts, raw=None):
-    """A valid polygonal geometry from a possibly self-touching ring (Gerber cut-ins); raw: the ring's
+    """A valid polygonal geometry from a possibly self-touching ring (Gerber cut-ins); raw: the
+    ring's
     polygon as drawn, when the caller already has it."""
     if len(pts) < 3:
         return shapely.Polygon()
     poly = raw if raw is not None else ring_polygon(pts)
     if not poly.is_valid:
-        # "structure" repair: the ring's enclosed area (cut-ins become holes, a ring that doubles over
+        # "structure" repair: the ring's enclosed area (cut-ins become holes, a ring that
+        # doubles over
         # itself stays filled), polygons only, and many times faster than rebuilding from linework
         poly = shapely.make_valid(poly, method="structure", keep_collapsed=False)
     return poly
@@ -97,12 +106,21 @@ def primitive_shape(prim, tol):
         return polygon_from_points(ring_points(prim.outline, prim.arc_centers or [], tol))
     if isinstance(prim, gp.Line):
         r = prim.width / 2
-        return shapely.LineString([(prim.x1, prim.y1), (prim.x2, prim.y2)]).buffer(
-            r, quad_segs=quad_segs_for(r, tol)) if r > 0 else shapely.Polygon()
+        return (
+            shapely.LineString([(prim.x1, prim.y1), (prim.x2, prim.y2)]).buffer(
+                r, quad_segs=quad_segs_for(r, tol)
+            )
+            if r > 0
+            else shapely.Polygon()
+        )
     if isinstance(prim, gp.Arc):
         pts = arc_points(prim.x1, prim.y1, prim.x2, prim.y2, prim.cx, prim.cy, prim.clockwise, tol)
         r = prim.width / 2
-        return shapely.LineString(pts).buffer(r, quad_segs=quad_segs_for(r, tol)) if r > 0 else shapely.Polygon()
+        return (
+            shapely.LineString(pts).buffer(r, quad_segs=quad_segs_for(r, tol))
+            if r > 0
+            else shapely.Polygon()
+        )
     raise TypeError(f"unsupported primitive {type(prim).__name__}")
 
 
@@ -143,14 +161,24 @@ def stroke_shape(points, aperture, shapes, tol):
     if isinstance(aperture, ap.CircleAperture) and not getattr(aperture, "hole_dia", None):
         r = aperture_width_mm(aperture) / 2
         if len(points) == 1 or r <= 0:
-            return shapely.Point(points[0]).buffer(r, quad_segs=quad_segs_for(r, tol)) if r > 0 else shapely.Polygon()
+            return (
+                shapely.Point(points[0]).buffer(r, quad_segs=quad_segs_for(r, tol))
+                if r > 0
+                else shapely.Polygon()
+            )
         return shapely.LineString(points).buffer(r, quad_segs=quad_segs_for(r, tol))
-    # Any other aperture: union of hulls of the shape at the ends of each straight piece (exact for convex apertures).
+    # Any other aperture: union of hulls of the shape at the ends of each straight piece
+    # (exact for convex apertures).
     base = shapes.shape(aperture)
     pieces = []
-    for (xa, ya), (xb, yb) in zip(points[:-1], points[1:]) if len(points) > 1 else [(points[0], points[0])]:
-        pieces.append(shapely.convex_hull(shapely.union(affinity.translate(base, xa, ya),
-                                                        affinity.translate(base, xb, yb))))
+    for (xa, ya), (xb, yb) in (
+        zip(points[:-1], points[1:]) if len(points) > 1 else [(points[0], points[0])]
+    ):
+        pieces.append(
+            shapely.convex_hull(
+                shapely.union(affinity.translate(base, xa, ya), affinity.translate(base, xb, yb))
+            )
+        )
     return shapely.union_all(pieces)
 
 
@@ -174,7 +202,9 @@ def touch_components(pieces, tree):
     pairs = tree.query(pieces)
     pairs = pairs[:, pairs[0] < pairs[1]]
     nc = shapely.get_num_coordinates(pieces)
-    pairs = pairs[:, intersects_pairs(pieces[pairs[0]], pieces[pairs[1]], nc[pairs[0]], nc[pairs[1]])]
+    pairs = pairs[
+        :, intersects_pairs(pieces[pairs[0]], pieces[pairs[1]], nc[pairs[0]], nc[pairs[1]])
+    ]
     graph = coo_matrix((np.ones(pairs.shape[1], dtype=np.int8), (pairs[0], pairs[1])), shape=(n, n))
     count, labels = connected_components(graph, directed=False)
     # number islands by their first piece, so that names stay stable for the same files
@@ -198,13 +228,18 @@ def merge_pieces(pieces):
     label, count, _ = touch_components(arr, shapely.STRtree(arr))
     order = np.argsort(label, kind="stable")
     start = np.searchsorted(label[order], np.arange(count + 1))
-    parts = [arr[order[start[k]]] if start[k + 1] - start[k] == 1 else shapely.union_all(arr[order[start[k]:start[k + 1]]])
-             for k in range(count)]
+    parts = [
+        arr[order[start[k]]]
+        if start[k + 1] - start[k] == 1
+        else shapely.union_all(arr[order[start[k] : start[k + 1]]])
+        for k in range(count)
+    ]
     return disjoint_union(parts)
 
 
 def disjoint_union(geoms):
-    """Union of geometries known not to touch one another: their polygons side by side already form a
+    """Union of geometries known not to touch one another: their polygons side by side already form
+    a
     valid MultiPolygon, with no overlay work."""
     parts = shapely.get_parts(np.array(list(geoms), dtype=object))
     polys = [q for q in parts if q.geom_type == "Polygon" and not q.is_empty]
@@ -216,5 +251,7 @@ def place_all(bases, xy):
     if not len(bases):
         return []
     geoms = np.array(bases, dtype=object)
-    off = np.repeat(np.asarray(xy, dtype=float).reshape(-1, 2), shapely.get_num_coordinates(geoms), axis=0)
+    off = np.repeat(
+        np.asarray(xy, dtype=float).reshape(-1, 2), shapely.get_num_coordinates(geoms), axis=0
+    )
     return list(shapely.transform(geoms, lambda c: c + off))

@@ -4,7 +4,6 @@ Plain text output of our own; coordinates in mm with six decimals (%FSLAX46Y46%)
 """
 
 import json
-import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -14,15 +13,27 @@ def _c(v):
 
 
 def _esc(s):
-    return s.replace("\\", "\\u005C").replace(",", "\\u002C").replace("*", "\\u002A").replace("%", "\\u0025")
+    return (
+        s.replace("\\", "\\u005C")
+        .replace(",", "\\u002C")
+        .replace("*", "\\u002A")
+        .replace("%", "\\u0025")
+    )
 
 
 class GerberWriter:
     """Gerber X2 writer: apertures on demand, object attributes per object, polarity switches."""
 
     def __init__(self, file_function, polarity="Positive", generator="returngap-synth"):
-        self.head = [f"%TF.GenerationSoftware,returngap,{generator},1*%", f"%TF.FileFunction,{file_function}*%",
-                     f"%TF.FilePolarity,{polarity}*%", "%FSLAX46Y46*%", "%MOMM*%", "G01*", "G75*"]
+        self.head = [
+            f"%TF.GenerationSoftware,returngap,{generator},1*%",
+            f"%TF.FileFunction,{file_function}*%",
+            f"%TF.FilePolarity,{polarity}*%",
+            "%FSLAX46Y46*%",
+            "%MOMM*%",
+            "G01*",
+            "G75*",
+        ]
         self.apertures = {}
         self.body = []
         self._dark = True
@@ -113,11 +124,11 @@ class SynthBoard:
     width: float
     height: float
     n_layers: int = 4
-    tracks: list = field(default_factory=list)     # (layer, net, points, width)
+    tracks: list = field(default_factory=list)  # (layer, net, points, width)
     vias: list = field(default_factory=list)
-    planes: list = field(default_factory=list)     # (layer, net, polygon points)
-    cutouts: list = field(default_factory=list)    # (layer, polygon points) cleared from planes
-    pads: list = field(default_factory=list)       # (layer, x, y, w, h, net, (ref, pin))
+    planes: list = field(default_factory=list)  # (layer, net, polygon points)
+    cutouts: list = field(default_factory=list)  # (layer, polygon points) cleared from planes
+    pads: list = field(default_factory=list)  # (layer, x, y, w, h, net, (ref, pin))
     dielectrics: list = field(default_factory=list)  # (thickness_mm, er), top to bottom
     er: float = 4.3
 
@@ -156,8 +167,13 @@ class SynthBoard:
         return g.text()
 
     def drill(self):
-        lines = ["M48", "; DRILL file returngap-synth", f"; #@! TF.FileFunction,Plated,1,{self.n_layers},PTH",
-                 "FMAT,2", "METRIC"]
+        lines = [
+            "M48",
+            "; DRILL file returngap-synth",
+            f"; #@! TF.FileFunction,Plated,1,{self.n_layers},PTH",
+            "FMAT,2",
+            "METRIC",
+        ]
         tools = sorted({v.drill for v in self.vias})
         for i, d in enumerate(tools):
             lines.append("; #@! TA.AperFunction,Plated,PTH,ViaDrill")
@@ -170,11 +186,21 @@ class SynthBoard:
         return "\n".join(lines)
 
     def stackup_toml(self):
-        out = ["# stackup of an invented board, written by returngap.synth",
-               f"board_thickness_mm = {sum(t for t, _ in self.dielectrics) + 0.035 * self.n_layers:.4f}",
-               "copper_thickness_mm = 0.035", ""]
+        out = [
+            "# stackup of an invented board, written by returngap.synth",
+            "board_thickness_mm = "
+            f"{sum(t for t, _ in self.dielectrics) + 0.035 * self.n_layers:.4f}",
+            "copper_thickness_mm = 0.035",
+            "",
+        ]
         for i, (t, er) in enumerate(self.dielectrics):
-            out += ["[[dielectric]]", f'between = ["L{i + 1}", "L{i + 2}"]', f"thickness_mm = {t}", f"er = {er}", ""]
+            out += [
+                "[[dielectric]]",
+                f'between = ["L{i + 1}", "L{i + 2}"]',
+                f"thickness_mm = {t}",
+                f"er = {er}",
+                "",
+            ]
         return "\n".join(out)
 
     def write(self, folder, job_file=True):
@@ -197,11 +223,34 @@ class SynthBoard:
                 stack.append({"Type": "Copper", "Name": f"L{n}", "Thickness": 0.035})
                 if n < self.n_layers:
                     t, er = self.dielectrics[n - 1]
-                    stack.append({"Type": "Dielectric", "Name": f"D{n}", "Thickness": t, "DielectricConstant": er})
-            job = {"Header": {"GenerationSoftware": {"Vendor": "returngap", "Application": "synth", "Version": "1"}},
-                   "GeneralSpecs": {"ProjectId": {"Name": self.name}, "LayerNumber": self.n_layers,
-                                    "BoardThickness": round(sum(t for t, _ in self.dielectrics) + 0.035 * self.n_layers, 4)},
-                   "FilesAttributes": [{"Path": k, "FileFunction": v, "FilePolarity": "Positive"} for k, v in names.items()],
-                   "MaterialStackup": stack}
+                    stack.append(
+                        {
+                            "Type": "Dielectric",
+                            "Name": f"D{n}",
+                            "Thickness": t,
+                            "DielectricConstant": er,
+                        }
+                    )
+            job = {
+                "Header": {
+                    "GenerationSoftware": {
+                        "Vendor": "returngap",
+                        "Application": "synth",
+                        "Version": "1",
+                    }
+                },
+                "GeneralSpecs": {
+                    "ProjectId": {"Name": self.name},
+                    "LayerNumber": self.n_layers,
+                    "BoardThickness": round(
+                        sum(t for t, _ in self.dielectrics) + 0.035 * self.n_layers, 4
+                    ),
+                },
+                "FilesAttributes": [
+                    {"Path": k, "FileFunction": v, "FilePolarity": "Positive"}
+                    for k, v in names.items()
+                ],
+                "MaterialStackup": stack,
+            }
             (folder / f"{self.name}.gbrjob").write_text(json.dumps(job, indent=1))
         return folder
