@@ -34,7 +34,7 @@ import sys, warnings, time
 warnings.simplefilter("ignore")
 from pathlib import Path
 from gerbonara import GerberFile, ExcellonFile
-from returngap.inputs import BoardFiles
+from returngap.io.inputs import BoardFiles
 t = time.perf_counter()
 with BoardFiles(sys.argv[1]) as bf:
     for f in bf.fab:
@@ -54,8 +54,8 @@ print(time.perf_counter() - t)
 CHECK = """
 import resource, sys, time, warnings
 warnings.simplefilter("ignore")
-from returngap.pipeline import run_check
-from returngap import report
+from returngap.run.pipeline import run_check
+from returngap.report import core as report
 t = time.perf_counter()
 r = run_check(sys.argv[1], sys.argv[2] if len(sys.argv) > 2 and sys.argv[2] else None)
 report.findings_report(r)

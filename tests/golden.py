@@ -19,7 +19,8 @@ VOLATILE = {"source", "tool_version"}  # paths and versions differ between machi
 
 def _synthetic(build):
     def make():
-        from returngap import pipeline, report
+        from returngap.report import core as report
+        from returngap.run import pipeline
 
         with tempfile.TemporaryDirectory() as tmp:
             folder = build(Path(tmp) / "board")
@@ -30,7 +31,8 @@ def _synthetic(build):
 
 def _folder(path, stackup=None):
     def make():
-        from returngap import pipeline, report
+        from returngap.report import core as report
+        from returngap.run import pipeline
 
         return report.findings_report(pipeline.run_check(path, stackup))
 

@@ -214,7 +214,7 @@ def test_time_limit_marks_the_board_failed(tmp_path):
 
 def test_discovery_of_gerber_and_drill_sibling_folders(tmp_path):
     # some exports put Gerbers in one folder and drills in a sibling: that parent is one board
-    from returngap.audit import discover
+    from returngap.batch.audit import discover
 
     board = slot_board(tmp_path / "seed")
     root = tmp_path / "tree" / "rev-c"

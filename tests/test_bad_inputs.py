@@ -12,9 +12,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from conftest import TESTDATA
-from returngap import importer
 from returngap.errors import InputError
-from returngap.pipeline import run_check
+from returngap.io import load
+from returngap.run.pipeline import run_check
 from returngap.synth import SynthBoard, Via, rect
 
 BAD = TESTDATA / "bad"
@@ -48,14 +48,14 @@ def test_every_bad_file_is_covered():
 def test_bad_file_gives_one_line_error(name):
     line, fragment = ERRORS[name]
     with pytest.raises(InputError) as e:
-        importer.load_board([BAD / name])
+        load.load_board([BAD / name])
     assert e.value.file.endswith(name) and e.value.line == line
     assert fragment in str(e.value) and "\n" not in str(e.value)
 
 
 @pytest.mark.parametrize("name", sorted(RECOVERIES))
 def test_bad_file_recovery_is_stated(name):
-    b = importer.load_board([BAD / name])
+    b = load.load_board([BAD / name])
     assert any(RECOVERIES[name] in a and a.startswith(name) for a in b.assumptions)
 
 
@@ -164,7 +164,7 @@ def test_mutated_corpus_copper_file(tmp_path):
         p = tmp_path / f"m{i}.gbr"
         p.write_bytes(mutate(data, rng))
         try:
-            importer.load_board([p])
+            load.load_board([p])
         except InputError:
             pass
         p.unlink()

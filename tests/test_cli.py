@@ -8,8 +8,8 @@ import jsonschema
 from click.testing import CliRunner
 
 from conftest import ROOT
-from returngap import report
 from returngap.cli import main
+from returngap.report import core as report
 
 DEMO = ROOT / "examples" / "demo-board"
 
@@ -94,9 +94,7 @@ def test_layers_json(tmp_path):
     assert rep["drills"][0]["from_layer"] == "L1" and rep["drills"][0]["to_layer"] == "L4"
     assert [d["thickness_mm"] for d in rep["dielectrics"]] == [0.18, 1.13, 0.18]
     assert rep["copper_layers"][1]["copper_area_mm2"] > 0.9 * 79.4 * 49.4
-    assert {"file": "stackup.toml", "reason": "not fabrication data (.toml)"} in rep[
-        "ignored"
-    ]
+    assert {"file": "stackup.toml", "reason": "not fabrication data (.toml)"} in rep["ignored"]
 
 
 def test_demo_board_is_what_the_generator_writes(tmp_path):

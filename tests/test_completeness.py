@@ -9,9 +9,10 @@ import numpy as np
 import pytest
 from click.testing import CliRunner
 
-from returngap import importer, pipeline
 from returngap.cli import main
 from returngap.errors import IncompleteError
+from returngap.io import load
+from returngap.run import pipeline
 from returngap.synth import SynthBoard, Via, rect
 
 
@@ -63,7 +64,7 @@ def _via_lines(b):
 def test_mixed_plating_drill_is_read_with_per_tool_plating(tmp_path):
     b = four_layer(tmp_path)
     (tmp_path / "q.drl").write_text(KICAD_MIXED.format(vias=_via_lines(b)))
-    board = importer.load_board(tmp_path)
+    board = load.load_board(tmp_path)
     [d] = board.drills
     assert d.hole_count == 4 and d.plating == "mixed" and (d.from_layer, d.to_layer) == (1, 4)
     assert d.hole_plated.tolist() == [True, True, True, False]  # the 3.2 mm hole is NPTH
@@ -76,7 +77,7 @@ def test_user_mapping_wins_over_the_files_own_attribute(tmp_path):
     four_layer(tmp_path)
     st = tmp_path / "map.toml"
     st.write_text('[layers]\n"q.drl" = "drill:1-2"\n')
-    board, _ = pipeline.load(tmp_path, st)
+    board, _ = pipeline.read_board(tmp_path, st)
     [d] = board.drills
     assert (d.from_layer, d.to_layer) == (1, 2) and d.span_source == "stackup file"
     assert any(
@@ -111,7 +112,7 @@ def test_altium_type_sections_give_plating_per_tool(tmp_path):
     (tmp_path / "q.drl").unlink()
     vias = "\n".join(f"X{_altium_coord(v.x)}Y{_altium_coord(v.y)}" for v in b.vias)
     (tmp_path / "q-RoundHoles.TXT").write_text(ALTIUM_DRILL.format(vias=vias))
-    board = importer.load_board(tmp_path)
+    board = load.load_board(tmp_path)
     [d] = board.drills
     assert d.hole_count == 4 and d.hole_plated.tolist() == [True, True, True, False]
     assert np.allclose(d.holes[-1, :2], (30, 5)) and d.plating_source == "tool sections"
@@ -135,7 +136,7 @@ def test_layer_pair_file_gives_blind_via_spans_whatever_the_case(tmp_path):
         "LayersSetName=Top_Bot_Thru_Holes|DrillFile=q.txt|DrillLayers=gtl,g1,g2,gbl\n"
         "LayersSetName=L3_Bot_Blind_Vias|DrillFile=q.tx1|DrillLayers=g2,gbl\n"
     )
-    board = importer.load_board(tmp_path)
+    board = load.load_board(tmp_path)
     spans = {d.file: (d.from_layer, d.to_layer, d.span_source) for d in board.drills}
     assert spans["Q.TX1"] == (3, 4, "layer-pair file Q.LDP") and spans["Q.TXT"][:2] == (1, 4)
     r = run("layers", tmp_path)
@@ -153,7 +154,7 @@ def test_drill_report_spans_when_there_is_no_layer_pair_file(tmp_path):
         "NCDrill File Report For: q.PcbDoc\n\nLayer Pair : L2 to Bottom\n"
         "ASCII RoundHoles File : q.TX1\n"
     )
-    [d] = importer.load_board(tmp_path).drills
+    [d] = load.load_board(tmp_path).drills
     assert (d.from_layer, d.to_layer) == (2, 4) and d.span_source == "drill report q.DRR"
 
 
@@ -187,7 +188,7 @@ def test_outline_beside_a_break_away_frame_on_a_mechanical_layer(tmp_path):
     (tmp_path / "q.GM6").write_text(_outline_gerber(board + frame + tabs))
     sheet = [[(-100, -100), (300, -100), (300, 200), (-100, 200), (-100, -100)]]
     (tmp_path / "q.GM1").write_text(_outline_gerber(sheet + frame))
-    b = importer.load_board(tmp_path)
+    b = load.load_board(tmp_path)
     assert b.outline.area == pytest.approx(2400, abs=0.5) and b.outline_file == "q.GM6"
     assert not b.problems
     r = run("layers", tmp_path)
@@ -218,7 +219,7 @@ def test_outline_of_arcs(tmp_path):
         "%FSLAX46Y46*%", "%TF.FileFunction,Profile,NP*%\n%FSLAX46Y46*%"
     )
     (tmp_path / "q-profile.gbr").write_text(text)
-    b = importer.load_board(tmp_path)
+    b = load.load_board(tmp_path)
     assert b.outline.area == pytest.approx(2400 - (4 - math.pi) * r * r, rel=1e-4)
 
 
@@ -230,7 +231,7 @@ def test_a_frame_alone_is_not_taken_as_the_outline(tmp_path):
             [[(-100, -100), (200, -100), (200, 100), (-100, 100), (-100, -100)]]
         ).replace("%FSLAX46Y46*%", "%TF.FileFunction,Profile,NP*%\n%FSLAX46Y46*%")
     )
-    b = importer.load_board(tmp_path)
+    b = load.load_board(tmp_path)
     assert b.outline_file is None and b.outline.area == pytest.approx(2400, rel=0.01)
     assert any(
         "no closed outline holds the copper" in a and "q-profile.gbr" in a for a in b.assumptions

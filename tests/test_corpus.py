@@ -9,7 +9,7 @@ import pytest
 import shapely
 
 from conftest import ROOT, corpus_board
-from returngap import pipeline
+from returngap.run import pipeline
 
 MAPS = ROOT / "testdata" / "corpus-maps"
 BOARDS = {
@@ -37,7 +37,7 @@ def loaded():
     def get(slug):
         if slug not in cache:
             path, stack, _ = BOARDS[slug]
-            cache[slug] = pipeline.load(corpus_board(path), stack)[0]
+            cache[slug] = pipeline.read_board(corpus_board(path), stack)[0]
         return cache[slug]
 
     return get

@@ -9,8 +9,8 @@ import shapely
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
-from returngap.cuts import cut_intervals, ring_edges
-from returngap.gridpath import window_path
+from returngap.geometry.cuts import cut_intervals, ring_edges
+from returngap.geometry.gridpath import window_path
 
 
 def _geos_pieces(poly, origin, u, lo, hi):
@@ -134,7 +134,7 @@ _WAVY = shapely.Polygon(
 def test_cut_through_a_large_gap_from_its_nearby_edges_alone(x, y, angle):
     """The edges a large gap's tree finds near a line give the same pieces of that line as all its
     edges do (the shortcut the slot extents take)."""
-    from returngap.detector import Void
+    from returngap.analysis.gaps import Void
 
     void = Void(_WAVY, True, 0)
     assert len(void.edges) >= 2000

@@ -5,9 +5,9 @@ import math
 import pytest
 
 from boards import H, slot_board, stripline_board
-from returngap import physics
-from returngap.pipeline import run_check
-from returngap.projector import Settings
+from returngap.model.settings import Settings
+from returngap.physics import formulas as physics
+from returngap.run.pipeline import run_check
 
 
 def gaps(folder, **kw):
@@ -82,7 +82,7 @@ def test_via_fence_detour_is_the_geodesic_round_the_fence(tmp_path):
     track passes between two of them, so each end of the crossing sits in a pocket between two
     antipads. The shortest way: a tangent from the end to the next antipad, round it to its outer
     side, along the fence, half round the end antipad and back the same way (geometry)."""
-    from returngap.detector import STEP_OFF_MM
+    from returngap.analysis.gaps import STEP_OFF_MM
     from returngap.synth import SynthBoard, Via, rect
 
     b = SynthBoard("f", 60, 40, n_layers=4, dielectrics=[(H, 4.3), (1.0, 4.3), (H, 4.3)])
@@ -149,19 +149,19 @@ def test_footprint_overlap_is_the_footprint_area_in_the_gap():
     track across a strip: 2 hw x strip width) and against shapely's buffer of the whole track."""
     import shapely
 
-    from returngap import detector
+    from returngap.analysis import gaps
 
     line = shapely.LineString([(0, 0), (40, 0), (40, 30), (5, 30)])
     hw = 1.3
     strip = shapely.box(19.5, -5, 20.5, 5)
-    assert detector._footprint_overlap(line, hw, strip) == pytest.approx(2 * hw * 1.0, rel=1e-9)
+    assert gaps._footprint_overlap(line, hw, strip) == pytest.approx(2 * hw * 1.0, rel=1e-9)
     whole = shapely.buffer(line, hw, quad_segs=4, cap_style="flat", join_style="round")
     for region in (
         shapely.box(38, -3, 45, 3),
         shapely.box(3, 28, 8, 33),
         shapely.Point(40, 30).buffer(2),
     ):
-        assert detector._footprint_overlap(line, hw, region) == pytest.approx(
+        assert gaps._footprint_overlap(line, hw, region) == pytest.approx(
             whole.intersection(region).area, rel=1e-6
         )
 
@@ -171,17 +171,17 @@ def test_two_processes_give_the_same_findings(tmp_path, monkeypatch):
     order."""
     from pathlib import Path
 
-    from returngap import detector, forking
+    from returngap.run import parallel
 
     demo = Path(__file__).resolve().parents[1] / "examples" / "demo-board"
     stack = demo / "stackup.toml"
-    one = run_check(demo, stack, settings=Settings(workers=1)).findings
-    monkeypatch.setattr(detector, "PARALLEL_MIN_CHAINS", 1)
-    monkeypatch.setattr(forking.threading, "active_count", lambda: 1)  # other tests' threads aside
+    one = run_check(demo, stack, workers=1).findings
+    monkeypatch.setitem(parallel.POLICY, "gap-scan", 1)
+    monkeypatch.setattr(parallel.threading, "active_count", lambda: 1)  # other tests' threads aside
     pools = []
-    real_fork = forking._fork
-    monkeypatch.setattr(forking, "_fork", lambda: pools.append(1) or real_fork())
-    two = run_check(demo, stack, settings=Settings(workers=2)).findings
+    real_fork = parallel._fork
+    monkeypatch.setattr(parallel, "_fork", lambda: pools.append(1) or real_fork())
+    two = run_check(demo, stack, workers=2).findings
     assert pools, "the two-process path did not run"
     assert len(one) > 5 and one == two
 
@@ -191,18 +191,18 @@ def test_threads_or_none_give_the_same_findings(monkeypatch):
     gives the same findings, in the same order."""
     from pathlib import Path
 
-    from returngap import forking
+    from returngap.run import parallel
 
     demo = Path(__file__).resolve().parents[1] / "examples" / "demo-board"
     stack = demo / "stackup.toml"
-    monkeypatch.setattr(forking, "THREADS_MIN_SEGMENTS", 10**9)
+    monkeypatch.setattr(parallel, "THREADS_MIN_SEGMENTS", 10**9)
     started = []
-    real_pool = forking.ThreadPoolExecutor
-    monkeypatch.setattr(forking, "ThreadPoolExecutor", lambda n: started.append(n) or real_pool(n))
-    alone = run_check(demo, stack, settings=Settings(workers=1)).findings
+    real_pool = parallel.ThreadPoolExecutor
+    monkeypatch.setattr(parallel, "ThreadPoolExecutor", lambda n: started.append(n) or real_pool(n))
+    alone = run_check(demo, stack, workers=1).findings
     assert not started
-    monkeypatch.setattr(forking, "THREADS_MIN_SEGMENTS", 0)
-    threaded = run_check(demo, stack, settings=Settings(workers=1)).findings
+    monkeypatch.setattr(parallel, "THREADS_MIN_SEGMENTS", 0)
+    threaded = run_check(demo, stack, workers=1).findings
     assert len(started) >= 3, "the threaded path did not run"
     assert len(alone) > 5 and alone == threaded
 
@@ -214,12 +214,12 @@ def test_geos_failure_on_a_gap_is_retried_on_a_snapped_outline(monkeypatch):
 
     import shapely
 
-    from returngap import detector
+    from returngap.analysis import gaps
 
     demo = Path(__file__).resolve().parents[1] / "examples" / "demo-board"
     stack = demo / "stackup.toml"
-    plain = run_check(demo, stack, settings=Settings(workers=1)).findings
-    real, calls = detector._finding, []
+    plain = run_check(demo, stack, workers=1).findings
+    real, calls = gaps._finding, []
 
     def flaky(*args):
         calls.append(1)
@@ -227,8 +227,8 @@ def test_geos_failure_on_a_gap_is_retried_on_a_snapped_outline(monkeypatch):
             raise shapely.errors.GEOSException("TopologyException: side location conflict")
         return real(*args)
 
-    monkeypatch.setattr(detector, "_finding", flaky)
-    again = run_check(demo, stack, settings=Settings(workers=1)).findings
+    monkeypatch.setattr(gaps, "_finding", flaky)
+    again = run_check(demo, stack, workers=1).findings
     assert len(calls) > 1
     assert [f["id"] for f in again] == [f["id"] for f in plain]
 
@@ -241,7 +241,7 @@ class _Plane:
         import numpy as np
         import shapely
 
-        from returngap.detector import EDGE_HAIR_MM, Void
+        from returngap.analysis.gaps import EDGE_HAIR_MM, Void
 
         self.outline = outline
         self.voids = [Void(v, enclosed, k) for k, v in enumerate(voids)]
@@ -268,7 +268,7 @@ class _Plane:
 def _chain(plane, k, a, b):
     import shapely
 
-    from returngap.detector import _chain_detour
+    from returngap.analysis.gaps import _chain_detour
 
     return _chain_detour(plane, plane.voids[k], shapely.Point(a), shapely.Point(b))
 

@@ -3,9 +3,10 @@
 from gerbonara import ExcellonFile, GerberFile
 
 from conftest import gerber
-from returngap import gerbonara_compat, importer, shapes
+from returngap.geometry import shapes
+from returngap.io import compat, load
 
-gerbonara_compat.apply()
+compat.apply()
 
 
 def test_step_and_repeat_expands_every_instance():
@@ -68,9 +69,9 @@ def test_excellon_x2_comment_sets_plating(tmp_path):
         "M48\n; #@! TF.FileFunction,NonPlated,1,4,NPTH\nMETRIC\nT1C1.000\n%\n"
         "G90\nT1\nX1.0Y1.0\nM30\n"
     )
-    role = importer.role_from_function(importer.X2_FUNC_RE.search(text).group(1))
+    role = load.role_from_function(load.X2_FUNC_RE.search(text).group(1))
     d = ExcellonFile.from_string(text)
-    drill, _ = importer.build_drill(
+    drill, _ = load.build_drill(
         type("F", (), {"name": "x.drl"})(), d, role, 4, text, "", role.span, "X2"
     )
     assert drill.plated is False and (drill.from_layer, drill.to_layer) == (1, 4)
@@ -90,7 +91,7 @@ def test_renamed_files_are_recognised_by_their_attributes(tmp_path):
             attrs="G04 #@! TF.FileFunction,Copper,L1,Top*",
         )
     )
-    b = importer.load_board(tmp_path)
+    b = load.load_board(tmp_path)
     assert [(c.name, c.file) for c in b.copper] == [("L1", "file2.gbr"), ("L2", "file1.gbr")]
 
 
@@ -105,7 +106,7 @@ def test_job_file_is_read(tmp_path):
         '{"Header": {}, "FilesAttributes": [{"Path": "a.gbr", "FileFunction": "Copper,L2,Bot"},'
         ' {"Path": "b.gbr", "FileFunction": "Copper,L1,Top"}]}'
     )
-    b = importer.load_board(tmp_path)
+    b = load.load_board(tmp_path)
     assert [(c.name, c.file, c.identified_by) for c in b.copper] == [
         ("L1", "b.gbr", "job file"),
         ("L2", "a.gbr", "job file"),

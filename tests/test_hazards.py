@@ -6,9 +6,9 @@ import math
 import pytest
 
 from boards import H, hazard_board
-from returngap import physics
-from returngap.pipeline import run_check
-from returngap.projector import Settings
+from returngap.model.settings import Settings
+from returngap.physics import formulas as physics
+from returngap.run.pipeline import run_check
 
 
 def kinds(folder, kind, **kw):

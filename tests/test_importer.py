@@ -7,15 +7,15 @@ import pytest
 import shapely
 
 from conftest import ROOT, gerber
-from returngap import importer
 from returngap.errors import InputError
+from returngap.io import load
 
 SQUARE = "G36*\nX0Y0D02*\nX10000000Y0D01*\nX10000000Y10000000D01*\nX0Y10000000D01*\nX0Y0D01*\nG37*"
 
 
 def one_layer(tmp_path, body, name="c.gbr", **kw):
     (tmp_path / name).write_text(gerber(body, **kw))
-    return importer.load_board(tmp_path).copper[0]
+    return load.load_board(tmp_path).copper[0]
 
 
 def test_clear_circle_in_dark_region(tmp_path):
@@ -71,7 +71,7 @@ def test_negative_polarity_plane(tmp_path):
             attrs="%TF.FileFunction,Copper,L1,Top*%\n%TF.FilePolarity,Negative*%",
         )
     )
-    b = importer.load_board(tmp_path)
+    b = load.load_board(tmp_path)
     assert b.outline.area == pytest.approx(200.0, abs=1e-6)
     assert b.copper[0].copper_area_mm2 == pytest.approx(200 - math.pi, abs=2 * math.pi * 1e-3)
 
@@ -136,7 +136,7 @@ def test_zip_input_and_ignored_files(tmp_path):
         z.writestr(".DS_Store", "junk")
         z.writestr("bom.csv", "ref,value")
         z.writestr("notes.pdf", "%PDF-1.4")
-    b = importer.load_board(buf)
+    b = load.load_board(buf)
     assert b.copper[0].file == "gerbers/top.gbr"
     assert {i["file"] for i in b.ignored} == {
         "__MACOSX/._top.gbr",
@@ -151,7 +151,7 @@ def test_hostile_zip_is_refused(tmp_path):
     with zipfile.ZipFile(buf, "w") as z:
         z.writestr("../../outside.gbr", gerber(SQUARE))
     with pytest.raises(InputError, match="unsafe member path"):
-        importer.load_board(buf)
+        load.load_board(buf)
     assert not (tmp_path.parent / "outside.gbr").exists()
 
 
@@ -160,7 +160,7 @@ def test_malformed_gerber_names_file_and_line(tmp_path):
         "%TF.FileFunction,Copper,L1,Top*%\n%FSLAX46Y46*%\n%MOMM*%\n%ADD10C,0.2*%\nD10*\nX0Y0D02*\nG37*\nM02*\n"
     )
     with pytest.raises(InputError) as e:
-        importer.load_board(tmp_path)
+        load.load_board(tmp_path)
     assert e.value.file == "bad.gbr" and e.value.line == 7
     assert "\n" not in str(e.value)
 
@@ -171,7 +171,7 @@ def test_job_file_disagreement_prefers_the_gerber(tmp_path):
     (tmp_path / "j.gbrjob").write_text(
         '{"Header": {}, "FilesAttributes": [{"Path": "b.gbr", "FileFunction": "Copper,L5,Inr"}]}'
     )
-    b = importer.load_board(tmp_path)
+    b = load.load_board(tmp_path)
     assert b.copper[1].file == "b.gbr"
     assert any("job file says 'Copper,L5,Inr'" in a for a in b.assumptions)
 
@@ -181,7 +181,7 @@ def _two_layer_with_drill(tmp_path, drill_text):
     (tmp_path / "t.gbr").write_text(gerber(pads, attrs="%TF.FileFunction,Copper,L1,Top*%"))
     (tmp_path / "b.gbr").write_text(gerber(pads, attrs="%TF.FileFunction,Copper,L2,Bot*%"))
     (tmp_path / "holes.drl").write_text(drill_text)
-    return importer.load_board(tmp_path)
+    return load.load_board(tmp_path)
 
 
 def test_drill_with_silent_header_is_inferred(tmp_path):
@@ -218,16 +218,16 @@ def test_layers_read_in_two_processes_match_one(tmp_path, monkeypatch):
     process, and a bad layer's error still names its file and line."""
     import numpy as np
 
-    from returngap import forking
+    from returngap.run import parallel
 
     demo = ROOT / "examples" / "demo-board"
-    one = importer.load_board(demo)
-    monkeypatch.setattr(importer, "PARALLEL_MIN_BYTES", 1)
-    monkeypatch.setattr(forking.threading, "active_count", lambda: 1)  # other tests' threads aside
+    one = load.load_board(demo)
+    monkeypatch.setitem(parallel.POLICY, "copper-layers", 1)
+    monkeypatch.setattr(parallel.threading, "active_count", lambda: 1)  # other tests' threads aside
     pools = []
-    real_fork = forking._fork
-    monkeypatch.setattr(forking, "_fork", lambda: pools.append(1) or real_fork())
-    two = importer.load_board(demo)
+    real_fork = parallel._fork
+    monkeypatch.setattr(parallel, "_fork", lambda: pools.append(1) or real_fork())
+    two = load.load_board(demo, runner=parallel.Parallel(2))
     assert pools, "the two-process path did not run"
     assert [c.name for c in one.copper] == [c.name for c in two.copper]
     for a, b in zip(one.copper, two.copper):
@@ -244,5 +244,5 @@ def test_layers_read_in_two_processes_match_one(tmp_path, monkeypatch):
         "D10*\nX0Y0D02*\nG37*\nM02*\n"
     )
     with pytest.raises(InputError) as e:
-        importer.load_board(tmp_path)
+        load.load_board(tmp_path, runner=parallel.Parallel(2))
     assert e.value.file == "bottom.gbr" and e.value.line == 7

@@ -4,7 +4,7 @@ import math
 
 import pytest
 
-from returngap import physics as ph
+from returngap.physics import formulas as ph
 
 
 def rel(a, b):

@@ -13,9 +13,10 @@ from click.testing import CliRunner
 from PIL import Image
 
 from conftest import ROOT
-from returngap import render, report
 from returngap.cli import main
-from returngap.pipeline import run_check
+from returngap.report import core as report
+from returngap.report import render
+from returngap.run.pipeline import run_check
 
 DEMO = ROOT / "examples" / "demo-board"
 sys.path.insert(0, str(ROOT / "examples"))
@@ -48,18 +49,16 @@ def test_pictures_exist_decode_and_are_ticket_sized(demo_out):
 def test_pictures_drawn_in_two_processes_match_one(tmp_path, monkeypatch):
     """The report folder written with the pictures split over two forked processes holds the same
     files, byte for byte, as one written by this process alone."""
-    from returngap import cli, forking
-    from returngap.projector import Settings
+    from returngap.run import outputs, parallel
 
-    result = run_check(DEMO, DEMO / "stackup.toml", settings=Settings(workers=1))
+    result = run_check(DEMO, DEMO / "stackup.toml", workers=1)
     rep = report.findings_report(result)
-    cli.write_outputs(result, rep, tmp_path / "one", "never")
-    monkeypatch.setattr(forking.threading, "active_count", lambda: 1)  # other tests' threads aside
+    outputs.write_outputs(result, rep, tmp_path / "one", "never", workers=1)
+    monkeypatch.setattr(parallel.threading, "active_count", lambda: 1)  # other tests' threads aside
     pools = []
-    real_fork = forking._fork
-    monkeypatch.setattr(forking, "_fork", lambda: pools.append(1) or real_fork())
-    result.settings = Settings(workers=2)
-    cli.write_outputs(result, rep, tmp_path / "two", "never")
+    real_fork = parallel._fork
+    monkeypatch.setattr(parallel, "_fork", lambda: pools.append(1) or real_fork())
+    outputs.write_outputs(result, rep, tmp_path / "two", "never", workers=2)
     assert pools, "the two-process path did not run"
     one = sorted(p.name for p in (tmp_path / "one").iterdir())
     assert len(one) == len(rep["findings"]) + 5  # pictures, overview, JSON, CSV, JUnit, HTML

@@ -3,10 +3,11 @@
 import pytest
 
 from boards import slot_board
-from returngap import config, connectivity, importer, stackup
+from returngap.analysis import connectivity, stackup
 from returngap.errors import InputError
-from returngap.model import Board
-from returngap.pipeline import load
+from returngap.io import config, load
+from returngap.model.board import Board
+from returngap.run.pipeline import read_board
 
 
 def _board(n):
@@ -77,7 +78,7 @@ def test_default_stackup_is_stated():
 
 
 def test_nets_join_through_vias_and_take_names(tmp_path):
-    b, cfg = load(slot_board(tmp_path, solid=True, own_via=True))
+    b, cfg = read_board(slot_board(tmp_path, solid=True, own_via=True))
     nets = connectivity.build_nets(b, cfg)
     # CLK on L1 and on L4 are one net through its via; GND planes on L2 and L3 are ground
     assert "CLK" in nets.layers["L4"].segment_net
@@ -89,13 +90,13 @@ def test_unnamed_nets_and_the_ground_rule(tmp_path):
     folder = slot_board(tmp_path, solid=True)
     for f in folder.glob("*.gbr"):
         f.write_text("\n".join(x for x in f.read_text().splitlines() if not x.startswith("%TO.N")))
-    b, cfg = load(folder)
+    b, cfg = read_board(folder)
     nets = connectivity.build_nets(b, cfg)
     names = set(nets.net_class)
     assert all(n.startswith("UNNAMED_") for n in names)
     gnd = [n for n, c in nets.net_class.items() if c == "ground"]
     assert len(gnd) == 1 and any("taken as ground" in a for a in b.assumptions)
-    again = connectivity.build_nets(load(folder)[0], cfg)
+    again = connectivity.build_nets(read_board(folder)[0], cfg)
     assert sorted(again.net_class.items()) == sorted(nets.net_class.items())  # stable names
 
 
@@ -124,7 +125,7 @@ def test_ipc356_records(tmp_path):
     )
     p = tmp_path / "n.ipc"
     p.write_text(text)
-    pts = importer.parse_netlist(type("F", (), {"name": "n.ipc", "path": p})())
+    pts = load.parse_netlist(type("F", (), {"name": "n.ipc", "path": p})())
     assert pts[0].net == "/N023" and pts[0].refdes == "D1" and pts[0].pin == "1"
     assert (pts[0].x, pts[0].y) == pytest.approx((3.5309 * 25.4, -2.7829 * 25.4))
     assert pts[1].is_via and pts[1].net == "NET-(D381-A)"

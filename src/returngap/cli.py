@@ -3,6 +3,7 @@
 Exit status: 0 clean, 1 findings at or above --fail-on, 2 bad input or usage.
 """
 
+import logging
 import os
 import shutil
 import sys
@@ -12,8 +13,9 @@ from pathlib import Path
 
 import click
 
-from . import __version__, forking, report
-from .errors import IncompleteError, InputError
+from returngap import __version__, report
+from returngap.errors import IncompleteError, InputError
+from returngap.run import outputs
 
 
 def _run(ctx, fn):
@@ -55,14 +57,6 @@ def _run(ctx, fn):
         sys.exit(2)
 
 
-def _write(path, text):
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(path.name + ".tmp")
-    tmp.write_text(text, encoding="utf-8")
-    os.replace(tmp, path)
-
-
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="returngap")
 @click.option("--debug", is_flag=True, help="Show a traceback on errors.")
@@ -70,6 +64,8 @@ def _write(path, text):
 def main(ctx, debug):
     """Return-current path checks on released PCB fabrication data (estimates for review)."""
     ctx.obj = {"debug": debug}
+    if debug:  # what the runner does behind the scenes (work redone after a child died, ...)
+        logging.basicConfig(level=logging.DEBUG, format="returngap: debug: %(message)s")
 
 
 @main.command()
@@ -81,60 +77,13 @@ def main(ctx, debug):
 @click.pass_context
 def layers(ctx, board, stackup_file, as_json):
     """Show the recognised layers, drills, stackup, ignored files and assumptions."""
-    from . import connectivity, pipeline
+    from returngap.run import pipeline
 
     def go():
-        b, cfg = pipeline.load(list(board), stackup_file)
-        rep = report.layers_report(b, connectivity.build_nets(b, cfg))
-        rep["problems"] = [str(p) for p in b.problems]
+        rep = pipeline.layers_report(list(board), stackup_file)
         click.echo(report.to_json(rep) if as_json else report.layers_text(rep), nl=not as_json)
 
     _run(ctx, go)
-
-
-def _progress(items, label, quiet):
-    """A bar on a terminal; silent when piped, in CI or with --quiet."""
-    show = not quiet and sys.stderr.isatty() and not os.environ.get("CI")
-    if not show:
-        return items
-    from tqdm import tqdm
-
-    return tqdm(items, desc=label, unit="", leave=False, file=sys.stderr)
-
-
-PARALLEL_MIN_PICTURES = 6  # fewer are drawn in this process alone
-
-
-def write_outputs(result, rep, out_dir, fail_on, quiet=True):
-    """Everything `check --out` writes: JSON, CSV, JUnit, overview and per-finding PNGs,
-    report.html."""
-    from . import htmlpage, render
-
-    out = Path(out_dir)
-    out.mkdir(parents=True, exist_ok=True)
-    for old in out.glob("finding-*.png"):  # pictures of an earlier run would mislead
-        old.unlink()
-    _write(out / "findings.json", report.to_json(rep))
-    _write(out / "findings.csv", report.to_csv(rep))
-    _write(out / "junit.xml", report.to_junit(rep, fail_on))
-    images = {f["id"]: out / f"finding-{f['id']}.png" for f in rep["findings"]}
-    # pictures are independent: on a large report, two forked processes draw every other one
-    todo = [(out / "overview.png", None, None)] + [
-        (images[f["id"]], f, i) for i, f in enumerate(rep["findings"], 1)
-    ]
-    workers = (
-        forking.workers_for(result.settings.workers) if len(todo) >= PARALLEL_MIN_PICTURES else 1
-    )
-
-    def draw(k):
-        for path, f, i in _progress(todo[k::workers], "pictures", quiet or k > 0):
-            if f is None:
-                render.overview_png(result, rep, path)
-            else:
-                render.finding_png(result, f, i, path)
-
-    forking.fork_map(draw, workers, workers)
-    _write(out / "report.html", htmlpage.page(rep, images, out / "overview.png"))
 
 
 @main.command()
@@ -217,8 +166,9 @@ def check(
     allow_incomplete,
 ):
     """Find where return current must detour around slots, splits and voids."""
-    from . import pipeline, review
-    from .projector import Settings
+    from returngap.model.settings import Settings
+    from returngap.report import review
+    from returngap.run import pipeline
 
     if rise_ns and max_ghz:
         raise click.UsageError("give --rise-time or --max-freq, not both")
@@ -240,9 +190,9 @@ def check(
         if baseline is not None:
             review.compare(rep, baseline, baseline_tolerance)
         if json_file:
-            _write(json_file, report.to_json(rep))
+            outputs.write_text(json_file, report.to_json(rep))
         if out_dir:
-            write_outputs(result, rep, out_dir, fail_on, quiet)
+            outputs.write_outputs(result, rep, out_dir, fail_on, quiet)
         if not quiet:
             click.echo(report.findings_table(rep, limit))
             for w in (rep.get("waivers") or {}).get("stale", []):
@@ -343,21 +293,20 @@ def audit(
     quiet,
 ):
     """Audit many board archives or folders: one report folder per board and a batch summary."""
-    from . import audit as batch
-    from .projector import Settings
+    from returngap.batch import audit as batch
+    from returngap.model.settings import Settings
 
     if rise_ns and max_ghz:
         raise click.UsageError("give --rise-time or --max-freq, not both")
-    settings = Settings()
+    settings = Settings(max_freq_GHz=max_ghz)
     if rise_ns:
         settings.rise_time_ns = rise_ns
-    s = {"rise_time_ns": settings.rise_time_ns, "max_freq_GHz": max_ghz}
 
     def go():
         out = Path(out_dir)
         out.mkdir(parents=True, exist_ok=True)
         tasks = batch.make_tasks(
-            sources, out, s, stackup_dir, fail_on, force, time_limit_s, memory_limit_mb
+            sources, out, settings, stackup_dir, fail_on, force, time_limit_s, memory_limit_mb
         )
         if not tasks:
             raise InputError(", ".join(sources), "no board archives or fabrication folders found")

@@ -1,0 +1,622 @@
+"""Copper islands per layer, joined through plated holes into nets.
+
+Net names come from the Gerbers' .N attributes, else from an IPC-D-356 netlist, else
+stable generated names. Ground and power follow from names (or the user's lists);
+when no net is named like a ground, the net with the most copper is taken as ground.
+"""
+
+import fnmatch
+import re
+import weakref
+from collections import Counter, defaultdict
+from dataclasses import dataclass, field
+
+import networkx as nx
+import numpy as np
+import shapely
+
+from returngap.geometry.shapes import disjoint_union, intersects_pairs, touch_components
+from returngap.model.runner import SERIAL
+
+__all__ = [
+    "GROUND_RE",
+    "POWER_RE",
+    "PLANE_AREA_FRACTION",
+    "leaf",
+    "LayerNets",
+    "Nets",
+    "touching",
+    "FILL_OVERLAP",
+    "NetConflict",
+    "classify",
+    "layer_islands",
+    "build_nets",
+]
+
+GROUND_RE = re.compile(
+    r"^(?:[ADPSCH]?GND\w*|GND\w*|VSS\w*|0V|EARTH|CHASSIS|GROUND\w*|\w*_GND|\w*GND)$", re.I
+)
+POWER_RE = re.compile(
+    r"^(?:\+|-)?(?:V(?:CC|DD|EE|BUS|BAT|IN|IO|REF|CORE|SYS|PP|DDQ|TT)\w*|PWR\w*|POWER\w*|"
+    r"P?\d+V\d*\w*|\d+V|V\d+\w*|\d+\.\d+V\w*)$",
+    re.I,
+)
+PLANE_AREA_FRACTION = (
+    0.20  # an island this share of the board acts as a plane (common practice, no source)
+)
+
+
+def leaf(name):
+    """Hierarchical names (/sheet/VDD33, Board_0-GND) are classed by their last part."""
+    return re.split(r"[/\\]", name)[-1].split("-")[-1].strip()
+
+
+class LayerNets:
+    """The copper islands of one layer and their nets.
+
+    An island is a connected group of the layer's pieces (drawn shapes that touch or overlap); its
+    polygon is the union of its pieces, built only when a check asks for it (planes, pours, floating
+    copper), so signal tracks are never unioned."""
+
+    def __init__(
+        self,
+        name,
+        pieces,
+        piece_island,
+        island_net,
+        segment_net,
+        flash_net,
+        segment_fill,
+        tree=None,
+    ):
+        self.name = name
+        self.pieces = pieces
+        self.piece_island = piece_island
+        self.island_net = island_net
+        self.segment_net = segment_net
+        self.flash_net = flash_net
+        self.segment_fill = segment_fill
+        self.tree = tree if tree is not None else shapely.STRtree(pieces)
+        order = np.argsort(piece_island, kind="stable")
+        self._order = order
+        self._start = np.searchsorted(piece_island[order], np.arange(len(island_net) + 1))
+        self._poly = {}
+        self._union = {}
+        self._area_bounds = None
+        self.island_tied = np.zeros(len(island_net), dtype=bool)
+
+    @property
+    def n_islands(self):
+        return len(self.island_net)
+
+    def members(self, i):
+        return self._order[self._start[i] : self._start[i + 1]]
+
+    def island(self, i):
+        """Polygon (rarely a MultiPolygon, where pieces only touch at a point) of island i."""
+        poly = self._poly.get(i)
+        return poly if poly is not None else self.island_polygons([i])[0]
+
+    def island_polygons(self, idx):
+        """Polygons of many islands, unioned in a few vectorised calls (islands bucketed by piece
+        count, padded; shapely releases the GIL there, so layers can go in parallel threads)."""
+        idx = [int(i) for i in idx]
+        need = np.array(sorted({i for i in idx if i not in self._poly}), dtype=int)
+        if len(need):
+            size = self._start[need + 1] - self._start[need]
+            polys = np.empty(len(need), dtype=object)
+            one = size == 1
+            polys[one] = self.pieces[self._order[self._start[need[one]]]]
+            many = size > 16
+            for k in np.flatnonzero(many):  # planes and pours: most pads drawn on them add nothing
+                m = self.pieces[self.members(need[k])]
+                at = int(np.argmax(shapely.area(m)))
+                big, rest = m[at], np.delete(m, at)
+                shapely.prepare(big)
+                polys[k] = shapely.union_all(
+                    np.concatenate([[big], rest[~shapely.covers(big, rest)]])
+                )
+            bucket = np.ceil(np.log2(np.maximum(size, 1))).astype(int)
+            for b in np.unique(bucket[~one & ~many]):
+                rows = np.flatnonzero((bucket == b) & ~one & ~many)
+                grid = np.full((len(rows), int(size[rows].max())), None, dtype=object)
+                for r, k in enumerate(rows):
+                    grid[r, : size[k]] = self.pieces[self.members(need[k])]
+                polys[rows] = shapely.union_all(grid, axis=1)
+            bad = ~shapely.is_valid(polys[one]) if one.any() else np.zeros(0, dtype=bool)
+            if bad.any():  # a drawn region that crosses itself; unions come out valid
+                at = np.flatnonzero(one)[bad]
+                polys[at] = shapely.make_valid(polys[at])
+            shapely.prepare(polys)
+            self._poly.update(zip(need.tolist(), polys))
+        return [self._poly[i] for i in idx]
+
+    def island_area(self, i):
+        return float(self.island(i).area)
+
+    def island_areas(self):
+        """Area of every island (each island's union, built once and kept)."""
+        return (
+            shapely.area(np.array(self.island_polygons(range(self.n_islands)), dtype=object))
+            if self.n_islands
+            else np.zeros(0)
+        )
+
+    def piece_area_bounds(self):
+        """Per island, (sum of its pieces' areas, largest piece's area): its area lies between.
+        Worked out once (the pour test, the plane checks and the ground choice all ask),
+        read-only."""
+        if self._area_bounds is None:
+            area = shapely.area(self.pieces)
+            largest = np.zeros(self.n_islands)
+            np.maximum.at(largest, self.piece_island, area)
+            total = np.bincount(self.piece_island, weights=area, minlength=self.n_islands)
+            for a in (total, largest):
+                a.setflags(write=False)
+            self._area_bounds = (total, largest)
+        return self._area_bounds
+
+    def islands_of(self, nets):
+        """(index, polygon) of every island whose net is in `nets`."""
+        idx = [i for i, n in enumerate(self.island_net) if n in nets]
+        return list(zip(idx, self.island_polygons(idx)))
+
+    def union_of(self, nets):
+        """All copper of the given nets on this layer, as one geometry (cached)."""
+        key = frozenset(nets)
+        if key not in self._union:
+            self._union[key] = disjoint_union(
+                p for _, p in self.islands_of(key)
+            )  # islands never touch
+        return self._union[key]
+
+    def islands_at(self, pts, distance=0.0):
+        """Island index per point (-1 off copper); with distance > 0, within that distance of
+        copper."""
+        out = np.full(len(pts), -1, dtype=int)
+        if not len(pts) or not len(self.pieces):
+            return out
+        if distance > 0:
+            q = self.tree.query(pts, predicate="dwithin", distance=distance)
+        else:
+            q = touching(self.tree, self.pieces, np.asarray(pts))
+        out[q[0]] = self.piece_island[q[1]]
+        return out
+
+    def net_copper(self, net):
+        return self.union_of({net})
+
+
+@dataclass
+class Nets:
+    layers: dict  # layer name -> LayerNets
+    net_class: dict  # net -> ground | power | signal
+    plane_nets: set
+    hole_net: dict  # (drill file, hole index) -> net
+    notes: list = field(default_factory=list)
+    conflicts: list = field(
+        default_factory=list
+    )  # NetConflict: one piece of copper, two net labels
+
+    def is_signal(self, net):
+        return self.net_class.get(net, "signal") == "signal"
+
+    def plated_holes(self, board):
+        """(x, y, radius, net, from, to) of every plated round hole whose net is known."""
+        out = []
+        for d in board.drills:
+            for k, h in enumerate(d.holes):
+                net = self.hole_net.get((d.file, k))
+                if net and d.hole_plated[k]:
+                    out.append((h[0], h[1], h[2] / 2, net, d.from_layer, d.to_layer))
+        return out
+
+
+def touching(tree, pieces, geoms):
+    """(query index, piece index) of each geometry touching or overlapping a piece: bounding boxes
+    from the tree, then exact tests with the larger geometry of each pair prepared (a plane with
+    thousands of antipads is never re-scanned for each pad that sits on it)."""
+    q = tree.query(geoms)
+    if not q.shape[1]:
+        return q
+    counts = _VERTEX_COUNTS.get(tree)
+    if counts is None:
+        counts = _VERTEX_COUNTS[tree] = shapely.get_num_coordinates(tree.geometries)
+    return q[:, intersects_pairs(geoms[q[0]], pieces[q[1]], nb=counts[q[1]])]
+
+
+_VERTEX_COUNTS = weakref.WeakKeyDictionary()  # tree -> vertex count of each of its geometries
+
+
+def _island_index(piece_island, tree, xy):
+    """Island containing each point; nearest island for points that fall on no copper."""
+    if len(xy) == 0:
+        return np.zeros(0, dtype=int)
+    pts = shapely.points(xy)
+    out = np.full(len(xy), -1, dtype=int)
+    cand = touching(tree, tree.geometries, pts)
+    out[cand[0]] = piece_island[cand[1]]
+    miss = np.nonzero(out < 0)[0]
+    if len(miss):
+        near = tree.query_nearest(pts[miss], all_matches=False)
+        out[miss[near[0]]] = piece_island[near[1]]
+    return out
+
+
+FILL_OVERLAP = 1.6  # strokes covering an island this many times over are a pour, not tracks
+
+
+def _fill_segments(layer, ln, seg_isl, pairs):
+    """Segments of islands drawn as overlapping strokes (Eagle-style pours): their stroke area adds
+    up to far more than the island's own area, which single tracks never do. Only islands with
+    enough stroke area to qualify are unioned to find out."""
+    s = layer.segments
+    if not len(s) or not ln.n_islands:
+        return np.zeros(len(s), dtype=bool)
+    stroke = np.hypot(s[:, 2] - s[:, 0], s[:, 3] - s[:, 1]) * s[:, 4]
+    per_island = np.bincount(seg_isl, weights=stroke, minlength=ln.n_islands)
+    count = np.bincount(seg_isl, minlength=ln.n_islands)
+    fill_island = np.zeros(ln.n_islands, dtype=bool)
+    cand = (per_island > FILL_OVERLAP * 2.0) & (count >= 8)
+    if cand.any():
+        # an island is at least as large as its largest piece: a poured region with tracks on it is
+        # ruled out without looking at overlaps
+        total, largest = ln.piece_area_bounds()
+        cand &= per_island > FILL_OVERLAP * largest
+    if cand.any():
+        # Bonferroni: union area >= sum of piece areas - sum of pairwise overlaps; islands
+        # whose bound
+        # already rules a pour out (single tracks: pieces overlap only at their ends) are
+        # not unioned
+        lower = total.copy()
+        a, b = pairs
+        keep = cand[ln.piece_island[a]]
+        a, b = a[keep], b[keep]
+        overlap = shapely.area(shapely.intersection(ln.pieces[a], ln.pieces[b]))
+        lower -= np.bincount(ln.piece_island[a], weights=overlap, minlength=ln.n_islands)
+        for i in np.nonzero(cand & (per_island > FILL_OVERLAP * lower))[0]:
+            isl_area = ln.island_area(int(i))
+            fill_island[i] = per_island[i] > FILL_OVERLAP * isl_area and isl_area > 2.0
+    return fill_island[seg_isl]
+
+
+@dataclass
+class NetConflict:
+    """Copper joined into one net (touching, or through a plated hole) that carries another net's
+    label too: a short in the released data, or a label the writer got wrong."""
+
+    net: str  # the label most of the copper carries
+    other: str  # the other label
+    layer: str  # where the other label's copper joins it
+    x: float
+    y: float
+    labels: int  # how many objects carry the other label there
+    part: str | None = None  # a part whose own pads carry both labels there (a net tie, a jumper)
+
+
+def _labelled_point(board, li, island, name, per_layer):
+    """Where on an island an object carries the given label: a flash, a stroke or a region."""
+    layer = board.copper[li]
+    piece_island, _, seg_isl, fl_isl, _, _ = per_layer[layer.name]
+    for k, (n, i) in enumerate(zip(layer.flash_net, fl_isl)):
+        if n == name and i == island:
+            return float(layer.flashes[k, 0]), float(layer.flashes[k, 1])
+    for k, (n, i) in enumerate(zip(layer.segment_net, seg_isl)):
+        if n == name and i == island:
+            s = layer.segments[k]
+            return float((s[0] + s[2]) / 2), float((s[1] + s[3]) / 2)
+    c = layer.islands_found[3] if layer.islands_found else []
+    for (poly, n, _), i in zip(layer.regions, c):
+        if n == name and i == island:
+            p = poly.representative_point()
+            return p.x, p.y
+    return None
+
+
+def _tie_part(board, comp, per_layer, a, b):
+    """A part with a pad on each label on one island (its pads joined by copper right there: a net
+    tie or a jumper)."""
+    for li, island in comp:
+        layer = board.copper[li]
+        fl_isl = per_layer[layer.name][3]
+        parts = {a: set(), b: set()}
+        for n, i, part in zip(layer.flash_net, fl_isl, layer.flash_part):
+            if part and i == island and n in parts:
+                parts[n].add(part[0])
+        both = sorted(parts[a] & parts[b])
+        if both:
+            return both[0]
+    return None
+
+
+def _conflicts(board, comp, votes, per_layer, name, tally):
+    """One NetConflict per other label in a component: at the island where that label is
+    strongest."""
+    out = []
+    for other in sorted(n for n in tally if n != name):
+        li, island = max(
+            (node for node in comp if votes.get(node, {}).get(other)),
+            key=lambda node: (votes[node][other], -node[0], -node[1]),
+        )
+        at = _labelled_point(board, li, island, other, per_layer)
+        if at is None:  # a netlist point only
+            b = shapely.bounds(
+                board.copper[li].pieces[per_layer[board.copper[li].name][0] == island]
+            )
+            at = (
+                float((b[:, 0].min() + b[:, 2].max()) / 2),
+                float((b[:, 1].min() + b[:, 3].max()) / 2),
+            )
+        out.append(
+            NetConflict(
+                name,
+                other,
+                board.copper[li].name,
+                at[0],
+                at[1],
+                int(votes[(li, island)][other]),
+                _tie_part(board, comp, per_layer, name, other),
+            )
+        )
+    return out
+
+
+def classify(names, user_cfg):
+    cls = {}
+    g_globs = user_cfg.get("ground_nets", []) if user_cfg else []
+    p_globs = user_cfg.get("power_nets", []) if user_cfg else []
+    for n in names:
+        if any(fnmatch.fnmatchcase(n, g) for g in g_globs):
+            cls[n] = "ground"
+        elif any(fnmatch.fnmatchcase(n, g) for g in p_globs):
+            cls[n] = "power"
+        elif GROUND_RE.match(leaf(n)):
+            cls[n] = "ground"
+        elif POWER_RE.match(leaf(n)):
+            cls[n] = "power"
+        else:
+            cls[n] = "signal"
+    return cls
+
+
+def _tally(votes, li, islands, names, weight):
+    """Add `weight` votes for each named object's net to its island (counted in numpy, not one by
+    one)."""
+    uniq = sorted({n for n in names if n})
+    code = {n: k for k, n in enumerate(uniq)}
+    if not uniq:
+        return
+    c = np.fromiter((code.get(n, -1) if n else -1 for n in names), int, len(names))
+    ok = c >= 0
+    pair, count = np.unique(np.asarray(islands)[ok] * len(uniq) + c[ok], return_counts=True)
+    for p, k in zip(pair.tolist(), count.tolist()):
+        votes[(li, p // len(uniq))][uniq[p % len(uniq)]] += weight * k
+
+
+def layer_islands(layer):
+    """Islands of one layer's pieces, and the island under each segment, flash and region; kept on
+    the
+    layer (as layer.islands_found, with its pieces' tree as layer.piece_tree), so that the import
+    can
+    work them out for each layer as it reads it, on either core."""
+    pieces = layer.pieces
+    shapely.prepare(pieces)  # point and hole tests below and in later stages
+    tree = shapely.STRtree(pieces)
+    piece_island, count, pairs = touch_components(pieces, tree)
+    seg_isl = fl_isl = reg_isl = np.zeros(0, dtype=int)
+    if count:
+        s = layer.segments
+        seg_isl = _island_index(
+            piece_island, tree, np.column_stack([(s[:, 0] + s[:, 2]) / 2, (s[:, 1] + s[:, 3]) / 2])
+        )
+        fl_isl = _island_index(piece_island, tree, layer.flashes[:, :2])
+        reg_xy = shapely.get_coordinates(
+            shapely.point_on_surface(np.array([r[0] for r in layer.regions], dtype=object))
+        ).reshape(-1, 2)
+        reg_isl = _island_index(piece_island, tree, reg_xy)
+    layer.islands_found = (piece_island, seg_isl, fl_isl, reg_isl, count, pairs)
+    layer.piece_tree = tree
+
+
+def _layer_islands(layer):
+    """layer_islands' results, worked out here unless the import did (a tree rebuilt where the layer
+    came from another process, which sends no tree)."""
+    if layer.islands_found is None:
+        layer_islands(layer)
+    elif layer.piece_tree is None:
+        shapely.prepare(layer.pieces)
+        layer.piece_tree = shapely.STRtree(layer.pieces)
+    piece_island, seg_isl, fl_isl, reg_isl, count, pairs = layer.islands_found
+    return piece_island, layer.piece_tree, seg_isl, fl_isl, reg_isl, count, pairs
+
+
+def build_nets(board, user_cfg=None, runner=SERIAL):
+    """Nets of the board: islands per layer joined through plated holes, named and classed; the
+    per-layer geometry in the runner's pool (shapely's vectorised calls release the GIL)."""
+    g = nx.Graph()
+    per_layer = {}
+    votes = defaultdict(Counter)
+    size = board.track_segments
+    with runner.threads(size) as pool:
+        found = list(pool.map(_layer_islands, board.copper))
+    for li, (layer, (piece_island, tree, seg_isl, fl_isl, reg_isl, count, pairs)) in enumerate(
+        zip(board.copper, found)
+    ):
+        if count:
+            _tally(votes, li, seg_isl, layer.segment_net, 1)
+            _tally(votes, li, fl_isl, layer.flash_net, 1)
+            _tally(
+                votes, li, reg_isl, [r[1] for r in layer.regions], 5
+            )  # a named pour speaks for its island
+        g.add_nodes_from((li, int(i)) for i in range(count))
+        per_layer[layer.name] = (piece_island, tree, seg_isl, fl_isl, count, pairs)
+
+    hole_nodes = {}
+    layer_pos = {c.name: i for i, c in enumerate(board.copper)}
+    tied = defaultdict(set)  # islands with a hole or pad in them: not floating
+    for drill in board.drills:
+        geoms = list(
+            shapely.buffer(
+                shapely.points(drill.holes[:, :2]), np.maximum(drill.holes[:, 2] / 2, 0.01)
+            )
+        )
+        geoms += list(
+            shapely.buffer(
+                shapely.linestrings([[(s[0], s[1]), (s[2], s[3])] for s in drill.slots])
+                if len(drill.slots)
+                else [],
+                drill.slots[:, 4] / 2 if len(drill.slots) else 0,
+            )
+        )
+        geoms = np.array(geoms, dtype=object)
+        if not len(geoms):
+            continue
+        hits = defaultdict(list)
+        for ln in range(drill.from_layer, drill.to_layer + 1):
+            li = layer_pos.get(f"L{ln}")
+            if li is None:
+                continue
+            piece_island, tree, _, _, count, _ = per_layer[f"L{ln}"]
+            if not count:
+                continue
+            layer_pieces = board.copper[li].pieces
+            centres = shapely.points(drill.holes[:, :2])
+            tied[li].update(piece_island[touching(tree, layer_pieces, centres)[1]].tolist())
+            plated = np.concatenate([drill.hole_plated, drill.slot_plated])
+            if not plated.any():
+                continue
+            q = touching(tree, layer_pieces, geoms)
+            q = q[:, plated[q[0]]]  # non-plated holes join nothing
+            for h, isl in zip(q[0], piece_island[q[1]]):
+                if not hits[h] or hits[h][-1] != (li, int(isl)):
+                    hits[h].append((li, int(isl)))
+        for h, nodes in hits.items():
+            hole_nodes[(drill.file, int(h))] = nodes[0]
+            for a, b in zip(nodes[:-1], nodes[1:]):
+                g.add_edge(a, b)
+
+    last = len(board.copper) - 1
+    for p in board.netlist:
+        # a point votes on the side the netlist says it is reached from (both: a through-hole pad)
+        sides = (0, last) if p.layers is None else ((0,) if p.layers[0] == 1 else (last,))
+        for li in sides:
+            piece_island, tree, _, _, count, _ = per_layer[board.copper[li].name]
+            if not count:
+                continue
+            hit = touching(tree, board.copper[li].pieces, np.array([shapely.Point(p.x, p.y)]))[1]
+            for isl in set(piece_island[hit].tolist()):
+                votes[(li, int(isl))][p.net] += 3
+
+    comps = sorted((sorted(c) for c in nx.connected_components(g)), key=lambda c: c[0])
+    node_net = {}
+    unnamed = []
+    conflicts = []
+    for comp in comps:
+        tally = Counter()
+        for node in comp:
+            tally.update(votes.get(node, {}))
+        if tally:
+            name = min(tally.items(), key=lambda kv: (-kv[1], kv[0]))[0]
+            for node in comp:
+                node_net[node] = name
+            if len(tally) > 1:
+                conflicts.extend(_conflicts(board, comp, votes, per_layer, name, tally))
+        else:
+            unnamed.append(comp)
+    layers = {}
+    for layer in board.copper:
+        piece_island, tree, seg_isl, fl_isl, count, pairs = per_layer[layer.name]
+        layers[layer.name] = LayerNets(
+            layer.name, layer.pieces, piece_island, [None] * count, [], [], None, tree
+        )
+    # stable generated names: order by layer and position (the centre of an island's bounds) of the
+    # component's first island in that order, whatever order the pieces were drawn in
+
+    centre = {}  # layer position -> per island, the centre of its bounds (all islands at once)
+    for li, layer in enumerate(board.copper):
+        piece_island, count = per_layer[layer.name][0], per_layer[layer.name][4]
+        b = shapely.bounds(layer.pieces)
+        lo = np.full((count, 2), np.inf)
+        hi = np.full((count, 2), -np.inf)
+        np.minimum.at(lo, piece_island, b[:, :2])
+        np.maximum.at(hi, piece_island, b[:, 2:])
+        centre[li] = np.round((lo + hi) / 2, 3).tolist()
+
+    def key(comp):
+        return min((li, *centre[li][i]) for li, i in comp)
+
+    for k, comp in enumerate(sorted(unnamed, key=key)):
+        for node in comp:
+            node_net[node] = f"UNNAMED_{k + 1:04d}"
+
+    for li, layer in enumerate(board.copper):
+        piece_island, tree, seg_isl, fl_isl, count, pairs = per_layer[layer.name]
+        ln = layers[layer.name]
+        ln.island_net = [node_net[(li, i)] for i in range(count)]
+        ln.segment_net = [ln.island_net[i] for i in seg_isl]
+        ln.flash_net = [ln.island_net[i] for i in fl_isl]
+        ln.island_tied[list(tied[li] | set(fl_isl.tolist()))] = True
+    net_class = classify(sorted(set(node_net.values())), user_cfg)
+    limit = PLANE_AREA_FRACTION * (board.outline.area or 1.0)
+
+    def finish(li):
+        """Pour segments and plane-sized islands of one layer (the unions here release the GIL)."""
+        layer = board.copper[li]
+        ln = layers[layer.name]
+        _, _, seg_isl, _, _, pairs = per_layer[layer.name]
+        ln.segment_fill = _fill_segments(layer, ln, seg_isl, pairs)
+        # an island is at least as large as its largest piece and at most the sum of them: only
+        # islands between the two bounds are unioned here
+        upper, lower = ln.piece_area_bounds()
+        return {
+            ln.island_net[i]
+            for i in np.flatnonzero(upper >= limit)
+            if lower[i] >= limit or ln.island_area(int(i)) >= limit
+        }
+
+    with runner.threads(size) as pool:
+        big = set().union(*pool.map(finish, range(len(board.copper))))
+    notes = []
+    if not any(c == "ground" for c in net_class.values()) and any(
+        ln.n_islands for ln in layers.values()
+    ):
+        # each island's area lies between its largest piece's and its pieces' sum: only nets whose
+        # upper bound reaches the best lower bound can have the most copper, so only
+        # theirs are unioned
+        upper, lower = Counter(), Counter()
+        for ln in layers.values():
+            up, lo = ln.piece_area_bounds()
+            for n, u, lw in zip(ln.island_net, up.tolist(), lo.tolist()):
+                upper[n] += u
+                lower[n] += lw
+        best = max(lower.values())
+        area_by_net = Counter()
+
+        def areas(ln):  # each layer's candidate islands unioned in one call (in two threads)
+            idx = [i for i, n in enumerate(ln.island_net) if upper[n] >= best]
+            return [
+                (ln.island_net[i], a) for i, a in zip(idx, shapely.area(ln.island_polygons(idx)))
+            ]
+
+        with runner.threads(size) as pool:
+            for found in pool.map(areas, layers.values()):
+                for n, a in found:
+                    area_by_net[n] += a
+        gnd = max(area_by_net.items(), key=lambda kv: (kv[1], kv[0]))[0]
+        net_class[gnd] = "ground"
+        notes.append(
+            f"no net is named like a ground: {gnd}, the net with the most copper "
+            f"({area_by_net[gnd]:.0f} mm2), is taken as ground"
+        )
+    for n in sorted(big):
+        if net_class[n] == "signal":
+            net_class[n] = "power"
+            notes.append(
+                f"net {n} has a plane-sized island (>= {PLANE_AREA_FRACTION:.0%} of the board) "
+                "and is treated as a power plane"
+            )
+    plane_nets = {n for n, c in net_class.items() if c in ("ground", "power")}
+    hole_net = {k: node_net[v] for k, v in hole_nodes.items()}
+    for note in notes:
+        board.assume(note)
+    return Nets(layers, net_class, plane_nets, hole_net, notes, conflicts)

@@ -1,0 +1,953 @@
+"""Gap crossings: where a track's return footprint meets missing copper of its reference net.
+
+A void here is any connected piece of (board outline - reference-net copper) on the
+reference layer. The centre line crossing it, with the same plane island on both
+sides, is a slot or void crossing with a geodesic detour; with different islands (or
+nets) on the two sides it is a split. A footprint that only grazes an enclosed void
+is reported when the interrupted share of return current is large enough. A track
+ending inside a void (its own via's antipad, or running off the plane) is left to
+the layer-change and plane-edge checks.
+"""
+
+import functools
+import hashlib
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import shapely
+
+from returngap import physics
+from returngap.analysis.references import footprint_polygon, line_z0
+from returngap.geometry.cuts import cut_intervals, ring_edges
+from returngap.geometry.gridpath import CELLS, Lattice, lattice_way
+from returngap.model.runner import SERIAL
+
+__all__ = [
+    "EPS",
+    "STEP_OFF_MM",
+    "MAX_STATIONS",
+    "EDGE_HAIR_MM",
+    "WINDOW_MM",
+    "Void",
+    "ReferenceCopper",
+    "interval_fraction",
+    "interrupted_share",
+    "stable_id",
+    "slot_geometry",
+    "chain_plane_nets",
+    "gap_scan_tasks",
+    "coords_along",
+    "coords_along_lines",
+    "majority_nets",
+]
+
+EPS = 1e-6
+STEP_OFF_MM = 0.01  # how far beyond a gap's edge the detour path starts and ends
+MAX_STATIONS = 160  # transverse cuts per crossing for the interrupted share
+EDGE_HAIR_MM = 0.005  # a detour may graze a gap's edge by this much
+WINDOW_MM = 10.0  # side of the first detour window (at least); the second is three times as wide
+
+
+@dataclass
+class Void:
+    geom: object
+    enclosed: bool
+    index: int
+
+    @functools.cached_property
+    def rect(self):
+        return self.geom.minimum_rotated_rectangle  # one per void, however many tracks cross it
+
+    @functools.cached_property
+    def edges(self):
+        return ring_edges(self.geom)
+
+    def edges_by(self, m, u, reach):
+        """Its edges that can meet the line m + t u, |t| <= reach (which starts and ends off the
+        void): all of them for a small void; for a large one those whose boxes meet short pieces of
+        the stretch of line inside its box, from a tree of its edges (a single cut through all the
+        edges of a large void costs more than the lookup)."""
+        if len(self.edges) < 2000:
+            return self.edges
+        x0, y0, x1, y1 = self.geom.bounds
+        with np.errstate(
+            divide="ignore", invalid="ignore", over="ignore"
+        ):  # the stretch of line in the box
+            ta = np.where(u != 0, (np.array([x0, y0]) - m) / u, -np.inf)
+            tb = np.where(u != 0, (np.array([x1, y1]) - m) / u, np.inf)
+        inside = (u != 0) | ((m >= (x0, y0)) & (m <= (x1, y1)))
+        if not inside.all():
+            return self.edges[:0]
+        lo, hi = np.minimum(ta, tb).max() - 1e-3, np.maximum(ta, tb).min() + 1e-3
+        if lo > hi:
+            return self.edges[:0]
+        tree = self.__dict__.get("_edge_tree")
+        if tree is None:
+            tree = self.__dict__["_edge_tree"] = shapely.STRtree(
+                shapely.linestrings(self.edges.reshape(-1, 2, 2))
+            )
+        t = np.linspace(lo, hi, max(2, int((hi - lo) / 2.0) + 2))  # pieces about 2 mm long
+        a, b = m + t[:-1, None] * u, m + t[1:, None] * u
+        # each piece's box, a hair larger: an edge through a piece's end is found from both sides
+        boxes = shapely.box(*(np.minimum(a, b) - 1e-6).T, *(np.maximum(a, b) + 1e-6).T)
+        return self.edges[np.unique(tree.query(boxes)[1])]
+
+    @functools.cached_property
+    def rings(self):
+        """Its rings (outer first) as LineStrings, and a tree of them."""
+        rings = shapely.get_rings(self.geom)
+        return rings, shapely.STRtree(rings)
+
+    def ring_points(self, k):
+        """Points of ring k (closed) and their distances along it (kept)."""
+        cache = self.__dict__.setdefault("_ring_points", {})
+        if k not in cache:
+            xy = shapely.get_coordinates(self.rings[0][k])
+            cache[k] = xy, np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(xy, axis=0).T))])
+        return cache[k]
+
+    def locate(self, k, pts):
+        """Distances along ring k of the points nearest to pts, from the ring's nearest edges (found
+        in a tree of its edges when it has many)."""
+        xy, run = self.ring_points(k)
+        cache = self.__dict__.setdefault("_edge_trees", {})
+        if len(xy) > 65:
+            tree = cache.get(k)
+            if tree is None:
+                tree = cache[k] = shapely.STRtree(
+                    shapely.linestrings(np.stack([xy[:-1], xy[1:]], axis=1))
+                )
+            e = tree.query_nearest(shapely.points(pts), all_matches=False)[1]
+        else:
+            e = None
+        a, d = xy[:-1], np.diff(xy, axis=0)
+        out = []
+        for p, near in zip(pts, e if e is not None else [None] * len(pts)):
+            idx = np.arange(len(a)) if near is None else np.array([near])
+            den = np.maximum((d[idx] ** 2).sum(axis=1), 1e-300)
+            t = np.clip(((p - a[idx]) * d[idx]).sum(axis=1) / den, 0.0, 1.0)
+            gap = np.hypot(*(a[idx] + t[:, None] * d[idx] - p).T)
+            best = int(np.argmin(gap))
+            out.append(float(run[idx[best]] + t[best] * np.sqrt(den[best])))
+        return out
+
+    def ring_by(self, pts, tol):
+        """The ring both points lie within tol of, or None."""
+        rings, tree = self.rings
+        near = tree.query(pts, predicate="dwithin", distance=tol)
+        both = np.intersect1d(near[1][near[0] == 0], near[1][near[0] == 1])
+        return int(both[0]) if len(both) else None
+
+
+class ReferenceCopper:
+    """The plane copper (every plane net) of one reference layer, its voids and islands, indexed."""
+
+    def __init__(self, layer_nets, plane_nets, outline):
+        parts = layer_nets.islands_of(plane_nets)
+        self.islands = np.array([p for _, p in parts], dtype=object)
+        self.island_net = [layer_nets.island_net[i] for i, _ in parts]
+        self.tree = shapely.STRtree(self.islands)
+        copper = layer_nets.union_of(plane_nets)
+        voids = shapely.get_parts(outline.difference(copper))
+        edge = outline.boundary
+        voids = np.array(
+            [v for v in voids if v.geom_type == "Polygon" and v.area > 1e-6], dtype=object
+        )
+        shapely.prepare(edge)
+        touches = shapely.dwithin(edge, voids, 1e-4) if len(voids) else np.zeros(0, dtype=bool)
+        self.voids = [Void(v, not bool(t), k) for k, (v, t) in enumerate(zip(voids, touches))]
+        self.void_geoms = np.array([v.geom for v in self.voids], dtype=object)
+        self.void_tree = shapely.STRtree(self.void_geoms)
+        shapely.prepare(
+            self.void_geoms
+        )  # a distance test against a large void then skips most of its edges
+        self._shrunk = np.full(len(self.voids), None, dtype=object)
+        self._have_shrunk = np.zeros(len(self.voids), dtype=bool)
+        self._hulls = [None] * len(self.voids)
+        self._lattices = {}
+        self._along_edge = {}
+        self.outline = outline
+        self.edge = edge
+        shapely.prepare(outline)
+
+    def passable(self, segs):
+        """True for each straight piece of path that stays on the board and out of every void (a
+        piece may
+        run along a void's edge: each void is shrunk by a hair for the test)."""
+        ok = shapely.covers(self.outline, segs)
+        q = self.void_tree.query(segs)
+        if q.shape[1]:
+            hit = shapely.intersects(self.shrunk(q[1]), segs[q[0]])
+            ok[q[0][hit]] = False
+        return ok
+
+    def shrunk(self, k):
+        """The voids at positions k shrunk by a hair (EDGE_HAIR_MM), prepared; each built once."""
+        need = k[~self._have_shrunk[k]]
+        if len(need):
+            need = np.unique(need)
+            self._shrunk[need] = shapely.buffer(self.void_geoms[need], -EDGE_HAIR_MM, quad_segs=2)
+            shapely.prepare(self._shrunk[need])
+            self._have_shrunk[need] = True
+        return self._shrunk[k]
+
+    def voids_near(self, line, distance):
+        """Positions (ascending) of the voids within `distance` of a line: boxes from the tree,
+        then the
+        prepared voids tested (the tree's own distance test would walk every edge of a large
+        void)."""
+        x0, y0, x1, y1 = line.bounds
+        c = self.void_tree.query(
+            shapely.box(x0 - distance, y0 - distance, x1 + distance, y1 + distance)
+        )
+        return np.sort(c[shapely.dwithin(self.void_geoms[c], line, distance)])
+
+    @functools.cached_property
+    def inset_outline(self):
+        """The board outline shrunk by 10 um, built once: points outside it are at the board's
+        edge."""
+        inset = self.outline.buffer(-0.01)
+        shapely.prepare(inset)
+        return inset
+
+    def lattice(self, size):
+        """The plane's free copper on a lattice of cells `size` mm (gridpath.Lattice), kept."""
+        lat = self._lattices.get(size)
+        if lat is None:
+            lat = self._lattices[size] = Lattice(
+                self.outline, self.void_geoms, size, self.void_tree
+            )
+        return lat
+
+    def along_edge(self, void):
+        """Per point of a gap's outer ring (the closing one aside), whether it lies on the board's
+        edge."""
+        flags = self._along_edge.get(void.index)
+        if flags is None:
+            xy = void.ring_points(0)[0][:-1]
+            flags = self._along_edge[void.index] = shapely.dwithin(
+                self.edge, shapely.points(xy), 1e-4
+            )
+        return flags
+
+    def hull(self, k):
+        if self._hulls[k] is None:
+            self._hulls[k] = shapely.convex_hull(self.void_geoms[k])
+        return self._hulls[k]
+
+    def island_at(self, point):
+        for i in self.tree.query(point):
+            if shapely.intersects(self.islands[i], point):
+                return int(i)
+        return None
+
+
+def interval_fraction(x1, x2, width, ref):
+    if ref.other_h_mm is None:
+        return physics.microstrip_fraction_between(x1, x2, width, ref.h_mm)
+    return physics.stripline_fraction_between(x1, x2, ref.h_mm, ref.other_h_mm)
+
+
+def interrupted_share(line, s_from, s_to, halfwidth, width, ref, gap):
+    """Largest share of the return current over the gap, over transverse cuts from s_from to s_to.
+
+    Returns (share, s at the maximum)."""
+    s_from, s_to = max(0.0, s_from), min(line.length, s_to)
+    if s_to <= s_from:
+        return 0.0, s_from
+    n = int(min(MAX_STATIONS, max(3, (s_to - s_from) / max(ref.h_mm / 4, 0.02))))
+    ss = np.linspace(s_from, s_to, n)
+    p, q, r = coords_along(
+        line, np.concatenate([ss, np.minimum(ss + 1e-3, line.length), np.maximum(ss - 1e-3, 0.0)])
+    ).reshape(3, n, 2)
+    t = q - r
+    t /= np.maximum(np.hypot(t[:, 0], t[:, 1]), EPS)[:, None]
+    nrm = np.column_stack([-t[:, 1], t[:, 0]])
+    lo = (p - halfwidth * np.abs(nrm)).min(axis=0) - 0.01
+    hi = (p + halfwidth * np.abs(nrm)).max(axis=0) + 0.01
+    gap = shapely.clip_by_rect(
+        gap, lo[0], lo[1], hi[0], hi[1]
+    )  # only the cuts' neighbourhood matters
+    of_cut, x1, x2 = cut_intervals(ring_edges(gap), p, nrm, -halfwidth, halfwidth)
+    if not len(of_cut):
+        return 0.0, float(ss[0])
+    share = np.bincount(of_cut, weights=interval_fraction(x1, x2, width, ref), minlength=n)
+    k = int(np.argmax(share))
+    return float(share[k]), float(ss[k])
+
+
+def stable_id(*parts):
+    return hashlib.sha1("|".join(str(p) for p in parts).encode()).hexdigest()[:12]
+
+
+def _extent_across(void, mid, direction, reach):
+    """Where a line through mid along direction leaves the void, both ways: (l1, l2, end1, end2),
+    from the piece of the line inside the void that reaches mid (0, 0, mid, mid if none does)."""
+    u = np.asarray(direction, dtype=float)
+    m = np.asarray(mid, dtype=float)
+    try:
+        _, t1, t2 = cut_intervals(void.edges_by(m, u, reach), m, u, -reach, reach)
+    except ValueError:  # an odd count of crossings: an edge missed at a rounding boundary
+        _, t1, t2 = cut_intervals(void.edges, m, u, -reach, reach)
+    gap = np.maximum(0.0, np.maximum(t1, -t2))  # each piece's distance from mid
+    if not len(gap) or gap.min() >= 1e-3:
+        return 0.0, 0.0, mid, mid
+    k = int(np.argmin(gap))
+    lo, hi = float(t1[k]), float(t2[k])
+    return max(0.0, -lo), max(0.0, hi), tuple(m + lo * u), tuple(m + hi * u)
+
+
+def _tangent(line, s):
+    a = line.interpolate(max(0.0, s - 0.01))
+    b = line.interpolate(min(line.length, s + 0.01))
+    dx, dy = b.x - a.x, b.y - a.y
+    n = math.hypot(dx, dy) or 1.0
+    return dx / n, dy / n
+
+
+def slot_geometry(void, mid, tangent, reach, aspect_limit):
+    """gap length and width, the crossing's distances to the two ends, and which end is open."""
+    perp = (-tangent[1], tangent[0])
+    rect = void.rect
+    if void.enclosed and void.geom.area >= 0.6 * rect.area:  # slot- or hole-like: its own rectangle
+        c = np.asarray(rect.exterior.coords)[:4]
+        e1, e2 = c[1] - c[0], c[2] - c[1]
+        if np.hypot(*e1) < np.hypot(*e2):
+            e1, e2 = e2, e1
+        length, width = float(np.hypot(*e1)), float(np.hypot(*e2))
+        axis = e1 / (length or 1.0)
+        centre = c.mean(axis=0)
+        s = float((np.asarray(mid) - centre) @ axis)
+        l1, l2 = max(0.0, length / 2 + s), max(0.0, length / 2 - s)
+        elongated = width > 0 and length / width >= aspect_limit
+        return dict(length=length, width=width, l1=l1, l2=l2, elongated=elongated)
+    l1, l2, end1, end2 = _extent_across(void, mid, perp, reach)
+    if (
+        l1 + l2 <= 0
+    ):  # the cut missed (the crossing runs along the gap): size it by its local outline
+        near = void.geom.intersection(shapely.Point(mid).buffer(max(reach / 20, 1.0)))
+        if not near.is_empty:
+            c = np.asarray(near.minimum_rotated_rectangle.exterior.coords)[:4]
+            l1 = l2 = max(np.hypot(*(c[1] - c[0])), np.hypot(*(c[2] - c[1]))) / 2
+            end1 = end2 = mid
+    return dict(length=l1 + l2, width=None, l1=l1, l2=l2, end1=end1, end2=end2, elongated=True)
+
+
+class _GapScan:
+    """What every chain's gap scan shares: the reference copper of each plane layer (built once) and
+    the holes of each net."""
+
+    def __init__(self, board, nets, refs, settings):
+        self.board, self.nets, self.settings = board, nets, settings
+        self.reach = math.hypot(*(np.subtract(board.outline.bounds[2:], board.outline.bounds[:2])))
+        own_holes = {}
+        for x, y, _r, net, _a, _b in nets.plated_holes(board):
+            own_holes.setdefault(net, []).append((x, y))
+        self.own_hole_pts = {n: shapely.points(np.array(v)) for n, v in own_holes.items()}
+        self.ref_by_layer = {(s, r.layer): r for s, rs in refs.items() for r in rs}
+        self._copper = {}
+
+    def copper(self, ref_layer):
+        rc = self._copper.get(ref_layer)
+        if rc is None:
+            rc = self._copper[ref_layer] = ReferenceCopper(
+                self.nets.layers[ref_layer], self.nets.plane_nets, self.board.outline
+            )
+        return rc
+
+    def chain(self, ch, ref_nets):
+        """(key, finding) of every gap one chain's footprints meet; ref_nets: {reference layer: the
+        plane net under most of the chain} (see chain_plane_nets)."""
+        out = []
+        for ref_layer in ch.footprints:
+            hw = ch.footprints.halfwidth(ref_layer)
+            ref = self.ref_by_layer[(ch.layer, ref_layer)]
+            rc = self.copper(ref_layer)
+            if not rc.voids:
+                continue
+            line = ch.line
+            near = rc.voids_near(line, hw)  # every void the footprint meets
+            own = self.own_hole_pts.get(ch.net)
+            if own is not None:  # the antipad of the track's own via belongs to its layer change
+                near = [
+                    k
+                    for k in near
+                    if not (
+                        rc.voids[k].enclosed and shapely.intersects(rc.void_geoms[k], own).any()
+                    )
+                ]
+            if not len(near):
+                continue
+            # the reference net: the plane net under most of the centre line
+            ref_net = ref_nets[ref_layer]
+            if ref_net is None:
+                continue
+            lx0, ly0, lx1, ly1 = line.bounds
+            # clip first: the void outside all plane copper can be as large as the board (all the
+            # chain's voids at once)
+            near = np.asarray(near, dtype=int)
+            local_all = shapely.clip_by_rect(
+                rc.void_geoms[near], lx0 - hw - 0.1, ly0 - hw - 0.1, lx1 + hw + 0.1, ly1 + hw + 0.1
+            )
+            keep = ~shapely.is_empty(local_all)
+            near, local_all = near[keep], local_all[keep]
+            try:
+                crossed = shapely.intersection(line, local_all)
+            except shapely.errors.GEOSException:  # a nearly degenerate outline: snapped to 1 nm
+                crossed = shapely.intersection(line, shapely.set_precision(local_all, 1e-6))
+            parts, of = shapely.get_parts(crossed, return_index=True)
+            ok = (shapely.get_type_id(parts) == 1) & (shapely.length(parts) > 0)
+            parts, of = parts[ok], of[ok]
+            along = np.sort(_ends_along(line, parts), axis=0).T if len(parts) else np.zeros((0, 2))
+            for j, vi in enumerate(near):
+                void = rc.voids[int(vi)]
+                local = local_all[j]
+                pieces = sorted(along[of == j].tolist())
+                merged = []
+                for s0, s1 in pieces:  # pieces of one crossing closer than the footprint merge
+                    if merged and s0 - merged[-1][1] < hw:
+                        merged[-1][1] = max(merged[-1][1], s1)
+                    else:
+                        merged.append([s0, s1])
+                events = []
+                for s0, s1 in merged:
+                    if s0 <= STEP_OFF_MM or s1 >= line.length - STEP_OFF_MM:
+                        continue  # track ends inside this void
+                    events.append(("cross", s0, s1))
+                if not pieces and void.enclosed:
+                    events.append(("graze", None, None))
+                for ev, s0, s1 in events:
+                    try:
+                        f = _finding(
+                            self.board,
+                            ch,
+                            ref,
+                            rc,
+                            void,
+                            local,
+                            line,
+                            hw,
+                            ev,
+                            s0,
+                            s1,
+                            self.reach,
+                            self.settings,
+                            ref_net,
+                        )
+                    except shapely.errors.GEOSException:
+                        # GEOS can fail on a nearly degenerate outline ("side location conflict"):
+                        # once more with the gap snapped to a 1 nm grid, which makes it clean
+                        f = _finding(
+                            self.board,
+                            ch,
+                            ref,
+                            rc,
+                            void,
+                            shapely.set_precision(local, 1e-6),
+                            line,
+                            hw,
+                            ev,
+                            s0,
+                            s1,
+                            self.reach,
+                            self.settings,
+                            ref_net,
+                        )
+                    if f is not None:
+                        out.append(
+                            (
+                                (
+                                    f["net"],
+                                    f["layer"],
+                                    f["reference_layer"],
+                                    void.index,
+                                    round(f["x_mm"], 1),
+                                    round(f["y_mm"], 1),
+                                ),
+                                f,
+                            )
+                        )
+        return out
+
+
+def chain_plane_nets(nets, chains, runner=SERIAL):
+    """Per chain, {reference layer: the plane net under most of its centre line (or None)}, with one
+    tree query per reference layer for all chains; the gap scan and the edge check both use it."""
+    out = [{} for _ in chains]
+    by_ref = {}
+    for i, ch in enumerate(chains):
+        for r in ch.footprints:
+            by_ref.setdefault(r, []).append(i)
+
+    def one(r):
+        return majority_nets(nets.layers[r], nets.plane_nets, [chains[i].line for i in by_ref[r]])
+
+    size = sum(len(ch.line.coords) - 1 for ch in chains)  # the tracks' segments, about
+    with runner.threads(size) as pool:  # shapely lets go of the GIL in the tree queries
+        for r, found in zip(by_ref, pool.map(one, by_ref)):
+            for i, n in zip(by_ref[r], found):
+                out[i][r] = n
+    return out
+
+
+def gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of, workers=1, runner=SERIAL):
+    """The gap scan cut into independent slices of chains, for a runner's tasks (as many slices as
+    suit `workers` processes): returns (tasks, combine); combine(results of the tasks, in order)
+    gives the gap-crossing findings, as dicts, the same and in the same order however many
+    processes ran. plane_nets_of: chain_plane_nets(nets, chains)."""
+    scan = _GapScan(board, nets, refs, settings)
+    if workers > 1:  # built once here (in the runner's threads), shared by the processes
+        shapely.prepare(board.outline)  # shared by the threads: prepared once, beforehand
+        with runner.threads(board.track_segments) as pool:
+            list(pool.map(scan.copper, sorted({r for ch in chains for r in ch.footprints})))
+    n = workers * 16  # many small slices, taken in turn: uneven chains balance out
+    tasks = [functools.partial(_scan_slice, scan, chains, plane_nets_of, k, n) for k in range(n)]
+
+    def combine(parts):
+        out = [None] * len(chains)
+        for part in parts:
+            for i, r in part:
+                out[i] = r
+        findings, seen = [], set()
+        for found in out:
+            for key, f in found:
+                if key not in seen:
+                    seen.add(key)
+                    findings.append(f)
+        return findings
+
+    return tasks, combine
+
+
+def _scan_slice(scan, chains, plane_nets_of, k, n):
+    return [(i, scan.chain(chains[i], plane_nets_of[i])) for i in range(k, len(chains), n)]
+
+
+def _ends_along(line, parts):
+    """Distances along `line` of the first and last points of each LineString in `parts`, as a
+    (2, len(parts)) array, located in one vectorised call."""
+    ends = np.concatenate([shapely.get_point(parts, 0), shapely.get_point(parts, -1)])
+    return shapely.line_locate_point(line, ends).reshape(2, -1)
+
+
+def _footprint_overlap(line, hw, region):
+    """Area of the track's return footprint (flat-capped buffer of half-width hw) inside `region`,
+    buffering only the stretch of line within hw of the region's box: exact, since footprint points
+    in the box come only from line points within hw of it."""
+    x0, y0, x1, y1 = region.bounds
+    piece = shapely.clip_by_rect(
+        line, x0 - hw - 0.01, y0 - hw - 0.01, x1 + hw + 0.01, y1 + hw + 0.01
+    )
+    if piece.is_empty:
+        return 0.0
+    return float(shapely.area(shapely.intersection(footprint_polygon(piece, hw), region)))
+
+
+def _hull_detour(rc, pa, pb, gap_hull):
+    """The two ways round `gap_hull` (a gap's convex hull) and both ends, shorter first: the
+    geodesic when the
+    gap is convex (or the ends lie outside its hull) and nothing else is in the way. An end in a
+    pocket
+    of the hull (between the vias of a fence, say) first walks straight out of it, away from the
+    other
+    end. Returns (the first way that stays in copper or None, the shorter way's length)."""
+    ends = np.array([[pa.x, pa.y], [pb.x, pb.y]])
+    lead = [None, None]
+    if gap_hull.geom_type == "Polygon":
+        inside = shapely.contains_xy(gap_hull, ends[:, 0], ends[:, 1])
+        for k in np.flatnonzero(inside):
+            p, other = ends[k], ends[1 - k]
+            u = (p - other) / max(float(np.hypot(*(p - other))), 1e-12)
+            reach = float(
+                np.hypot(
+                    gap_hull.bounds[2] - gap_hull.bounds[0], gap_hull.bounds[3] - gap_hull.bounds[1]
+                )
+            )
+            ray = shapely.LineString([p, p + u * (reach + 1.0)])
+            out = ray.intersection(gap_hull.exterior)
+            if out.is_empty:
+                continue
+            q = (
+                min(shapely.get_coordinates(out), key=lambda c: float(np.hypot(*(c - p))))
+                + u * STEP_OFF_MM
+            )
+            lead[k] = p.copy()
+            ends[k] = q
+    found = _hull_ring(ends, shapely.get_coordinates(gap_hull))
+    if found is None:
+        return None, None  # an end inside the hull (a pocket of the gap): no taut way round it
+    ways = []
+    for step in (1, -1):
+        c = _ring_walk(*found, step)
+        if lead[0] is not None:
+            c = np.vstack([lead[0], c])
+        if lead[1] is not None:
+            c = np.vstack([c, lead[1]])
+        ways.append((float(np.hypot(*np.diff(c, axis=0).T).sum()), c))
+    ways.sort(key=lambda w: w[0])
+    # both ways' pieces in one test
+    ok = rc.passable(
+        shapely.linestrings(np.concatenate([np.stack([c[:-1], c[1:]], axis=1) for _, c in ways]))
+    )
+    first = len(ways[0][1]) - 1
+    for (length, c), clear in zip(ways, (ok[:first].all(), ok[first:].all())):
+        if clear:
+            return (length, [tuple(map(float, p)) for p in c]), ways[0][0]
+    return None, ways[0][0]
+
+
+def _chain_detour(rc, void, pa, pb):
+    """The geodesic round one gap when nothing else is in the way, or None. The way round a single
+    obstacle turns only towards it, so the shortest way that keeps the gap's outline between the two
+    ends on one side is the convex hull of that stretch of outline and the ends (when the straight
+    line between the ends is an edge of that hull); of the two stretches (either way round) the one
+    with the shorter hull is taken, and only when it stays clear of every other void is it returned,
+    as then nothing shorter exists. A way is at least |pa q| + |q pb| long for any point q it goes
+    round, which spares the longer stretch's hull where that bound already exceeds the shorter
+    way."""
+    ends = np.array([[pa.x, pa.y], [pb.x, pb.y]])
+    if not shapely.intersects(rc.shrunk(np.array([void.index]))[0], shapely.LineString(ends)):
+        return None  # the straight line between the ends misses this gap: the way is not round it
+    k = void.ring_by(shapely.points(ends), 2 * STEP_OFF_MM)
+    if k is None:
+        return None  # the ends lie by different rings of the gap
+    xy, run = void.ring_points(k)
+    m = len(xy) - 1  # the ring's points, the last repeating the first
+    lo, hi = sorted(void.locate(k, ends))
+    i, j = int(np.searchsorted(run[:m], lo, side="right")), int(np.searchsorted(run[:m], hi))
+    if i == j or (i == 0 and j == m):
+        return None  # a stretch without a corner: the ends sit by one edge
+    edge = rc.along_edge(void) if k == 0 and not void.enclosed else None
+    stretches = []
+    for q, flags in (
+        (xy[i:j], edge[i:j] if edge is not None else None),
+        (
+            np.concatenate([xy[j:m], xy[:i]]),
+            np.concatenate([edge[j:m], edge[:i]]) if edge is not None else None,
+        ),
+    ):
+        if flags is not None and flags.any():
+            continue  # this way runs along the board's edge: off the board
+        step = max(1, len(q) // 256)  # a bound from some of the points is a bound still
+        bound = float(
+            np.max(np.hypot(*(q[::step] - ends[0]).T) + np.hypot(*(q[::step] - ends[1]).T))
+        )
+        stretches.append((bound, q))
+    stretches.sort(key=lambda t: t[0])
+    best = None
+    for bound, q in stretches:
+        if best is not None and bound >= best[0]:
+            break
+        way = _hull_arc(ends, q)
+        if way is None:
+            return None  # an end in a pocket of the stretch: not a plain hull
+        if best is None or way[0] < best[0]:
+            best = way
+    if best is None:
+        return None
+    length, path = best
+    if not rc.passable(shapely.linestrings(np.stack([path[:-1], path[1:]], axis=1))).all():
+        return None
+    return length, [tuple(map(float, p)) for p in path]
+
+
+def _hull_arc(ends, pts):
+    """The way from ends[0] to ends[1] along the convex hull of them and pts, round pts: (length,
+    points), or None where the straight line between the ends is not an edge of that hull."""
+    found = _hull_ring(ends, pts)
+    if found is None:
+        return None
+    ring, ia, ib = found
+    n = len(ring)
+    if (ib - ia) % n == 1:  # the direct edge runs forwards: the way round goes backwards
+        c = _ring_walk(ring, ia, ib, -1)
+    elif (ia - ib) % n == 1:
+        c = _ring_walk(ring, ia, ib, 1)
+    else:
+        return None
+    return float(np.hypot(*np.diff(c, axis=0).T).sum()), c
+
+
+def _hull_ring(ends, pts):
+    """The convex hull of the two ends and pts, as its ring's points (the closing one aside), with
+    the positions of the two ends on it; None where the hull is not a polygon or an end is not on
+    its ring (it lies inside)."""
+    hull = shapely.convex_hull(shapely.multipoints(np.vstack([ends, pts])))
+    if hull.geom_type != "Polygon":
+        return None
+    ring = shapely.get_coordinates(hull.exterior)[:-1]
+    ia = np.flatnonzero(np.hypot(*(ring - ends[0]).T) < 1e-9)
+    ib = np.flatnonzero(np.hypot(*(ring - ends[1]).T) < 1e-9)
+    if not len(ia) or not len(ib):
+        return None
+    return ring, int(ia[0]), int(ib[0])
+
+
+def _ring_walk(ring, ia, ib, step):
+    """The ring's points from position ia to ib, both included, going forwards (step 1) or back
+    (-1)."""
+    n = len(ring)
+    return ring[(ia + step * np.arange((step * (ib - ia)) % n + 1)) % n]
+
+
+def _local_geodesic(rc, pa, pb, void_pos, hw):
+    """Detour path round the gap: first the exact way round the gap alone when nothing else is in
+    the
+    way (_chain_detour); else the shortest way on a grid of the copper in a window round the
+    crossing, pulled taut (gridpath), in a small window and then one three times as wide, so that
+    large voids stay cheap; last, the taut way round the whole gap's hull. Returns (length, path,
+    method) or None; method is "taut-hull", "grid-path", or "hull-estimate" where no way is found
+    nearby and the shorter way round the whole hull serves as the estimate."""
+    void_geom = rc.void_geoms[void_pos]
+    chain = _chain_detour(rc, rc.voids[void_pos], pa, pb)
+    if chain is not None:
+        return chain[0], chain[1], "taut-hull"
+    vx0, vy0, vx1, vy1 = void_geom.bounds
+    r = max(WINDOW_MM / 2, 4 * hw)
+    # cells of a fixed family of lattices (nearby crossings share their cells), coarser only for a
+    # window so wide that it would have more than 1.5 gridpath.CELLS cells a side
+    cell = WINDOW_MM / CELLS * 2 ** max(0, math.ceil(math.log2(2 * r / (1.5 * WINDOW_MM)) - 1e-9))
+    cx, cy = (pa.x + pb.x) / 2, (pa.y + pb.y) / 2
+    for level in range(2):
+        g = lattice_way(
+            rc.lattice(cell * 3**level), rc.lattice(cell * 3**level / 2), pa, pb, r, rc.passable
+        )
+        if g is not None:
+            return g[0], g[1], "grid-path"
+        if cx - r <= vx0 and cy - r <= vy0 and cx + r >= vx1 and cy + r >= vy1:
+            break  # the window held the whole gap: a wider one shows nothing more
+        r *= 3
+    way, shorter = _hull_detour(rc, pa, pb, rc.hull(void_pos))
+    if way is not None:
+        return way[0], way[1], "taut-hull"
+    return (shorter, None, "hull-estimate") if shorter is not None else None
+
+
+def coords_along(line, s):
+    """(x, y) at distances s along a LineString, as an (n, 2) array, interpolated in numpy (one pass
+    over its vertices, where shapely walks the line again for every point)."""
+    return coords_along_lines([line], [s])
+
+
+def coords_along_lines(lines, dists):
+    """(x, y) at distances dists[i] along lines[i], for many LineStrings in one interpolation: the
+    lines are laid end to end on one distance axis, a unit gap between one's end and the next's
+    start."""
+    xy, idx = shapely.get_coordinates(np.asarray(lines, dtype=object), return_index=True)
+    seg = np.hypot(*np.diff(xy, axis=0).T)
+    seg[idx[1:] != idx[:-1]] = 1.0
+    run = np.concatenate([[0.0], np.cumsum(seg)])
+    k = np.arange(len(dists))
+    start = run[np.searchsorted(idx, k)]
+    length = run[np.searchsorted(idx, k, side="right") - 1] - start
+    at = np.concatenate(
+        [np.clip(d, 0.0, n) + a for d, a, n in zip(dists, start, length)] or [np.zeros(0)]
+    )
+    return np.column_stack([np.interp(at, run, xy[:, 0]), np.interp(at, run, xy[:, 1])])
+
+
+def majority_nets(ln, plane_nets, lines, samples=17):
+    """Per centre line, the plane net under most of its sample points (None where no plane copper is
+    under it; ties go to the later name); every line's points looked up in one tree query."""
+    lines = np.asarray(lines, dtype=object)
+    if not len(lines):
+        return []
+    frac = np.linspace(0.0, 1.0, samples)
+    pts = shapely.points(coords_along_lines(lines, list(np.outer(shapely.length(lines), frac))))
+    isl = ln.islands_at(pts)
+    which = np.repeat(np.arange(len(lines)), samples)
+    names = sorted(set(ln.island_net) & set(plane_nets))
+    code = {n: k for k, n in enumerate(names)}
+    net_of = np.array([code.get(n, -1) for n in ln.island_net] + [-1])  # island -1: off copper
+    c = net_of[isl]
+    ok = c >= 0
+    out = [None] * len(lines)
+    if ok.any():
+        pair, count = np.unique(which[ok] * len(names) + c[ok], return_counts=True)
+        for p, _ in sorted(
+            zip(pair.tolist(), count.tolist()), key=lambda t: (t[1], t[0] % len(names))
+        ):
+            out[p // len(names)] = names[
+                p % len(names)
+            ]  # the last written wins: most samples, then name
+    return out
+
+
+def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, settings, ref_net):
+    w = ch.width_mm
+    if ev == "cross":
+        mid_s = (s0 + s1) / 2
+        span = (s0 - hw, s1 + hw)
+    else:
+        # graze: measure along the filament just inside the void's nearest edge
+        d = line.distance(local)
+        if interval_fraction(d, hw, w, ref) < settings.min_interrupted_fraction:
+            return None  # even a void filling the footprint beyond d holds less (|x| >= d there)
+        if _footprint_overlap(line, hw, local) < 1e-4:
+            return None  # it only touches the footprint
+        near_line, near_void = shapely.shortest_line(line, local).coords
+        mid_s = line.project(shapely.Point(near_line))
+        near = local.intersection(line.buffer(hw, cap_style="flat"))
+        corners = (
+            np.asarray(near.exterior.coords)
+            if near.geom_type == "Polygon"
+            else shapely.get_coordinates(near)
+        )
+        at = shapely.line_locate_point(line, shapely.points(corners)) if len(corners) else []
+        span = (float(min(at)), float(max(at))) if len(at) else (mid_s, mid_s)
+    # the gap's size first: a short enclosed gap (an antipad) is not reported, whatever it
+    # interrupts
+    mid = line.interpolate(mid_s)
+    tangent = _tangent(line, mid_s)
+    geo = slot_geometry(void, (mid.x, mid.y), tangent, reach, settings.slot_aspect_ratio)
+    if geo["length"] < settings.min_gap_length_mm and void.enclosed:
+        return None
+    share, _ = interrupted_share(line, span[0], span[1], hw, w, ref, local)
+    if share < settings.min_interrupted_fraction:
+        return None
+    if ev == "cross":
+        pa = line.interpolate(max(0.0, s0 - STEP_OFF_MM))
+        pb = line.interpolate(min(line.length, s1 + STEP_OFF_MM))
+        ia, ib = rc.island_at(pa), rc.island_at(pb)
+    else:
+        path_line = None
+        for side in (1, -1):
+            off = line.offset_curve(side * (d + 0.02))
+            if off.is_empty or off.geom_type != "LineString":
+                continue
+            if off.distance(local) < 1e-6:
+                path_line = off
+                break
+        ia = ib = None
+        pa = pb = None
+        if path_line is not None:
+            cr = [
+                p
+                for p in shapely.get_parts(path_line.intersection(local))
+                if p.geom_type == "LineString"
+            ]
+            if cr:
+                ss = np.sort(_ends_along(path_line, np.array(cr, dtype=object)), axis=None).tolist()
+                if ss[0] > STEP_OFF_MM and ss[-1] < path_line.length - STEP_OFF_MM:
+                    pa = path_line.interpolate(ss[0] - STEP_OFF_MM)
+                    pb = path_line.interpolate(ss[-1] + STEP_OFF_MM)
+                    ia, ib = rc.island_at(pa), rc.island_at(pb)
+    detour, path, detour_method = None, None, None
+    split = ev == "cross" and (ia is None or ib is None or ia != ib)
+    if not split and pa is not None and ia is not None and ia == ib:
+        g = _local_geodesic(rc, pa, pb, void.index, hw)
+        if g is not None:
+            detour = max(0.0, g[0] - pa.distance(pb))
+            path, detour_method = g[1], g[2]
+    if ev == "graze" and detour is None:
+        detour = 0.0
+    if ev == "cross" and detour is not None and detour < settings.min_detour_mm:
+        return None
+    if ev == "cross" and detour is None and not split:
+        split = True  # no path found inside the plane island: treat as a split
+    if split:
+        gap_type = "split"
+    elif void.enclosed:
+        gap_type = "slot" if geo["elongated"] else "void"
+    else:
+        gap_type = "slot"  # a notch cut in from the plane's edge
+    width = (
+        geo["width"]
+        if geo["width"] is not None and not split
+        else (s1 - s0 if ev == "cross" else 0.0)
+    )
+    open_one_end = False
+    if not void.enclosed and gap_type == "slot":
+        open_one_end = True
+        e1_open = shapely.Point(geo["end1"]).distance(
+            rc.edge
+        ) < 0.05 or not rc.inset_outline.contains(shapely.Point(geo["end1"]))
+        # the open end is the one that reaches the plane's outer edge; the stub model
+        # keeps the closed one
+        l_closed = geo["l2"] if e1_open else geo["l1"]
+        l_open = geo["l1"] if e1_open else geo["l2"]
+    else:
+        l_closed, l_open = geo["l1"], geo["l2"]
+    slot_len = geo["length"]
+    d_eff = detour if detour is not None else slot_len  # a split: the whole gap length
+    l_hsdd = physics.hsdd_slot_inductance_nH(d_eff, w)
+    l_stub = physics.slot_stub_inductance_nH(
+        l_closed,
+        l_open,
+        max(width, 0.01),
+        l2_open=open_one_end,
+        strip_width_mm=max(slot_len / 2, 0.01),
+    )
+    vals = [v for v in (l_hsdd, l_stub) if v > 0]
+    est = math.sqrt(l_hsdd * l_stub) if len(vals) == 2 else (vals[0] if vals else 0.0)
+    lo, hi = (min(vals), max(vals)) if vals else (0.0, 0.0)
+    z0 = line_z0(board, ch.layer, ch.width_mm, ref)
+    refl = physics.series_inductance_reflection(est, z0, settings.rise_ns)
+    f_res = physics.slot_resonance_GHz(slot_len, ref.plane_er_eff, open_at_one_end=open_one_end)
+    f_res_low = physics.slot_resonance_GHz(
+        slot_len, ref.plane_er_full, open_at_one_end=open_one_end
+    )
+    if split:
+        severity = "error"
+    elif refl >= settings.reflection_budget:
+        severity = "error"
+    elif refl >= settings.reflection_budget / 2:
+        severity = "warning"
+    else:
+        severity = "info"
+    resonant = f_res_low <= settings.knee_GHz
+    if resonant and severity != "error":
+        severity = "warning" if severity == "info" else "error"
+    x, y = float(mid.x), float(mid.y)
+    fid = stable_id("gap-crossing", ch.layer, ref.layer, ch.net, f"{x:.1f}", f"{y:.1f}", gap_type)
+    what = {"split": "crosses a split", "slot": "crosses a slot", "void": "crosses a void"}[
+        gap_type
+    ]
+    if ev == "graze":
+        what = f"runs beside a {gap_type}"
+    det = "no path within the plane" if detour is None else f"detour {detour:.2f} mm"
+    if detour_method == "hull-estimate":
+        det = f"detour about {detour:.2f} mm (round the gap's hull; no clear path was proven)"
+    if split and ib is not None and ia is not None and rc.island_net[ib] != rc.island_net[ia]:
+        det += f" ({rc.island_net[ia]} on one side, {rc.island_net[ib]} on the other)"
+    msg = (
+        f"{ch.net} on {ch.layer} {what} in {ref_net} on {ref.layer} at ({x:.2f}, {y:.2f}) mm: "
+        f"{det}, "
+        f"{share:.0%} of return current interrupted, about {est:.1f} nH added ({lo:.1f}-{hi:.1f}), "
+        f"~{refl:.0%} reflection at {settings.rise_ns:g} ns; gap resonance near {f_res:.2f} GHz"
+    )
+    return {
+        "id": fid,
+        "kind": "gap-crossing",
+        "gap_type": gap_type,
+        "severity": severity,
+        "net": ch.net,
+        "layer": ch.layer,
+        "reference_layer": ref.layer,
+        "reference_net": ref_net,
+        "x_mm": x,
+        "y_mm": y,
+        "gap_length_mm": slot_len,
+        "gap_width_mm": width,
+        "detour_mm": detour,
+        "detour_method": detour_method,
+        "interrupted_fraction": min(1.0, share),
+        "added_inductance_nH": est,
+        "added_inductance_range_nH": [lo, hi],
+        "inductance_method": "geometric mean of hsdd-slot-formula and slotline-stub-model",
+        "resonance_GHz": f_res,
+        "resonance_range_GHz": sorted([f_res_low, f_res]),
+        "resonance_er_eff": ref.plane_er_eff,
+        "resonance_mode": "quarter-wave" if open_one_end else "half-wave",
+        "reflection_fraction": refl,
+        "z0_ohm": z0,
+        "trace_width_mm": w,
+        "height_mm": ref.h_mm,
+        "line_type": ref.kind,
+        "plane_share": ref.share,
+        "crossing": ev,
+        "detour_path_mm": [[round(a, 4), round(b, 4)] for a, b in path] if path else None,
+        "slot_ends_mm": [l_closed, l_open] if void.enclosed and gap_type == "slot" else None,
+        "message": msg,
+    }

@@ -1,0 +1,234 @@
+"""Signal tracks and the reference planes their return current flows in.
+
+For each signal layer: the nearest plane-carrying copper layer above and below, the
+dielectric height to each, microstrip or stripline, and each plane's share of the
+return. Tracks are merged into centre-line chains per net and width; each chain's
+return footprint is its width plus the half-width holding the chosen share of the
+return current (REFERENCE: 1/(1+(x/h)^2) for microstrip, the two-plate law for stripline).
+"""
+
+import fnmatch
+from collections import defaultdict
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+import shapely
+
+from returngap import physics
+from returngap.model.settings import Settings  # noqa: F401  (the settings the functions here take)
+
+__all__ = [
+    "NON_TRACK_FUNCTIONS",
+    "Reference",
+    "footprint_polygon",
+    "Footprints",
+    "Chain",
+    "plane_layers",
+    "find_references",
+    "line_z0",
+    "footprint_halfwidth",
+    "wanted",
+    "chains",
+]
+
+NON_TRACK_FUNCTIONS = {
+    "NonConductor",
+    "Profile",
+    "Material",
+    "NonMaterial",
+    "Other",
+    "Drawing",
+    "Border",
+    "CopperBalancing",
+    "EtchedComponent",
+}
+
+
+@dataclass
+class Reference:
+    layer: str
+    h_mm: float  # dielectric height from the signal layer to this plane
+    other_h_mm: float | None  # stripline: height to the other plane
+    share: float  # share of the return current on this plane
+    er: float  # dielectric between signal and plane
+    plane_is_outer: bool
+    plane_er_eff: float  # for slot resonance: er buried, (er+1)/2 on an outer layer
+    plane_er_full: float  # the substrate's own er: the conservative (lowest-frequency) bound
+
+    @property
+    def kind(self):
+        return "stripline" if self.other_h_mm is not None else "microstrip"
+
+
+def footprint_polygon(line, halfwidth):
+    """The strip of plane under a track that holds the chosen share of its return current: the
+    centre
+    line buffered by the half-width, flat at the track's ends."""
+    return shapely.buffer(line, halfwidth, quad_segs=4, cap_style="flat", join_style="round")
+
+
+class Footprints(Mapping):
+    """Reference layer -> (footprint polygon, half-width) of one chain. A polygon is buffered only
+    when
+    first asked for: most tracks meet no gap, and the half-width alone answers 'is a gap near?'."""
+
+    def __init__(self, line, outline):
+        self._line, self._outline = line, outline
+        self._hw, self._poly = {}, {}
+
+    def add(self, ref_layer, halfwidth):
+        self._hw[ref_layer] = halfwidth
+
+    def halfwidth(self, ref_layer):
+        return self._hw[ref_layer]
+
+    def __getitem__(self, ref_layer):
+        hw = self._hw[ref_layer]
+        if ref_layer not in self._poly:
+            self._poly[ref_layer] = footprint_polygon(self._line, hw).intersection(self._outline)
+        return self._poly[ref_layer], hw
+
+    def __contains__(self, ref_layer):
+        return ref_layer in self._hw  # without buffering
+
+    def __iter__(self):
+        return iter(self._hw)
+
+    def __len__(self):
+        return len(self._hw)
+
+
+@dataclass
+class Chain:
+    net: str
+    layer: str
+    width_mm: float
+    line: object  # shapely LineString
+    footprints: Footprints = None  # reference layer -> (polygon, half-width)
+
+
+def plane_layers(board, nets, settings):
+    """Layers whose plane-net copper covers enough of the board to carry return current."""
+    area = board.outline.area or 1.0
+    out = {}
+    for layer in board.copper:
+        ln = nets.layers[layer.name]
+        plane = np.array([n in nets.plane_nets for n in ln.island_net], dtype=bool)
+        upper, lower = ln.piece_area_bounds()
+        if lower[plane].sum() / area >= settings.plane_min_fraction:
+            out[layer.name] = True  # its largest pieces alone cover enough: no union needed
+        elif upper[plane].sum() / area < settings.plane_min_fraction:
+            out[layer.name] = False
+        else:
+            cover = sum(ln.island_area(int(i)) for i in np.flatnonzero(plane))
+            out[layer.name] = cover / area >= settings.plane_min_fraction
+    return out
+
+
+def _er_around(stackup, layer_name, n_layers):
+    i = int(layer_name[1:])
+    ers = [d.er for d in stackup.dielectrics if int(d.between[0][1:]) in (i - 1, i)]
+    return sum(ers) / len(ers) if ers else 4.3
+
+
+def find_references(board, nets, settings):
+    """For each copper layer: the plane(s) its tracks return in."""
+    planes = plane_layers(board, nets, settings)
+    names = [c.name for c in board.copper]
+    st = board.stackup
+    out = {}
+    for i, name in enumerate(names):
+        above = next((names[j] for j in range(i - 1, -1, -1) if planes[names[j]]), None)
+        below = next((names[j] for j in range(i + 1, len(names)) if planes[names[j]]), None)
+        found = [r for r in (above, below) if r is not None]
+        refs = []
+        for r in found:
+            h = st.height_mm(name, r)
+            other = [o for o in found if o != r]
+            oh = st.height_mm(name, other[0]) if other else None
+            share = physics.stripline_plane_share(h, oh) if oh is not None else 1.0
+            outer = r in (names[0], names[-1])
+            er_plane = _er_around(st, r, len(names))
+            refs.append(
+                Reference(
+                    r,
+                    h,
+                    oh,
+                    share,
+                    st.er_between(name, r),
+                    outer,
+                    (er_plane + 1) / 2 if outer else er_plane,
+                    er_plane,
+                )
+            )
+        out[name] = refs
+    return out, planes
+
+
+def line_z0(board, layer, width_mm, ref):
+    """Impedance of a track over its reference: Hammerstad-Jensen microstrip or Cohn stripline."""
+    t = board.stackup.copper_thickness_mm.get(layer, 0.035)
+    if ref.other_h_mm is None:
+        return physics.microstrip_z0_eeff(width_mm, ref.h_mm, ref.er, t)[0]
+    return physics.stripline_z0(width_mm, ref.h_mm + ref.other_h_mm, ref.er)
+
+
+def footprint_halfwidth(width_mm, ref, fraction):
+    if ref.other_h_mm is None:
+        return width_mm / 2 + physics.microstrip_k_for_fraction(fraction) * ref.h_mm
+    return width_mm / 2 + physics.stripline_halfwidth_for_fraction(
+        fraction, ref.h_mm, ref.other_h_mm
+    )
+
+
+def wanted(net, settings):
+    return not settings.nets or any(fnmatch.fnmatchcase(net, g) for g in settings.nets)
+
+
+def chains(board, nets, refs, settings):
+    """Signal-track centre lines merged per (layer, net, width), with a footprint per reference."""
+    out = []
+    for layer in board.copper:
+        if not refs.get(layer.name):
+            continue
+        ln = nets.layers[layer.name]
+        seg = layer.segments
+        if not len(seg):
+            continue
+        fill = ln.segment_fill if ln.segment_fill is not None else np.zeros(len(seg), dtype=bool)
+        net_ok = {n: nets.is_signal(n) and wanted(n, settings) for n in set(ln.segment_net)}
+        ok = np.fromiter((net_ok[n] for n in ln.segment_net), bool, len(seg))
+        ok &= np.fromiter(
+            (fn not in NON_TRACK_FUNCTIONS for fn in layer.segment_function), bool, len(seg)
+        )
+        # ends snapped to a 10 nm grid so that strokes drawn end to end meet exactly; strokes that
+        # shrink to a point there are dropped
+        xy = np.round(seg[:, :4], 5)
+        ok &= (
+            ~np.asarray(fill, dtype=bool)
+            & (seg[:, 4] > 0)
+            & ((xy[:, 0] != xy[:, 2]) | (xy[:, 1] != xy[:, 3]))
+        )
+        groups = defaultdict(list)
+        for k, w in zip(np.flatnonzero(ok).tolist(), np.round(seg[ok, 4], 4).tolist()):
+            groups[(ln.segment_net[k], w)].append(k)
+        keys = sorted(groups)
+        if not keys:
+            continue
+        rows = np.concatenate([groups[k] for k in keys])
+        which = np.repeat(np.arange(len(keys)), [len(groups[k]) for k in keys])
+        # every (net, width) group merged into its longest runs in one vectorised pass
+        merged = shapely.line_merge(
+            shapely.multilinestrings(shapely.linestrings(xy[rows].reshape(-1, 2, 2)), indices=which)
+        )
+        parts, of_group = shapely.get_parts(merged, return_index=True)
+        for line, g in zip(parts, of_group.tolist()):
+            net, w = keys[g]
+            if line.length <= 0:
+                continue
+            ch = Chain(net, layer.name, w, line, Footprints(line, board.outline))
+            for ref in refs[layer.name]:
+                ch.footprints.add(ref.layer, footprint_halfwidth(w, ref, settings.current_fraction))
+            out.append(ch)
+    return out

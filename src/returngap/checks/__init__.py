@@ -1,0 +1,1 @@
+"""One module per finding kind beyond gap crossings. Never imports run/."""

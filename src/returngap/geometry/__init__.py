@@ -1,0 +1,1 @@
+"""Geometry helpers: aperture shapes, cuts through gaps, grid paths."""

@@ -1,0 +1,2 @@
+"""Files -> board model: inputs, layer roles, Gerber, Excellon, IPC-D-356, job file, outline,
+gerbonara fixes."""

@@ -1,0 +1,92 @@
+"""The user's stackup file (TOML, our own schema; see README) -> a checked dict."""
+
+import re
+import tomllib
+
+from returngap.errors import InputError
+
+__all__ = ["KNOWN_TOP", "read_toml", "load_stackup_file"]
+
+KNOWN_TOP = {
+    "board_thickness_mm",
+    "copper_thickness_mm",
+    "er",
+    "layers",
+    "dielectric",
+    "plane_nets",
+    "ground_nets",
+    "power_nets",
+}
+
+
+def _number(path, where, value, low, high):
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise InputError(path, f"{where} must be a number, not {value!r}") from None
+    if not (low <= v <= high):
+        raise InputError(path, f"{where} = {v} is outside {low}..{high}")
+    return v
+
+
+def read_toml(path):
+    """A TOML file as a dict; unreadable or invalid files raise InputError with the line."""
+    try:
+        with open(path, "rb") as f:
+            return tomllib.load(f)
+    except OSError as e:
+        raise InputError(path, f"cannot read ({e.strerror})") from None
+    except tomllib.TOMLDecodeError as e:
+        m = re.search(r"at line (\d+)", str(e))
+        line = getattr(e, "lineno", None) or (int(m.group(1)) if m else None)
+        raise InputError(path, f"not valid TOML ({str(e).split(' (at')[0]})", line) from None
+
+
+def load_stackup_file(path):
+    if path is None:
+        return {}
+    data = read_toml(path)
+    unknown = set(data) - KNOWN_TOP
+    if unknown:
+        raise InputError(path, f"unknown key(s): {', '.join(sorted(unknown))}")
+    out = {"path": str(path), "layers": {}, "dielectric": []}
+    for key, lo, hi in (
+        ("board_thickness_mm", 0.05, 20),
+        ("copper_thickness_mm", 0.001, 0.5),
+        ("er", 1.0, 20),
+    ):
+        if key in data:
+            out[key] = _number(path, key, data[key], lo, hi)
+    layers = data.get("layers", {})
+    if not isinstance(layers, dict):
+        raise InputError(path, "[layers] must be a table of file name = role")
+    out["layers"] = {str(k): str(v) for k, v in layers.items()}
+    diel = data.get("dielectric", [])
+    if not isinstance(diel, list):
+        raise InputError(path, "dielectric must be an array of tables ([[dielectric]])")
+    for i, d in enumerate(diel):
+        where = f"dielectric #{i + 1}"
+        if not isinstance(d, dict) or "between" not in d or "thickness_mm" not in d:
+            raise InputError(path, f'{where} needs between = ["Lx", "Ly"] and thickness_mm')
+        between = d["between"]
+        if (
+            not isinstance(between, list)
+            or len(between) != 2
+            or not all(isinstance(b, str) and b[:1] == "L" and b[1:].isdigit() for b in between)
+        ):
+            raise InputError(path, f'{where}: between must be two layer names like ["L1", "L2"]')
+        out["dielectric"].append(
+            {
+                "between": (between[0], between[1]),
+                "thickness_mm": _number(
+                    path, f"{where} thickness_mm", d["thickness_mm"], 0.005, 10
+                ),
+                "er": _number(path, f"{where} er", d.get("er", data.get("er", 4.3)), 1.0, 20),
+            }
+        )
+    for key in ("ground_nets", "power_nets"):
+        if key in data:
+            if not isinstance(data[key], list) or not all(isinstance(x, str) for x in data[key]):
+                raise InputError(path, f"{key} must be a list of net names or glob patterns")
+            out[key] = list(data[key])
+    return out

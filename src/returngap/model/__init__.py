@@ -1,0 +1,1 @@
+"""The board model, the settings and the findings: plain declared data."""

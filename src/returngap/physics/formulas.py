@@ -1,0 +1,342 @@
+"""Published formulas, one function each. Units are in the names: mm, nH, GHz, ns, ohm.
+
+Each docstring names its source; "derived" marks standard mathematics applied to a
+published result. All of them are estimates for review, not field-solver results.
+"""
+
+import math
+
+import numpy as np
+
+__all__ = [
+    "C_MM_PER_NS",
+    "MU0_NH_PER_MM",
+    "ETA0_OHM",
+    "microstrip_fraction_within",
+    "microstrip_k_for_fraction",
+    "stripline_centred_fraction_within",
+    "stripline_plane_share",
+    "microstrip_fraction_between",
+    "stripline_fraction_between",
+    "stripline_halfwidth_for_fraction",
+    "microstrip_z0_eeff",
+    "ellipk_c",
+    "ellipk",
+    "stripline_z0",
+    "line_inductance_nH_per_mm",
+    "hsdd_slot_inductance_nH",
+    "cps_inductance_nH_per_mm",
+    "slot_stub_inductance_nH",
+    "babinet_slot_inductance_nH",
+    "slot_resonance_GHz",
+    "knee_frequency_GHz",
+    "rise_time_for_knee_ns",
+    "series_inductance_reflection",
+    "wavelength_mm",
+    "via_pair_inductance_nH",
+    "microstrip_fraction_beyond_edge",
+    "patch_resonance_GHz",
+    "two_branch_shares",
+    "copper_resistance_ohm",
+    "wire_partial_inductance_nH",
+]
+
+C_MM_PER_NS = 299.792458  # speed of light
+MU0_NH_PER_MM = 0.4 * math.pi  # 4*pi*1e-7 H/m = 0.4*pi nH/mm
+ETA0_OHM = 376.730313
+
+
+# --- return-current distribution -------------------------------------------------------
+
+
+def microstrip_fraction_within(k):
+    """Share of a microstrip's return current within +-k*h of the trace centre: (2/pi)*atan(k).
+    Filament over an infinite plane; Johnson & Graham, High-Speed Digital Design (1993), sec.
+    5.1."""
+    return 2.0 / math.pi * math.atan(k)
+
+
+def microstrip_k_for_fraction(fraction):
+    """Inverse of microstrip_fraction_within: tan(pi*F/2)."""
+    return math.tan(math.pi * fraction / 2.0)
+
+
+def stripline_centred_fraction_within(k):
+    """Centred stripline (h = b/2), both planes together, within +-k*h: (2/pi)*atan(sinh(pi*k/2)).
+    Derived from the line charge between two grounded plates (conformal map)."""
+    return 2.0 / math.pi * math.atan(math.sinh(math.pi * k / 2.0))
+
+
+def stripline_plane_share(h_self_mm, h_other_mm):
+    """Share of the return carried by one plane of a stripline: the nearer plane carries more,
+    h_other / b. Derived from the two-plate line-charge solution."""
+    return h_other_mm / (h_self_mm + h_other_mm)
+
+
+def _prim_atan(u, h):
+    # antiderivative of atan(u/h) du
+    return u * np.arctan2(u, h) - 0.5 * h * np.log(h * h + u * u)
+
+
+def _scalar_or_array(v):
+    return float(v) if np.ndim(v) == 0 else v
+
+
+def microstrip_fraction_between(x1_mm, x2_mm, width_mm, h_mm):
+    """Share of a microstrip's return current at lateral offsets x1..x2 from the trace centre.
+    Uniform current across the strip (Holloway & Kuester, IEEE T-MTT 43(5), 1995, first closed
+    form): J(x) = (I/(pi*w)) * [atan((x+w/2)/h) - atan((x-w/2)/h)]; integrated in closed form.
+    Reduces to the 1/(1+(x/h)^2) filament law as w -> 0. x1, x2: numbers or arrays."""
+    x1, x2 = np.asarray(x1_mm, dtype=float), np.asarray(x2_mm, dtype=float)
+    if width_mm < 1e-6 * h_mm:
+        v = (np.arctan2(x2, h_mm) - np.arctan2(x1, h_mm)) / math.pi
+    else:
+        a = width_mm / 2.0
+        v = (
+            _prim_atan(x2 + a, h_mm)
+            - _prim_atan(x1 + a, h_mm)
+            - _prim_atan(x2 - a, h_mm)
+            + _prim_atan(x1 - a, h_mm)
+        ) / (math.pi * width_mm)
+    return _scalar_or_array(np.where(x2 > x1, v, 0.0))
+
+
+def stripline_fraction_between(x1_mm, x2_mm, h_self_mm, h_other_mm):
+    """Share of a stripline's total return current on one plane at lateral offsets x1..x2.
+    Filament between plates b = h1 + h2 apart: J1 = (I/2b) sin(a)/(cosh(pi x/b) - cos a),
+    a = pi*h1/b; its integral is (1/pi)*atan(tanh(u/2)/tan(a/2)), u = pi*x/b (derived).
+    x1, x2: numbers or arrays."""
+    x1, x2 = np.asarray(x1_mm, dtype=float), np.asarray(x2_mm, dtype=float)
+    b = h_self_mm + h_other_mm
+    t = math.tan(math.pi * h_self_mm / b / 2.0)
+
+    def prim(x):
+        return np.arctan(np.tanh(math.pi * x / b / 2.0) / t) / math.pi
+
+    return _scalar_or_array(np.where(x2 > x1, prim(x2) - prim(x1), 0.0))
+
+
+def stripline_halfwidth_for_fraction(fraction, h_self_mm, h_other_mm):
+    """Half-width around the trace holding `fraction` of this plane's own share (closed form of
+    stripline_fraction_between)."""
+    b = h_self_mm + h_other_mm
+    a = math.pi * h_self_mm / b
+    target = math.tan(fraction * (math.pi - a) / 2.0) * math.tan(a / 2.0)
+    if target >= 1.0:
+        return 50.0 * b
+    return 2.0 * math.atanh(target) * b / math.pi
+
+
+# --- transmission lines ------------------------------------------------------------------
+
+
+def _hj_z01(u):
+    f = 6.0 + (2.0 * math.pi - 6.0) * math.exp(-((30.666 / u) ** 0.7528))
+    return ETA0_OHM / (2.0 * math.pi) * math.log(f / u + math.sqrt(1.0 + (2.0 / u) ** 2))
+
+
+def _hj_eeff(u, er):
+    a = (
+        1.0
+        + math.log((u**4 + (u / 52.0) ** 2) / (u**4 + 0.432)) / 49.0
+        + math.log(1.0 + (u / 18.1) ** 3) / 18.7
+    )
+    b = 0.564 * ((er - 0.9) / (er + 3.0)) ** 0.053
+    return (er + 1.0) / 2.0 + (er - 1.0) / 2.0 * (1.0 + 10.0 / u) ** (-a * b)
+
+
+def microstrip_z0_eeff(width_mm, h_mm, er, t_mm=0.0):
+    """Quasi-static microstrip impedance (ohm) and effective permittivity, with the thickness
+    correction. Hammerstad & Jensen, "Accurate models for microstrip computer-aided design",
+    IEEE MTT-S Digest 1980, pp. 407-409."""
+    u = width_mm / h_mm
+    if t_mm <= 0:
+        e = _hj_eeff(u, er)
+        return _hj_z01(u) / math.sqrt(e), e
+    t = t_mm / h_mm
+    coth2 = 1.0 / math.tanh(math.sqrt(6.517 * u)) ** 2
+    du1 = t / math.pi * math.log(1.0 + 4.0 * math.e / (t * coth2))
+    dur = 0.5 * (1.0 + 1.0 / math.cosh(math.sqrt(er - 1.0))) * du1
+    u1, ur = u + du1, u + dur
+    e_r = _hj_eeff(ur, er)
+    z0 = _hj_z01(ur) / math.sqrt(e_r)
+    eeff = e_r * (_hj_z01(u1) / _hj_z01(ur)) ** 2
+    return z0, eeff
+
+
+def _agm(a, b):
+    for _ in range(80):
+        a, b = (a + b) / 2.0, math.sqrt(a * b)
+        if abs(a - b) <= 1e-15 * a:
+            break
+    return a
+
+
+def ellipk_c(kc):
+    """K(k) from the complementary modulus kc = sqrt(1 - k^2): pi / (2 * AGM(1, kc)). Given kc
+    directly,
+    it stays accurate where k is within rounding of 1."""
+    return math.inf if kc <= 0 else math.pi / (2.0 * _agm(1.0, kc))
+
+
+def ellipk(k):
+    """Complete elliptic integral of the first kind K(k) (modulus k), by the arithmetic-geometric
+    mean."""
+    return ellipk_c(math.sqrt(max(0.0, 1.0 - k * k)))
+
+
+def stripline_z0(width_mm, b_mm, er):
+    """Centred zero-thickness stripline impedance, exact by conformal mapping:
+    Z0 = (30*pi/sqrt(er)) * K(k)/K(k'), k = sech(pi*w/2b). Cohn, IRE Trans. MTT 2, 1954."""
+    x = math.pi * width_mm / (2.0 * b_mm)
+    sech = 1.0 / math.cosh(x) if x < 700 else 0.0
+    # K(k) / K(k') with k = sech x, k' = tanh x; each from its complement (tanh x, sech x) for
+    # accuracy
+    if sech == 0.0:
+        return (
+            30.0 * math.pi / math.sqrt(er) * (math.pi / 2) / (x + math.log(2.0))
+        )  # wide-strip limit
+    return 30.0 * math.pi / math.sqrt(er) * ellipk_c(math.tanh(x)) / ellipk_c(sech)
+
+
+def line_inductance_nH_per_mm(z0_ohm, eeff):
+    """Loop inductance per length of a TEM line: L' = Z0*sqrt(eeff)/c (definition of line
+    parameters)."""
+    return z0_ohm * math.sqrt(eeff) / C_MM_PER_NS
+
+
+# --- slots and splits ----------------------------------------------------------------------
+
+
+def hsdd_slot_inductance_nH(slot_length_mm, trace_width_mm):
+    """Handbook slot estimate L = 5 * D * ln(D/W) nH, D and W in inches (D = length the return
+    must detour across, W = trace width). Johnson & Graham, High-Speed Digital Design (1993),
+    sec. 5.3 (from memory: form as commonly quoted). Zero when D <= W."""
+    if slot_length_mm <= trace_width_mm or trace_width_mm <= 0:
+        return 0.0
+    return 5.0 * (slot_length_mm / 25.4) * math.log(slot_length_mm / trace_width_mm)
+
+
+def cps_inductance_nH_per_mm(gap_mm, strip_width_mm):
+    """Per-length inductance of the slot's two edges as coplanar strips: mu0 * K(k)/K(k'),
+    k = s/(s + 2*w_e). Standard coplanar-strip conformal-mapping result (Gupta et al.,
+    Microstrip Lines and Slotlines, 1996; from memory)."""
+    k = gap_mm / (gap_mm + 2.0 * strip_width_mm)
+    kp = math.sqrt(1.0 - k * k)
+    return MU0_NH_PER_MM * ellipk(k) / ellipk(kp)
+
+
+def slot_stub_inductance_nH(l1_mm, l2_mm, gap_mm, l2_open=False, strip_width_mm=None):
+    """Low-frequency series inductance of a slot crossed l1 and l2 from its ends, as two slotline
+    stubs in parallel: L = L' * l1*l2/(l1+l2), both ends closed (Knorr, IEEE T-MTT 22(5), 1974,
+    stub model; Lee et al., ISAP 2008). An end open at a plane edge leaves only the closed stub:
+    L = L' * l1. L' from cps_inductance_nH_per_mm with w_e = half the slot length (derived)."""
+    total = l1_mm + l2_mm
+    if total <= 0 or gap_mm <= 0:
+        return 0.0
+    we = strip_width_mm if strip_width_mm else max(total / 2.0, gap_mm)
+    lp = cps_inductance_nH_per_mm(gap_mm, we)
+    if l2_open:
+        return lp * l1_mm
+    if l1_mm <= 0 or l2_mm <= 0:
+        return 0.0
+    return lp * l1_mm * l2_mm / total
+
+
+def babinet_slot_inductance_nH(slot_length_mm, gap_mm):
+    """Narrow centre-fed slot by Babinet's principle from the short dipole:
+    L = mu0*pi*D / (8*(ln(2D/s) - 1)) (derived; Balanis, Antenna Theory, for the dipole)."""
+    if slot_length_mm <= 0 or gap_mm <= 0:
+        return 0.0
+    d = math.log(2.0 * slot_length_mm / gap_mm) - 1.0
+    return MU0_NH_PER_MM * math.pi * slot_length_mm / (8.0 * d) if d > 0 else 0.0
+
+
+def slot_resonance_GHz(slot_length_mm, eeff, open_at_one_end=False):
+    """First slot resonance: half-wave c/(2*L*sqrt(eeff)); quarter-wave when one end is open at
+    a plane edge. Slot-antenna and slotline theory (Balanis, Antenna Theory; from memory)."""
+    if slot_length_mm <= 0:
+        return math.inf
+    n = 4.0 if open_at_one_end else 2.0
+    return C_MM_PER_NS / (n * slot_length_mm * math.sqrt(eeff))
+
+
+# --- frequency, reflection ------------------------------------------------------------------
+
+
+def knee_frequency_GHz(rise_time_ns):
+    """F_knee = 0.5 / T_r (10-90 % rise time). Johnson & Graham, High-Speed Digital Design, sec.
+    1.1."""
+    return 0.5 / rise_time_ns
+
+
+def rise_time_for_knee_ns(freq_GHz):
+    """Inverse of knee_frequency_GHz."""
+    return 0.5 / freq_GHz
+
+
+def series_inductance_reflection(inductance_nH, z0_ohm, rise_time_ns):
+    """Reflected fraction of a step from a series inductance: L / (2*Z0*T_r), valid while
+    L/(2 Z0) << T_r (derived; Bogatin, Signal and Power Integrity - Simplified, from memory)."""
+    return inductance_nH / (2.0 * max(z0_ohm, 1e-3) * rise_time_ns)
+
+
+def wavelength_mm(freq_GHz, eeff):
+    """Wavelength on the board: c / (f * sqrt(eeff))."""
+    return C_MM_PER_NS / (freq_GHz * math.sqrt(eeff))
+
+
+# --- vias, edges, islands ------------------------------------------------------------------
+
+
+def via_pair_inductance_nH(length_mm, spacing_mm, radius_mm):
+    """Loop inductance of a signal via and its return via: (mu0*h/pi) * acosh(s/(2r)), the two-wire
+    line over the length the return travels between the planes (Paul, Inductance: Loop and
+    Partial, 2010; Ramo-Whinnery-Van Duzer; from memory)."""
+    if spacing_mm <= 2 * radius_mm:
+        return 0.0
+    return MU0_NH_PER_MM * length_mm / math.pi * math.acosh(spacing_mm / (2.0 * radius_mm))
+
+
+def microstrip_fraction_beyond_edge(distance_mm, h_mm):
+    """Share of a microstrip's return current that the infinite-plane law puts beyond a plane edge
+    at this distance from the trace centre: 1/2 - atan(d/h)/pi (derived from the 1/(1+(x/h)^2) law;
+    first-order only, the true half-plane current crowds at the edge)."""
+    return 0.5 - math.atan2(distance_mm, h_mm) / math.pi
+
+
+def patch_resonance_GHz(length_mm, width_mm, h_mm, er, tied_at_one_end=False):
+    """Resonance of a copper island over a plane, as a microstrip patch: eps_reff and the fringing
+    extension dL after Hammerstad 1975 (Balanis, Antenna Theory, 3rd ed., sec. 14.2; from memory).
+    Half that frequency when the island is tied to the plane at one end."""
+    e = (er + 1) / 2 + (er - 1) / 2 * (1 + 12 * h_mm / width_mm) ** -0.5
+    dl = (
+        0.412
+        * h_mm
+        * (e + 0.3)
+        * (width_mm / h_mm + 0.264)
+        / ((e - 0.258) * (width_mm / h_mm + 0.8))
+    )
+    f = C_MM_PER_NS / (2 * (length_mm + 2 * dl) * math.sqrt(e))
+    return f / 2 if tied_at_one_end else f
+
+
+def two_branch_shares(r1_ohm, r2_ohm, l1_nH, l2_nH):
+    """Current division between two parallel return branches: at DC by resistance (Ohm's law),
+    at high frequency by inductance. Returns (DC share of branch 1, HF share of branch 1)."""
+    return r2_ohm / (r1_ohm + r2_ohm), l2_nH / (l1_nH + l2_nH)
+
+
+def copper_resistance_ohm(length_mm, width_mm, thickness_mm, resistivity_ohm_m=1.68e-8):
+    """DC resistance of a copper strip: rho * l / (w * t) (copper 1.68e-8 ohm m, handbook value)."""
+    return resistivity_ohm_m * (length_mm * 1e-3) / (width_mm * 1e-3 * thickness_mm * 1e-3)
+
+
+def wire_partial_inductance_nH(length_mm, radius_mm):
+    """Partial self-inductance of a straight conductor, high-frequency form (no internal term):
+    (mu0/2pi) * [l*ln((l + sqrt(l^2 + r^2))/r) - sqrt(l^2 + r^2) + r] (Rosa 1908; Grover 1946)."""
+    ln, r = length_mm, radius_mm
+    if ln <= 0 or r <= 0:
+        return 0.0
+    q = math.sqrt(ln * ln + r * r)
+    return MU0_NH_PER_MM / (2 * math.pi) * (ln * math.log((ln + q) / r) - q + r)

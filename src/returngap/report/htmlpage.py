@@ -1,0 +1,178 @@
+"""report.html: one self-contained page (pictures embedded), readable offline."""
+
+import base64
+import html
+from pathlib import Path
+
+__all__ = ["STYLE", "SCRIPT", "SEV_RANK", "page"]
+
+STYLE = """
+body{font:14px/1.45 system-ui,sans-serif;margin:24px;color:#1f2a44;max-width:1280px}
+h1{font-size:22px;margin:0 0 4px} h2{font-size:17px;margin:28px 0 8px;border-bottom:1px solid
+#c9d6e3}
+.note{background:#fff6e0;border-left:4px solid #e69f00;padding:8px 12px;margin:12px 0}
+.incomplete{background:#fde8e8;border-left:6px solid #b2182b;padding:8px 12px;margin:12px 0}
+table{border-collapse:collapse;width:100%;font-size:13px} th,td{padding:4px 8px;border-bottom:1px
+solid #e3e8ef;text-align:left}
+th{background:#eef2f7;cursor:pointer;user-select:none;position:sticky;top:0} th:after{content:"
+\\2195";color:#9aa8b8}
+td.n{text-align:right;font-variant-numeric:tabular-nums}
+.sev-error{color:#b24400;font-weight:600}.sev-warning{color:#a66f00;font-weight:600}.sev-info{color:#0061a0}
+.waived{opacity:.55} .pill{display:inline-block;border-radius:8px;padding:0
+6px;background:#eef2f7;font-size:12px}
+figure{margin:16px 0} figure img{max-width:100%;border:1px solid #c9d6e3}
+figcaption{font-size:12px;color:#555}
+ul{margin:4px 0 4px 20px;padding:0}
+"""
+
+SCRIPT = """
+document.querySelectorAll('table.sortable th').forEach(function(th, col){
+  th.addEventListener('click', function(){
+    var tb = th.closest('table').tBodies[0], rows = Array.from(tb.rows);
+    var asc = th.dataset.dir !== 'asc'; th.dataset.dir = asc ? 'asc' : 'desc';
+    rows.sort(function(a, b){
+      var x = a.cells[col].dataset.v || a.cells[col].textContent, y = b.cells[col].dataset.v ||
+      b.cells[col].textContent;
+      var nx = parseFloat(x), ny = parseFloat(y);
+      var r = (!isNaN(nx) && !isNaN(ny)) ? nx - ny : x.localeCompare(y);
+      return asc ? r : -r;
+    });
+    rows.forEach(function(r){ tb.appendChild(r); });
+  });
+});
+"""
+
+SEV_RANK = {"error": 0, "warning": 1, "info": 2}
+
+
+def _img(path):
+    data = Path(path).read_bytes()
+    return "data:image/png;base64," + base64.b64encode(data).decode("ascii")
+
+
+def _pct(v):
+    return None if v is None else 100 * v
+
+
+def _num(v, fmt):
+    return "" if v is None else format(v, fmt)
+
+
+def page(report, images, overview=None):
+    """images: {finding id: png path}; overview: png path."""
+    e = html.escape
+    b = report["board"]
+    s = report["summary"]
+    parts = [
+        "<!doctype html><html lang='en'><head><meta charset='utf-8'><title>returngap: "
+        f"{e(b['name'])}</title>"
+        f"<style>{STYLE}</style></head><body>",
+        f"<h1>Return-path review: {e(b['name'])}</h1>",
+        f"<div>{s['findings']} findings: <span class='sev-error'>{s['error']} error</span>, "
+        f"<span class='sev-warning'>{s['warning']} warning</span>, <span "
+        f"class='sev-info'>{s['info']} info</span> "
+        f"on {s['tracks_checked']} checked tracks. Source: <code>{e(b['source'])}</code></div>",
+        f"<div class='note'>{e(report['disclaimer'])}</div>",
+    ]
+    if s.get("status") == "incomplete":
+        parts.append(
+            "<div class='incomplete'><b>Incomplete board data</b> (run with --allow-incomplete): "
+            "this is a partial answer.<ul>"
+            + "".join(f"<li>{e(p)}</li>" for p in report.get("problems", []))
+            + "</ul></div>"
+        )
+    parts.append(
+        "<h2>Board and stackup</h2><table><thead><tr><th>layer</th><th>side</th><th>file</th>"
+        "<th>copper mm&sup2;</th><th>nets</th><th>identified by</th></tr></thead><tbody>"
+    )
+    for c in b["copper_layers"]:
+        parts.append(
+            f"<tr><td>{e(c['name'])}</td><td>{e(c['side'])}</td><td>{e(c['file'])}</td>"
+            f"<td class='n'>{c['copper_area_mm2']:.1f}</td><td class='n'>{c['net_count']}</td>"
+            f"<td>{e(c['identified_by'])}</td></tr>"
+        )
+    parts.append(
+        "</tbody></table><p>Outline: "
+        + e(b.get("outline_file") or "from the copper")
+        + " ("
+        + e(b.get("outline_why") or "")
+        + ")</p><p>Dielectrics ("
+        + e(b["stackup_source"])
+        + "): "
+        + ", ".join(
+            f"{e(d['between'][0])}&ndash;{e(d['between'][1])} {d['thickness_mm']:.3f} mm, er "
+            f"{d['er']:.2f}"
+            for d in b["dielectrics"]
+        )
+        + "</p>"
+    )
+    if report.get("assumptions"):
+        parts.append(
+            "<h2>Assumptions</h2><ul>"
+            + "".join(f"<li>{e(a)}</li>" for a in report["assumptions"])
+            + "</ul>"
+        )
+    parts.append(
+        "<h2>Findings</h2><table class='sortable' "
+        "id='findings'><thead><tr><th>#</th><th>severity</th>"
+        "<th>kind</th><th>gap</th><th>net</th><th>layer</th><th>ref</th><th>x mm</th><th>y mm</th>"
+        "<th>detour mm</th><th>cut %</th><th>added nH</th><th>res "
+        "GHz</th><th>status</th></tr></thead><tbody>"
+    )
+    for i, f in enumerate(report["findings"], 1):
+        status = "waived" if f.get("waiver") else f.get("status", "")
+        cls = " class='waived'" if f.get("waiver") else ""
+        parts.append(
+            f"<tr{cls} id='row-{e(f['id'])}'><td class='n'><a href='#f-{e(f['id'])}'>{i}</a></td>"
+            f"<td class='sev-{f['severity']}' "
+            f"data-v='{SEV_RANK[f['severity']]}'>{f['severity']}</td>"
+            f"<td>{e(f['kind'])}</td><td>{e(f.get('gap_type') or '')}</td><td>{e(f['net'])}</td>"
+            f"<td>{e(f['layer'])}</td><td>{e(f.get('reference_layer') or '')}</td>"
+            f"<td class='n'>{f['x_mm']:.2f}</td><td class='n'>{f['y_mm']:.2f}</td>"
+            f"<td class='n'>{_num(f.get('detour_mm'), '.2f')}</td>"
+            f"<td class='n'>{_num(_pct(f.get('interrupted_fraction')), '.0f')}</td>"
+            f"<td class='n'>{_num(f.get('added_inductance_nH'), '.2f')}</td>"
+            f"<td class='n'>{_num(f.get('resonance_GHz'), '.2f')}</td><td>{e(status)}</td></tr>"
+        )
+    parts.append("</tbody></table>")
+    if report.get("resolved"):
+        parts.append(
+            "<h2>Resolved since the baseline</h2><ul>"
+            + "".join(
+                f"<li>{e(r['id'])}: {e(r.get('message') or '')}</li>" for r in report["resolved"]
+            )
+            + "</ul>"
+        )
+    stale = (report.get("waivers") or {}).get("stale") or []
+    if stale:
+        parts.append(
+            "<h2>Stale waivers (match nothing now)</h2><ul>"
+            + "".join(
+                f"<li>waiver #{w['waiver']} by {e(str(w.get('by')))}: "
+                f"{e(str(w.get('reason')))}</li>"
+                for w in stale
+            )
+            + "</ul>"
+        )
+    parts.append("<h2>Pictures</h2>")
+    if overview:
+        parts.append(
+            f"<figure><img alt='board overview' src='{_img(overview)}'><figcaption>Board "
+            "overview, findings "
+            "numbered as in the table.</figcaption></figure>"
+        )
+    for i, f in enumerate(report["findings"], 1):
+        if f["id"] in images:
+            parts.append(
+                f"<figure id='f-{e(f['id'])}'><img alt='finding {i}' src='{_img(images[f['id']])}'>"
+                f"<figcaption>#{i} {e(f['message'])}"
+                + (
+                    f" <span class='pill'>waived by {e(f['waiver']['by'])}: "
+                    f"{e(f['waiver']['reason'])}</span>"
+                    if f.get("waiver")
+                    else ""
+                )
+                + "</figcaption></figure>"
+            )
+    parts.append(f"<script>{SCRIPT}</script></body></html>\n")
+    return "\n".join(parts)

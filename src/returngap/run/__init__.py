@@ -1,0 +1,1 @@
+"""The only place that forks or starts threads: the parallel policy and the pipeline."""

@@ -1,0 +1,54 @@
+"""Everything `check --out` writes: JSON, CSV, JUnit, the pictures and report.html. The pictures are
+independent, so a large report's are drawn in two forked processes (here, in run/)."""
+
+import os
+import sys
+from pathlib import Path
+
+from returngap import report
+from returngap.report import htmlpage, render
+from returngap.run import parallel
+
+__all__ = ["write_text", "write_outputs"]
+
+
+def write_text(path, text):
+    """Write through a temporary file and a rename: a reader never sees half a report."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name(path.name + ".tmp")
+    tmp.write_text(text, encoding="utf-8")
+    os.replace(tmp, path)
+
+
+def _progress(items, label, quiet):
+    """A bar on a terminal; silent when piped, in CI or with --quiet."""
+    if quiet or not sys.stderr.isatty() or os.environ.get("CI"):
+        return items
+    from tqdm import tqdm
+
+    return tqdm(items, desc=label, unit="", leave=False, file=sys.stderr)
+
+
+def write_outputs(result, rep, out_dir, fail_on, quiet=True, workers=0):
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    for old in out.glob("finding-*.png"):  # pictures of an earlier run would mislead
+        old.unlink()
+    write_text(out / "findings.json", report.to_json(rep))
+    write_text(out / "findings.csv", report.to_csv(rep))
+    write_text(out / "junit.xml", report.to_junit(rep, fail_on))
+    images = {f["id"]: out / f"finding-{f['id']}.png" for f in rep["findings"]}
+    todo = [(out / "overview.png", None, None)]
+    todo += [(images[f["id"]], f, i) for i, f in enumerate(rep["findings"], 1)]
+    n = parallel.Parallel(workers).processes("pictures", len(todo))
+
+    def draw(k):  # every n-th picture
+        for path, f, i in _progress(todo[k::n], "pictures", quiet or k > 0):
+            if f is None:
+                render.overview_png(result, rep, path)
+            else:
+                render.finding_png(result, f, i, path)
+
+    parallel.fork_map(draw, n, n)
+    write_text(out / "report.html", htmlpage.page(rep, images, out / "overview.png"))

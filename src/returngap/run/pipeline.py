@@ -1,0 +1,101 @@
+"""One board through every stage: import -> stackup -> nets -> projection -> findings."""
+
+from dataclasses import dataclass
+
+from returngap import report
+from returngap.analysis import completeness, connectivity, gaps, references, stackup
+from returngap.checks import hazards
+from returngap.io import config, load
+from returngap.model.settings import Settings
+from returngap.run import parallel
+
+__all__ = ["CheckResult", "read_board", "layers_report", "run_check"]
+
+
+@dataclass
+class CheckResult:
+    board: object
+    nets: object
+    refs: dict
+    planes: dict
+    chains: list
+    findings: list
+    settings: object
+    status: str = completeness.COMPLETE
+    problems: list = ()
+
+
+def read_board(sources, stackup_file=None, scratch=None, workers=0):
+    """The board model and the stackup file's settings."""
+    cfg = config.load_stackup_file(stackup_file)
+    # each layer's copper islands are found as it is read, on whichever core read it
+    board = load.load_board(
+        sources,
+        user_layers=cfg.get("layers"),
+        scratch=scratch,
+        runner=parallel.Parallel(workers),
+        per_layer=connectivity.layer_islands,
+    )
+    stackup.build_stackup(board, cfg)
+    return board, cfg
+
+
+def layers_report(sources, stackup_file=None):
+    """What `returngap layers` shows: the board model, its nets and its completeness problems."""
+    board, cfg = read_board(sources, stackup_file)
+    runner = parallel.Parallel()
+    nets = connectivity.build_nets(board, cfg, runner)
+    _copper_areas(board, nets, runner)
+    rep = report.layers_report(board, nets)
+    rep["problems"] = [str(p) for p in board.problems]
+    return rep
+
+
+def _copper_areas(board, nets, runner):
+    """Each layer's copper area (every island unioned), in the runner's threads."""
+    with runner.threads(board.track_segments) as pool:
+        areas = list(pool.map(lambda layer: _area(nets, layer), board.copper))
+    for layer, area in zip(board.copper, areas):
+        layer.area_mm2 = area
+
+
+def _area(nets, layer):
+    return float(nets.layers[layer.name].island_areas().sum())
+
+
+def run_check(sources, stackup_file=None, settings=None, scratch=None, workers=0):
+    """One board through every stage. workers: processes (0: both cores where the work pays,
+    1: this process only)."""
+    settings = settings or Settings()
+    runner = parallel.Parallel(workers)
+    board, cfg = read_board(sources, stackup_file, scratch, workers)
+    if not settings.allow_incomplete:  # refuse before the expensive stages
+        completeness.enforce(board, board.problems, False)
+    nets = connectivity.build_nets(board, cfg, runner)
+    refs, planes = references.find_references(board, nets, settings)
+    chains = references.chains(board, nets, refs, settings)
+    problems = board.problems + completeness.analysis_problems(board, planes, chains, settings)
+    status = completeness.enforce(board, problems, settings.allow_incomplete)
+    findings = _findings(board, nets, refs, chains, settings, runner)
+    return CheckResult(board, nets, refs, planes, chains, findings, settings, status, problems)
+
+
+def _findings(board, nets, refs, chains, settings, runner):
+    """Every check; the gap scan's slices, the checks that do not need its findings and the copper
+    areas for the report share the processes."""
+    plane_nets_of = gaps.chain_plane_nets(nets, chains, runner)
+    workers = runner.processes("gap-scan", len(chains))
+    tasks, combine = gaps.gap_scan_tasks(
+        board, nets, refs, chains, settings, plane_nets_of, workers, runner
+    )
+    hs = settings  # the other checks' thresholds are settings too
+    checks = hazards.checks_without_gaps(board, nets, refs, chains, settings, hs, plane_nets_of)
+    areas = [lambda layer=layer: _area(nets, layer) for layer in board.copper]
+    jobs = checks + areas + tasks
+    done = parallel.fork_map(lambda k: jobs[k](), len(jobs), workers)
+    for layer, area in zip(board.copper, done[len(checks) : len(checks) + len(areas)]):
+        layer.area_mm2 = area
+    findings = combine(done[len(checks) + len(areas) :])
+    findings += sum(done[: len(checks)], []) + hazards.return_splits(board, findings, settings, hs)
+    findings += hazards.net_conflicts(nets)
+    return findings

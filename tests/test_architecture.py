@@ -1,0 +1,159 @@
+"""The layering holds: analysis never knows how it is run, settings reach batch workers whole, and
+the forked child can neither hang nor silently lose work."""
+
+import ast
+import dataclasses
+import json
+import os
+import time
+from pathlib import Path
+
+import pytest
+
+from returngap.batch import audit
+from returngap.model.settings import Settings
+from returngap.run import parallel
+
+PKG = Path(__file__).resolve().parents[1] / "src" / "returngap"
+PURE = (
+    "io",
+    "geometry",
+    "analysis",
+    "checks",
+    "physics",
+    "model",
+)  # never import run/, cli, batch/
+MAX_FUNCTION_LINES = 60
+
+
+def _imports(path):
+    """Every returngap module a file imports, as dotted names."""
+    out = set()
+    for node in ast.walk(ast.parse(path.read_text())):
+        if isinstance(node, ast.ImportFrom) and node.module and node.module.startswith("returngap"):
+            out.add(node.module)
+            out.update(f"{node.module}.{a.name}" for a in node.names)
+        elif isinstance(node, ast.Import):
+            out.update(a.name for a in node.names if a.name.startswith("returngap"))
+    return out
+
+
+def _modules(*packages):
+    for pkg in packages:
+        yield from sorted((PKG / pkg).rglob("*.py"))
+
+
+def test_no_arrow_from_the_analysis_layers_into_run_cli_or_batch():
+    bad = []
+    for path in _modules(*PURE):
+        for name in _imports(path):
+            if name.startswith(("returngap.run", "returngap.cli", "returngap.batch")):
+                bad.append(f"{path.relative_to(PKG)} imports {name}")
+    assert not bad, bad
+
+
+def test_batch_never_imports_the_command_line():
+    bad = [
+        f"{p.relative_to(PKG)}"
+        for p in _modules("batch")
+        if any(n.startswith("returngap.cli") for n in _imports(p))
+    ]
+    assert not bad, bad
+
+
+def test_only_run_forks_or_starts_threads():
+    words = ("os.fork", "ThreadPoolExecutor(", "threading.Thread(", "multiprocessing")
+    bad = []
+    for path in _modules(*PURE, "report"):
+        text = path.read_text()
+        bad += [f"{path.relative_to(PKG)}: {w}" for w in words if w in text]
+    assert not bad, bad
+
+
+def test_no_long_functions_in_the_analysis_layers():
+    long = []
+    for path in _modules(*PURE):
+        for node in ast.walk(ast.parse(path.read_text())):
+            if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef)):
+                n = node.end_lineno - node.lineno + 1
+                if n > MAX_FUNCTION_LINES:
+                    long.append(f"{path.relative_to(PKG)}:{node.lineno} {node.name} ({n} lines)")
+    assert not long, long
+
+
+def test_every_module_says_what_it_exports():
+    missing = [
+        str(p.relative_to(PKG))
+        for p in _modules(*PURE, "run", "report", "batch")
+        if p.name != "__init__.py" and "__all__" not in p.read_text()
+    ]
+    assert not missing, missing
+
+
+def _odd(field):
+    """A value of the field's type that no default has."""
+    v = field.default
+    if isinstance(v, bool):
+        return not v
+    if isinstance(v, (int, float)):
+        return v * 1.5 + 0.125
+    if isinstance(v, tuple):
+        return ("CLK*", "DQ?")
+    return 2.5  # the optional floats (max_freq_GHz)
+
+
+def test_settings_travel_whole_to_a_batch_worker(tmp_path):
+    """Every field, set to a value no default has, reaches the worker unchanged."""
+    fields = dataclasses.fields(Settings)
+    odd = Settings(**{f.name: _odd(f) for f in fields})
+    board = tmp_path / "in" / "b"
+    board.mkdir(parents=True)
+    (board / "x.gbr").write_text("%FSLAX46Y46*%\n%MOMM*%\nM02*\n")
+    [task] = audit.make_tasks(
+        [tmp_path / "in"], tmp_path / "out", odd, None, "error", False, 60, 1024
+    )
+    sent = json.loads(json.dumps(task))  # the task file the worker reads
+    got = Settings.from_json(sent["settings"])
+    for f in fields:
+        assert getattr(got, f.name) == getattr(odd, f.name), f.name
+        assert getattr(got, f.name) != f.default, f.name  # the test would notice a lost field
+
+
+@pytest.fixture
+def forking_allowed(monkeypatch):
+    monkeypatch.setattr(parallel.threading, "active_count", lambda: 1)  # other tests' threads aside
+
+
+def test_work_a_dead_child_left_is_redone_here(forking_allowed):
+    parent = os.getpid()
+
+    def task(k):
+        if os.getpid() != parent and k >= 2:
+            os._exit(3)  # the child dies in the middle of its share
+        return k * k
+
+    assert parallel.fork_map(task, 40, 2) == [k * k for k in range(40)]
+
+
+def test_a_silent_child_is_stopped_and_its_work_redone(forking_allowed, monkeypatch):
+    monkeypatch.setattr(parallel, "CHILD_SILENCE_S", 1.0)
+    parent = os.getpid()
+
+    def task(k):
+        if os.getpid() != parent:
+            time.sleep(3600)  # stuck: it never sends anything
+        return -k
+
+    t = time.monotonic()
+    assert parallel.fork_map(task, 6, 2) == [-k for k in range(6)]
+    assert time.monotonic() - t < 30
+
+
+def test_a_task_error_is_raised_here_as_in_one_process(forking_allowed):
+    def task(k):
+        if k == 5:
+            raise ValueError("bad layer 5")
+        return k
+
+    with pytest.raises(ValueError, match="bad layer 5"):
+        parallel.fork_map(task, 12, 2)
