@@ -62,8 +62,8 @@ def hazard_board(folder, stitch_dx=3.0, edge_gap=0.5, island=True, stitch_pitch=
     - SIG_B on L1 runs with its centre line edge_gap mm inside the top edge of the L2 plane (y =
     30).
     - a 20 x 5 mm unconnected copper island on L1 beside SIG_C.
-    - with stitch_pitch: a GND pour on L1 whose stitching vias are stitch_pitch mm apart, next to
-    SIG_D."""
+    - with stitch_pitch: a GND pour on L1 whose stitching vias are stitch_pitch mm apart, next
+    to SIG_D."""
     b = SynthBoard("h", 80, 40, n_layers=4, dielectrics=[(H, er), (1.0, er), (H, er)])
     b.planes.append((2, "GND", rect(0, 0, 80, 30)))
     b.planes.append((3, "GND", rect(0, 0, 80, 40)))

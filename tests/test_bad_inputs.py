@@ -124,8 +124,8 @@ def _run_bounded(folder, seconds=20):
 
 
 def test_mutated_boards_end_in_a_report_or_a_clear_error(tmp_path):
-    """Mutation fuzzing of a whole fabrication set: no uncaught exception, no hang (FUZZ_N inputs,
-    default 2000)."""
+    """Mutation fuzzing of a whole fabrication set: no uncaught exception, no hang (FUZZ_N
+    inputs, default 2000)."""
     seed = _seed_board(tmp_path / "seed")
     rng = random.Random(20261202)
     n = int(os.environ.get("FUZZ_N", "2000"))

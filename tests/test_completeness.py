@@ -199,8 +199,8 @@ def test_outline_beside_a_break_away_frame_on_a_mechanical_layer(tmp_path):
 
 
 def test_outline_of_arcs(tmp_path):
-    """A 60 x 40 rounded rectangle (r = 5) drawn as four lines and four arcs: area 2400 - (4 - pi)
-    r^2."""
+    """A 60 x 40 rounded rectangle (r = 5) drawn as four lines and four arcs: area 2400 - (4 -
+    pi) r^2."""
     four_layer(tmp_path, job_file=False)
     r = 5
     lines = [

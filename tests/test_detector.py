@@ -313,8 +313,8 @@ def test_no_exact_way_when_another_void_is_in_the_way():
 
 
 def test_no_exact_way_from_a_pocket():
-    """An end under an overhang of the gap (a bar, a wall and a roof over the end) lies inside the
-    hull
+    """An end under an overhang of the gap (a bar, a wall and a roof over the end) lies inside
+    the hull
     of the outline it must go round: not a plain hull way (the grid takes over)."""
     import shapely
 

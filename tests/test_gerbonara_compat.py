@@ -4,7 +4,7 @@ from gerbonara import ExcellonFile, GerberFile
 
 from conftest import gerber
 from returngap.geometry import shapes
-from returngap.io import compat, load
+from returngap.io import compat, excellon, load, roles
 
 compat.apply()
 
@@ -69,9 +69,9 @@ def test_excellon_x2_comment_sets_plating(tmp_path):
         "M48\n; #@! TF.FileFunction,NonPlated,1,4,NPTH\nMETRIC\nT1C1.000\n%\n"
         "G90\nT1\nX1.0Y1.0\nM30\n"
     )
-    role = load.role_from_function(load.X2_FUNC_RE.search(text).group(1))
+    role = roles.role_from_function(roles.X2_FUNC_RE.search(text).group(1))
     d = ExcellonFile.from_string(text)
-    drill, _ = load.build_drill(
+    drill, _ = excellon.build_drill(
         type("F", (), {"name": "x.drl"})(), d, role, 4, text, "", role.span, "X2"
     )
     assert drill.plated is False and (drill.from_layer, drill.to_layer) == (1, 4)

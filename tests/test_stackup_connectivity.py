@@ -5,7 +5,7 @@ import pytest
 from boards import slot_board
 from returngap.analysis import connectivity, stackup
 from returngap.errors import InputError
-from returngap.io import config, load
+from returngap.io import config, ipc356
 from returngap.model.board import Board
 from returngap.run.pipeline import read_board
 
@@ -125,7 +125,7 @@ def test_ipc356_records(tmp_path):
     )
     p = tmp_path / "n.ipc"
     p.write_text(text)
-    pts = load.parse_netlist(type("F", (), {"name": "n.ipc", "path": p})())
+    pts = ipc356.parse_netlist(type("F", (), {"name": "n.ipc", "path": p})())
     assert pts[0].net == "/N023" and pts[0].refdes == "D1" and pts[0].pin == "1"
     assert (pts[0].x, pts[0].y) == pytest.approx((3.5309 * 25.4, -2.7829 * 25.4))
     assert pts[1].is_via and pts[1].net == "NET-(D381-A)"

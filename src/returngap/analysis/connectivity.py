@@ -194,9 +194,10 @@ class Nets:
     plane_nets: set
     hole_net: dict  # (drill file, hole index) -> net
     notes: list = field(default_factory=list)
-    conflicts: list = field(
-        default_factory=list
-    )  # NetConflict: one piece of copper, two net labels
+    conflicts: list = field(default_factory=list)  # NetConflict: one copper, two net labels
+    # two-terminal parts by the set of their two nets, and whether the data tells parts at all
+    # (worked out once per board by checks/common.parts_bridging)
+    two_pin_parts: tuple | None = None
 
     def is_signal(self, net):
         return self.net_class.get(net, "signal") == "signal"
@@ -380,8 +381,8 @@ def classify(names, user_cfg):
 
 
 def _tally(votes, li, islands, names, weight):
-    """Add `weight` votes for each named object's net to its island (counted in numpy, not one by
-    one)."""
+    """Add `weight` votes for each named object's net to its island (counted in numpy, not one
+    by one)."""
     uniq = sorted({n for n in names if n})
     code = {n: k for k, n in enumerate(uniq)}
     if not uniq:
@@ -394,10 +395,10 @@ def _tally(votes, li, islands, names, weight):
 
 
 def layer_islands(layer):
-    """Islands of one layer's pieces, and the island under each segment, flash and region; kept on
-    the
-    layer (as layer.islands_found, with its pieces' tree as layer.piece_tree), so that the import
-    can
+    """Islands of one layer's pieces, and the island under each segment, flash and region; kept
+    on the
+    layer (as layer.islands_found, with its pieces' tree as layer.piece_tree), so that the
+    import can
     work them out for each layer as it reads it, on either core."""
     pieces = layer.pieces
     shapely.prepare(pieces)  # point and hole tests below and in later stages
@@ -433,71 +434,97 @@ def _layer_islands(layer):
 def build_nets(board, user_cfg=None, runner=SERIAL):
     """Nets of the board: islands per layer joined through plated holes, named and classed; the
     per-layer geometry in the runner's pool (shapely's vectorised calls release the GIL)."""
-    g = nx.Graph()
-    per_layer = {}
-    votes = defaultdict(Counter)
     size = board.track_segments
     with runner.threads(size) as pool:
         found = list(pool.map(_layer_islands, board.copper))
+    g, votes, per_layer = _island_graph(board, found)
+    hole_nodes, tied = _join_through_holes(board, g, per_layer)
+    _netlist_votes(board, votes, per_layer)
+    node_net, unnamed, conflicts = _name_components(board, g, votes, per_layer)
+    _generated_names(board, per_layer, unnamed, node_net)
+    layers = _layer_nets(board, per_layer, node_net, tied)
+    net_class = classify(sorted(set(node_net.values())), user_cfg)
+    with runner.threads(size) as pool:
+        big = set().union(
+            *pool.map(
+                lambda li: _pours_and_planes(board, layers, per_layer, li), range(len(board.copper))
+            )
+        )
+    notes = _ground_and_power(layers, net_class, big, runner, size)
+    plane_nets = {n for n, c in net_class.items() if c in ("ground", "power")}
+    hole_net = {k: node_net[v] for k, v in hole_nodes.items()}
+    for note in notes:
+        board.assume(note)
+    return Nets(layers, net_class, plane_nets, hole_net, notes, conflicts)
+
+
+def _island_graph(board, found):
+    """A node per island of every layer, and the net labels its own objects give it."""
+    g = nx.Graph()
+    per_layer = {}
+    votes = defaultdict(Counter)
     for li, (layer, (piece_island, tree, seg_isl, fl_isl, reg_isl, count, pairs)) in enumerate(
         zip(board.copper, found)
     ):
         if count:
             _tally(votes, li, seg_isl, layer.segment_net, 1)
             _tally(votes, li, fl_isl, layer.flash_net, 1)
-            _tally(
-                votes, li, reg_isl, [r[1] for r in layer.regions], 5
-            )  # a named pour speaks for its island
+            # a named pour speaks for its island
+            _tally(votes, li, reg_isl, [r[1] for r in layer.regions], 5)
         g.add_nodes_from((li, int(i)) for i in range(count))
         per_layer[layer.name] = (piece_island, tree, seg_isl, fl_isl, count, pairs)
+    return g, votes, per_layer
 
+
+def _hole_shapes(drill):
+    holes = shapely.buffer(
+        shapely.points(drill.holes[:, :2]), np.maximum(drill.holes[:, 2] / 2, 0.01)
+    )
+    slots = []
+    if len(drill.slots):
+        lines = shapely.linestrings([[(s[0], s[1]), (s[2], s[3])] for s in drill.slots])
+        slots = list(shapely.buffer(lines, drill.slots[:, 4] / 2))
+    return np.array(list(holes) + slots, dtype=object)
+
+
+def _join_through_holes(board, g, per_layer):
+    """Edges between the islands a plated hole passes through (within its span); returns the first
+    island of each hole, and per layer the islands with a hole in them (not floating)."""
     hole_nodes = {}
     layer_pos = {c.name: i for i, c in enumerate(board.copper)}
-    tied = defaultdict(set)  # islands with a hole or pad in them: not floating
+    tied = defaultdict(set)
     for drill in board.drills:
-        geoms = list(
-            shapely.buffer(
-                shapely.points(drill.holes[:, :2]), np.maximum(drill.holes[:, 2] / 2, 0.01)
-            )
-        )
-        geoms += list(
-            shapely.buffer(
-                shapely.linestrings([[(s[0], s[1]), (s[2], s[3])] for s in drill.slots])
-                if len(drill.slots)
-                else [],
-                drill.slots[:, 4] / 2 if len(drill.slots) else 0,
-            )
-        )
-        geoms = np.array(geoms, dtype=object)
+        geoms = _hole_shapes(drill)
         if not len(geoms):
             continue
+        plated = np.concatenate([drill.hole_plated, drill.slot_plated])
         hits = defaultdict(list)
         for ln in range(drill.from_layer, drill.to_layer + 1):
             li = layer_pos.get(f"L{ln}")
-            if li is None:
+            if li is None or not per_layer[f"L{ln}"][4]:
                 continue
-            piece_island, tree, _, _, count, _ = per_layer[f"L{ln}"]
-            if not count:
-                continue
-            layer_pieces = board.copper[li].pieces
+            piece_island, tree = per_layer[f"L{ln}"][:2]
+            pieces = board.copper[li].pieces
             centres = shapely.points(drill.holes[:, :2])
-            tied[li].update(piece_island[touching(tree, layer_pieces, centres)[1]].tolist())
-            plated = np.concatenate([drill.hole_plated, drill.slot_plated])
+            tied[li].update(piece_island[touching(tree, pieces, centres)[1]].tolist())
             if not plated.any():
                 continue
-            q = touching(tree, layer_pieces, geoms)
+            q = touching(tree, pieces, geoms)
             q = q[:, plated[q[0]]]  # non-plated holes join nothing
             for h, isl in zip(q[0], piece_island[q[1]]):
                 if not hits[h] or hits[h][-1] != (li, int(isl)):
                     hits[h].append((li, int(isl)))
         for h, nodes in hits.items():
             hole_nodes[(drill.file, int(h))] = nodes[0]
-            for a, b in zip(nodes[:-1], nodes[1:]):
-                g.add_edge(a, b)
+            g.add_edges_from(zip(nodes[:-1], nodes[1:]))
+    return hole_nodes, tied
 
+
+def _netlist_votes(board, votes, per_layer):
+    """Each netlist point labels the islands it lands on, on the side it is reached from (both
+    sides: a through-hole pad)."""
     last = len(board.copper) - 1
     for p in board.netlist:
-        # a point votes on the side the netlist says it is reached from (both: a through-hole pad)
         sides = (0, last) if p.layers is None else ((0,) if p.layers[0] == 1 else (last,))
         for li in sides:
             piece_island, tree, _, _, count, _ = per_layer[board.copper[li].name]
@@ -507,31 +534,30 @@ def build_nets(board, user_cfg=None, runner=SERIAL):
             for isl in set(piece_island[hit].tolist()):
                 votes[(li, int(isl))][p.net] += 3
 
+
+def _name_components(board, g, votes, per_layer):
+    """Each joined group of islands takes the label most of its objects carry; groups with no label
+    are returned for generated names; groups with two labels give NetConflicts."""
     comps = sorted((sorted(c) for c in nx.connected_components(g)), key=lambda c: c[0])
-    node_net = {}
-    unnamed = []
-    conflicts = []
+    node_net, unnamed, conflicts = {}, [], []
     for comp in comps:
         tally = Counter()
         for node in comp:
             tally.update(votes.get(node, {}))
-        if tally:
-            name = min(tally.items(), key=lambda kv: (-kv[1], kv[0]))[0]
-            for node in comp:
-                node_net[node] = name
-            if len(tally) > 1:
-                conflicts.extend(_conflicts(board, comp, votes, per_layer, name, tally))
-        else:
+        if not tally:
             unnamed.append(comp)
-    layers = {}
-    for layer in board.copper:
-        piece_island, tree, seg_isl, fl_isl, count, pairs = per_layer[layer.name]
-        layers[layer.name] = LayerNets(
-            layer.name, layer.pieces, piece_island, [None] * count, [], [], None, tree
-        )
-    # stable generated names: order by layer and position (the centre of an island's bounds) of the
-    # component's first island in that order, whatever order the pieces were drawn in
+            continue
+        name = min(tally.items(), key=lambda kv: (-kv[1], kv[0]))[0]
+        for node in comp:
+            node_net[node] = name
+        if len(tally) > 1:
+            conflicts.extend(_conflicts(board, comp, votes, per_layer, name, tally))
+    return node_net, unnamed, conflicts
 
+
+def _generated_names(board, per_layer, unnamed, node_net):
+    """Stable generated names: ordered by layer and position (the centre of an island's bounds) of
+    the group's first island in that order, whatever order the pieces were drawn in."""
     centre = {}  # layer position -> per island, the centre of its bounds (all islands at once)
     for li, layer in enumerate(board.copper):
         piece_island, count = per_layer[layer.name][0], per_layer[layer.name][4]
@@ -549,64 +575,72 @@ def build_nets(board, user_cfg=None, runner=SERIAL):
         for node in comp:
             node_net[node] = f"UNNAMED_{k + 1:04d}"
 
+
+def _layer_nets(board, per_layer, node_net, tied):
+    layers = {}
     for li, layer in enumerate(board.copper):
-        piece_island, tree, seg_isl, fl_isl, count, pairs = per_layer[layer.name]
-        ln = layers[layer.name]
+        piece_island, tree, seg_isl, fl_isl, count, _ = per_layer[layer.name]
+        ln = LayerNets(layer.name, layer.pieces, piece_island, [None] * count, [], [], None, tree)
         ln.island_net = [node_net[(li, i)] for i in range(count)]
         ln.segment_net = [ln.island_net[i] for i in seg_isl]
         ln.flash_net = [ln.island_net[i] for i in fl_isl]
         ln.island_tied[list(tied[li] | set(fl_isl.tolist()))] = True
-    net_class = classify(sorted(set(node_net.values())), user_cfg)
-    limit = PLANE_AREA_FRACTION * (board.outline.area or 1.0)
+        layers[layer.name] = ln
+    return layers
 
-    def finish(li):
-        """Pour segments and plane-sized islands of one layer (the unions here release the GIL)."""
-        layer = board.copper[li]
-        ln = layers[layer.name]
-        _, _, seg_isl, _, _, pairs = per_layer[layer.name]
-        ln.segment_fill = _fill_segments(layer, ln, seg_isl, pairs)
-        # an island is at least as large as its largest piece and at most the sum of them: only
-        # islands between the two bounds are unioned here
-        upper, lower = ln.piece_area_bounds()
-        return {
-            ln.island_net[i]
-            for i in np.flatnonzero(upper >= limit)
-            if lower[i] >= limit or ln.island_area(int(i)) >= limit
-        }
+
+def _pours_and_planes(board, layers, per_layer, li):
+    """Pour segments of one layer, and the nets of its plane-sized islands (an island's area lies
+    between its largest piece's and its pieces' sum: only islands between the two are unioned)."""
+    layer = board.copper[li]
+    ln = layers[layer.name]
+    _, _, seg_isl, _, _, pairs = per_layer[layer.name]
+    ln.segment_fill = _fill_segments(layer, ln, seg_isl, pairs)
+    limit = PLANE_AREA_FRACTION * (board.outline.area or 1.0)
+    upper, lower = ln.piece_area_bounds()
+    return {
+        ln.island_net[i]
+        for i in np.flatnonzero(upper >= limit)
+        if lower[i] >= limit or ln.island_area(int(i)) >= limit
+    }
+
+
+def _ground_by_copper(layers, runner, size):
+    """The net with the most copper, and its area. Only nets whose upper bound (sum of piece areas)
+    reaches the best lower bound (largest pieces) can win, so only theirs are unioned."""
+    upper, lower = Counter(), Counter()
+    for ln in layers.values():
+        up, lo = ln.piece_area_bounds()
+        for n, u, lw in zip(ln.island_net, up.tolist(), lo.tolist()):
+            upper[n] += u
+            lower[n] += lw
+    best = max(lower.values())
+    area_by_net = Counter()
+
+    def areas(ln):  # each layer's candidate islands unioned in one call
+        idx = [i for i, n in enumerate(ln.island_net) if upper[n] >= best]
+        return [(ln.island_net[i], a) for i, a in zip(idx, shapely.area(ln.island_polygons(idx)))]
 
     with runner.threads(size) as pool:
-        big = set().union(*pool.map(finish, range(len(board.copper))))
+        for found in pool.map(areas, layers.values()):
+            for n, a in found:
+                area_by_net[n] += a
+    gnd = max(area_by_net.items(), key=lambda kv: (kv[1], kv[0]))[0]
+    return gnd, area_by_net[gnd]
+
+
+def _ground_and_power(layers, net_class, big, runner, size):
+    """Ground by copper area when no net is named like one; signal nets with a plane-sized island
+    become power nets. Returns the notes that say so."""
     notes = []
     if not any(c == "ground" for c in net_class.values()) and any(
         ln.n_islands for ln in layers.values()
     ):
-        # each island's area lies between its largest piece's and its pieces' sum: only nets whose
-        # upper bound reaches the best lower bound can have the most copper, so only
-        # theirs are unioned
-        upper, lower = Counter(), Counter()
-        for ln in layers.values():
-            up, lo = ln.piece_area_bounds()
-            for n, u, lw in zip(ln.island_net, up.tolist(), lo.tolist()):
-                upper[n] += u
-                lower[n] += lw
-        best = max(lower.values())
-        area_by_net = Counter()
-
-        def areas(ln):  # each layer's candidate islands unioned in one call (in two threads)
-            idx = [i for i, n in enumerate(ln.island_net) if upper[n] >= best]
-            return [
-                (ln.island_net[i], a) for i, a in zip(idx, shapely.area(ln.island_polygons(idx)))
-            ]
-
-        with runner.threads(size) as pool:
-            for found in pool.map(areas, layers.values()):
-                for n, a in found:
-                    area_by_net[n] += a
-        gnd = max(area_by_net.items(), key=lambda kv: (kv[1], kv[0]))[0]
+        gnd, area = _ground_by_copper(layers, runner, size)
         net_class[gnd] = "ground"
         notes.append(
             f"no net is named like a ground: {gnd}, the net with the most copper "
-            f"({area_by_net[gnd]:.0f} mm2), is taken as ground"
+            f"({area:.0f} mm2), is taken as ground"
         )
     for n in sorted(big):
         if net_class[n] == "signal":
@@ -615,8 +649,4 @@ def build_nets(board, user_cfg=None, runner=SERIAL):
                 f"net {n} has a plane-sized island (>= {PLANE_AREA_FRACTION:.0%} of the board) "
                 "and is treated as a power plane"
             )
-    plane_nets = {n for n, c in net_class.items() if c in ("ground", "power")}
-    hole_net = {k: node_net[v] for k, v in hole_nodes.items()}
-    for note in notes:
-        board.assume(note)
-    return Nets(layers, net_class, plane_nets, hole_net, notes, conflicts)
+    return notes

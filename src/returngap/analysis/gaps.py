@@ -18,6 +18,7 @@ import numpy as np
 import shapely
 
 from returngap import physics
+from returngap.analysis import severity
 from returngap.analysis.references import footprint_polygon, line_z0
 from returngap.geometry.cuts import cut_intervals, ring_edges
 from returngap.geometry.gridpath import CELLS, Lattice, lattice_way
@@ -221,8 +222,8 @@ class ReferenceCopper:
         return lat
 
     def along_edge(self, void):
-        """Per point of a gap's outer ring (the closing one aside), whether it lies on the board's
-        edge."""
+        """Per point of a gap's outer ring (the closing one aside), whether it lies on the
+        board's edge."""
         flags = self._along_edge.get(void.index)
         if flags is None:
             xy = void.ring_points(0)[0][:-1]
@@ -362,113 +363,107 @@ class _GapScan:
         out = []
         for ref_layer in ch.footprints:
             hw = ch.footprints.halfwidth(ref_layer)
-            ref = self.ref_by_layer[(ch.layer, ref_layer)]
             rc = self.copper(ref_layer)
-            if not rc.voids:
+            near = self._near_voids(rc, ch, hw) if rc.voids else []
+            ref_net = ref_nets[ref_layer]  # the plane net under most of the centre line
+            if not len(near) or ref_net is None:
                 continue
-            line = ch.line
-            near = rc.voids_near(line, hw)  # every void the footprint meets
-            own = self.own_hole_pts.get(ch.net)
-            if own is not None:  # the antipad of the track's own via belongs to its layer change
-                near = [
-                    k
-                    for k in near
-                    if not (
-                        rc.voids[k].enclosed and shapely.intersects(rc.void_geoms[k], own).any()
-                    )
-                ]
-            if not len(near):
-                continue
-            # the reference net: the plane net under most of the centre line
-            ref_net = ref_nets[ref_layer]
-            if ref_net is None:
-                continue
-            lx0, ly0, lx1, ly1 = line.bounds
-            # clip first: the void outside all plane copper can be as large as the board (all the
-            # chain's voids at once)
-            near = np.asarray(near, dtype=int)
-            local_all = shapely.clip_by_rect(
-                rc.void_geoms[near], lx0 - hw - 0.1, ly0 - hw - 0.1, lx1 + hw + 0.1, ly1 + hw + 0.1
-            )
-            keep = ~shapely.is_empty(local_all)
-            near, local_all = near[keep], local_all[keep]
-            try:
-                crossed = shapely.intersection(line, local_all)
-            except shapely.errors.GEOSException:  # a nearly degenerate outline: snapped to 1 nm
-                crossed = shapely.intersection(line, shapely.set_precision(local_all, 1e-6))
-            parts, of = shapely.get_parts(crossed, return_index=True)
-            ok = (shapely.get_type_id(parts) == 1) & (shapely.length(parts) > 0)
-            parts, of = parts[ok], of[ok]
-            along = np.sort(_ends_along(line, parts), axis=0).T if len(parts) else np.zeros((0, 2))
+            ref = self.ref_by_layer[(ch.layer, ref_layer)]
+            near, local_all, along, of = _crossings(rc, ch.line, hw, near)
             for j, vi in enumerate(near):
                 void = rc.voids[int(vi)]
-                local = local_all[j]
-                pieces = sorted(along[of == j].tolist())
-                merged = []
-                for s0, s1 in pieces:  # pieces of one crossing closer than the footprint merge
-                    if merged and s0 - merged[-1][1] < hw:
-                        merged[-1][1] = max(merged[-1][1], s1)
-                    else:
-                        merged.append([s0, s1])
-                events = []
-                for s0, s1 in merged:
-                    if s0 <= STEP_OFF_MM or s1 >= line.length - STEP_OFF_MM:
-                        continue  # track ends inside this void
-                    events.append(("cross", s0, s1))
-                if not pieces and void.enclosed:
-                    events.append(("graze", None, None))
-                for ev, s0, s1 in events:
-                    try:
-                        f = _finding(
-                            self.board,
-                            ch,
-                            ref,
-                            rc,
-                            void,
-                            local,
-                            line,
-                            hw,
-                            ev,
-                            s0,
-                            s1,
-                            self.reach,
-                            self.settings,
-                            ref_net,
-                        )
-                    except shapely.errors.GEOSException:
-                        # GEOS can fail on a nearly degenerate outline ("side location conflict"):
-                        # once more with the gap snapped to a 1 nm grid, which makes it clean
-                        f = _finding(
-                            self.board,
-                            ch,
-                            ref,
-                            rc,
-                            void,
-                            shapely.set_precision(local, 1e-6),
-                            line,
-                            hw,
-                            ev,
-                            s0,
-                            s1,
-                            self.reach,
-                            self.settings,
-                            ref_net,
-                        )
+                for ev, s0, s1 in _events(sorted(along[of == j].tolist()), void, ch.line, hw):
+                    f = self._finding(ch, ref, rc, void, local_all[j], hw, ev, s0, s1, ref_net)
                     if f is not None:
-                        out.append(
-                            (
-                                (
-                                    f["net"],
-                                    f["layer"],
-                                    f["reference_layer"],
-                                    void.index,
-                                    round(f["x_mm"], 1),
-                                    round(f["y_mm"], 1),
-                                ),
-                                f,
-                            )
+                        key = (
+                            f["net"],
+                            f["layer"],
+                            f["reference_layer"],
+                            void.index,
+                            round(f["x_mm"], 1),
+                            round(f["y_mm"], 1),
                         )
+                        out.append((key, f))
         return out
+
+    def _near_voids(self, rc, ch, hw):
+        """Every void the footprint meets, but the antipad of the track's own via (that belongs
+        to its layer change)."""
+        near = rc.voids_near(ch.line, hw)
+        own = self.own_hole_pts.get(ch.net)
+        if own is None:
+            return near
+        return [
+            k
+            for k in near
+            if not (rc.voids[k].enclosed and shapely.intersects(rc.void_geoms[k], own).any())
+        ]
+
+    def _finding(self, ch, ref, rc, void, local, hw, ev, s0, s1, ref_net):
+        args = (
+            ch,
+            ref,
+            rc,
+            void,
+            local,
+            ch.line,
+            hw,
+            ev,
+            s0,
+            s1,
+            self.reach,
+            self.settings,
+            ref_net,
+        )
+        try:
+            return _finding(self.board, *args)
+        except shapely.errors.GEOSException:
+            # GEOS can fail on a nearly degenerate outline ("side location conflict"): once more
+            # with the gap snapped to a 1 nm grid, which makes it clean
+            snapped = (*args[:4], shapely.set_precision(local, 1e-6), *args[5:])
+            return _finding(self.board, *snapped)
+
+
+def _crossings(rc, line, hw, near):
+    """The voids near a track clipped to its box (the void outside all plane copper can be as large
+    as the board), and where the track enters and leaves each: (voids, clipped, [start, end] per
+    piece, void of each piece)."""
+    lx0, ly0, lx1, ly1 = line.bounds
+    near = np.asarray(near, dtype=int)
+    local_all = shapely.clip_by_rect(
+        rc.void_geoms[near], lx0 - hw - 0.1, ly0 - hw - 0.1, lx1 + hw + 0.1, ly1 + hw + 0.1
+    )
+    keep = ~shapely.is_empty(local_all)
+    near, local_all = near[keep], local_all[keep]
+    try:
+        crossed = shapely.intersection(line, local_all)
+    except shapely.errors.GEOSException:  # a nearly degenerate outline: snapped to 1 nm
+        crossed = shapely.intersection(line, shapely.set_precision(local_all, 1e-6))
+    parts, of = shapely.get_parts(crossed, return_index=True)
+    ok = (shapely.get_type_id(parts) == 1) & (shapely.length(parts) > 0)
+    parts, of = parts[ok], of[ok]
+    along = np.sort(_ends_along(line, parts), axis=0).T if len(parts) else np.zeros((0, 2))
+    return near, local_all, along, of
+
+
+def _events(pieces, void, line, hw):
+    """("cross", s0, s1) per crossing (pieces closer than the footprint merge; a track that ends
+    inside the void is left to the edge check), or one ("graze", ...) for an enclosed void
+    beside."""
+    merged = []
+    for s0, s1 in pieces:
+        if merged and s0 - merged[-1][1] < hw:
+            merged[-1][1] = max(merged[-1][1], s1)
+        else:
+            merged.append([s0, s1])
+    events = [
+        ("cross", s0, s1)
+        for s0, s1 in merged
+        if not (s0 <= STEP_OFF_MM or s1 >= line.length - STEP_OFF_MM)
+    ]
+    if not pieces and void.enclosed:
+        events.append(("graze", None, None))
+    return events
 
 
 def chain_plane_nets(nets, chains, runner=SERIAL):
@@ -692,8 +687,8 @@ def _ring_walk(ring, ia, ib, step):
 
 
 def _local_geodesic(rc, pa, pb, void_pos, hw):
-    """Detour path round the gap: first the exact way round the gap alone when nothing else is in
-    the
+    """Detour path round the gap: first the exact way round the gap alone when nothing else is
+    in the
     way (_chain_detour); else the shortest way on a grid of the copper in a window round the
     crossing, pulled taut (gridpath), in a small window and then one three times as wide, so that
     large voids stay cheap; last, the taut way round the whole gap's hull. Returns (length, path,
@@ -774,104 +769,86 @@ def majority_nets(ln, plane_nets, lines, samples=17):
     return out
 
 
-def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, settings, ref_net):
-    w = ch.width_mm
-    if ev == "cross":
-        mid_s = (s0 + s1) / 2
-        span = (s0 - hw, s1 + hw)
-    else:
-        # graze: measure along the filament just inside the void's nearest edge
-        d = line.distance(local)
-        if interval_fraction(d, hw, w, ref) < settings.min_interrupted_fraction:
-            return None  # even a void filling the footprint beyond d holds less (|x| >= d there)
-        if _footprint_overlap(line, hw, local) < 1e-4:
-            return None  # it only touches the footprint
-        near_line, near_void = shapely.shortest_line(line, local).coords
-        mid_s = line.project(shapely.Point(near_line))
-        near = local.intersection(line.buffer(hw, cap_style="flat"))
-        corners = (
-            np.asarray(near.exterior.coords)
-            if near.geom_type == "Polygon"
-            else shapely.get_coordinates(near)
-        )
-        at = shapely.line_locate_point(line, shapely.points(corners)) if len(corners) else []
-        span = (float(min(at)), float(max(at))) if len(at) else (mid_s, mid_s)
-    # the gap's size first: a short enclosed gap (an antipad) is not reported, whatever it
-    # interrupts
-    mid = line.interpolate(mid_s)
-    tangent = _tangent(line, mid_s)
-    geo = slot_geometry(void, (mid.x, mid.y), tangent, reach, settings.slot_aspect_ratio)
-    if geo["length"] < settings.min_gap_length_mm and void.enclosed:
-        return None
-    share, _ = interrupted_share(line, span[0], span[1], hw, w, ref, local)
-    if share < settings.min_interrupted_fraction:
-        return None
-    if ev == "cross":
-        pa = line.interpolate(max(0.0, s0 - STEP_OFF_MM))
-        pb = line.interpolate(min(line.length, s1 + STEP_OFF_MM))
-        ia, ib = rc.island_at(pa), rc.island_at(pb)
-    else:
-        path_line = None
-        for side in (1, -1):
-            off = line.offset_curve(side * (d + 0.02))
-            if off.is_empty or off.geom_type != "LineString":
-                continue
-            if off.distance(local) < 1e-6:
-                path_line = off
-                break
-        ia = ib = None
-        pa = pb = None
-        if path_line is not None:
-            cr = [
-                p
-                for p in shapely.get_parts(path_line.intersection(local))
-                if p.geom_type == "LineString"
-            ]
-            if cr:
-                ss = np.sort(_ends_along(path_line, np.array(cr, dtype=object)), axis=None).tolist()
-                if ss[0] > STEP_OFF_MM and ss[-1] < path_line.length - STEP_OFF_MM:
-                    pa = path_line.interpolate(ss[0] - STEP_OFF_MM)
-                    pb = path_line.interpolate(ss[-1] + STEP_OFF_MM)
-                    ia, ib = rc.island_at(pa), rc.island_at(pb)
-    detour, path, detour_method = None, None, None
+def _graze_span(line, local, hw, w, ref, settings):
+    """(distance, middle, span) along the track of a graze, measured along the filament just inside
+    the void's nearest edge; None when it cannot interrupt enough or only touches the footprint."""
+    d = line.distance(local)
+    if interval_fraction(d, hw, w, ref) < settings.min_interrupted_fraction:
+        return None  # even a void filling the footprint beyond d holds less (|x| >= d there)
+    if _footprint_overlap(line, hw, local) < 1e-4:
+        return None  # it only touches the footprint
+    near_line, _ = shapely.shortest_line(line, local).coords
+    mid_s = line.project(shapely.Point(near_line))
+    near = local.intersection(line.buffer(hw, cap_style="flat"))
+    corners = (
+        np.asarray(near.exterior.coords)
+        if near.geom_type == "Polygon"
+        else shapely.get_coordinates(near)
+    )
+    at = shapely.line_locate_point(line, shapely.points(corners)) if len(corners) else []
+    span = (float(min(at)), float(max(at))) if len(at) else (mid_s, mid_s)
+    return d, mid_s, span
+
+
+def _graze_sides(line, local, rc, d):
+    """Points (and their islands) just before and after the void, on a line beside the track that
+    touches it; Nones when there is none."""
+    for side in (1, -1):
+        off = line.offset_curve(side * (d + 0.02))
+        if off.is_empty or off.geom_type != "LineString" or off.distance(local) >= 1e-6:
+            continue
+        cr = [q for q in shapely.get_parts(off.intersection(local)) if q.geom_type == "LineString"]
+        if not cr:
+            return None, None, None, None
+        ss = np.sort(_ends_along(off, np.array(cr, dtype=object)), axis=None).tolist()
+        if ss[0] > STEP_OFF_MM and ss[-1] < off.length - STEP_OFF_MM:
+            pa = off.interpolate(ss[0] - STEP_OFF_MM)
+            pb = off.interpolate(ss[-1] + STEP_OFF_MM)
+            return pa, pb, rc.island_at(pa), rc.island_at(pb)
+        return None, None, None, None
+    return None, None, None, None
+
+
+def _way_round(rc, void, hw, ev, pa, pb, ia, ib):
+    """(detour, path, method, split): the way round the gap inside the plane island, or a split."""
+    detour, path, method = None, None, None
     split = ev == "cross" and (ia is None or ib is None or ia != ib)
     if not split and pa is not None and ia is not None and ia == ib:
         g = _local_geodesic(rc, pa, pb, void.index, hw)
         if g is not None:
             detour = max(0.0, g[0] - pa.distance(pb))
-            path, detour_method = g[1], g[2]
+            path, method = g[1], g[2]
     if ev == "graze" and detour is None:
         detour = 0.0
-    if ev == "cross" and detour is not None and detour < settings.min_detour_mm:
-        return None
     if ev == "cross" and detour is None and not split:
         split = True  # no path found inside the plane island: treat as a split
+    return detour, path, method, split
+
+
+def _gap_type(split, void, geo):
     if split:
-        gap_type = "split"
-    elif void.enclosed:
-        gap_type = "slot" if geo["elongated"] else "void"
-    else:
-        gap_type = "slot"  # a notch cut in from the plane's edge
-    width = (
-        geo["width"]
-        if geo["width"] is not None and not split
-        else (s1 - s0 if ev == "cross" else 0.0)
-    )
-    open_one_end = False
-    if not void.enclosed and gap_type == "slot":
-        open_one_end = True
-        e1_open = shapely.Point(geo["end1"]).distance(
-            rc.edge
-        ) < 0.05 or not rc.inset_outline.contains(shapely.Point(geo["end1"]))
-        # the open end is the one that reaches the plane's outer edge; the stub model
-        # keeps the closed one
-        l_closed = geo["l2"] if e1_open else geo["l1"]
-        l_open = geo["l1"] if e1_open else geo["l2"]
-    else:
-        l_closed, l_open = geo["l1"], geo["l2"]
-    slot_len = geo["length"]
+        return "split"
+    if void.enclosed:
+        return "slot" if geo["elongated"] else "void"
+    return "slot"  # a notch cut in from the plane's edge
+
+
+def _slot_ends(rc, void, gap_type, geo):
+    """(closed-end stub, other stub, open at one end): a notch's open end is the one that reaches
+    the plane's outer edge; the stub model keeps the closed one."""
+    if void.enclosed or gap_type != "slot":
+        return geo["l1"], geo["l2"], False
+    end1 = shapely.Point(geo["end1"])
+    e1_open = end1.distance(rc.edge) < 0.05 or not rc.inset_outline.contains(end1)
+    return (geo["l2"], geo["l1"], True) if e1_open else (geo["l1"], geo["l2"], True)
+
+
+def _gap_estimate(board, ch, ref, settings, detour, slot_len, width, ends):
+    """Added inductance (geometric mean of the handbook slot formula and the slotline-stub model,
+    both as the range), impedance, reflection and resonances of one crossing."""
+    l_closed, l_open, open_one_end = ends
     d_eff = detour if detour is not None else slot_len  # a split: the whole gap length
-    l_hsdd = physics.hsdd_slot_inductance_nH(d_eff, w)
+    l_hsdd = physics.hsdd_slot_inductance_nH(d_eff, ch.width_mm)
     l_stub = physics.slot_stub_inductance_nH(
         l_closed,
         l_open,
@@ -885,43 +862,131 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
     z0 = line_z0(board, ch.layer, ch.width_mm, ref)
     refl = physics.series_inductance_reflection(est, z0, settings.rise_ns)
     f_res = physics.slot_resonance_GHz(slot_len, ref.plane_er_eff, open_at_one_end=open_one_end)
-    f_res_low = physics.slot_resonance_GHz(
-        slot_len, ref.plane_er_full, open_at_one_end=open_one_end
-    )
-    if split:
-        severity = "error"
-    elif refl >= settings.reflection_budget:
-        severity = "error"
-    elif refl >= settings.reflection_budget / 2:
-        severity = "warning"
-    else:
-        severity = "info"
-    resonant = f_res_low <= settings.knee_GHz
-    if resonant and severity != "error":
-        severity = "warning" if severity == "info" else "error"
-    x, y = float(mid.x), float(mid.y)
-    fid = stable_id("gap-crossing", ch.layer, ref.layer, ch.net, f"{x:.1f}", f"{y:.1f}", gap_type)
+    f_low = physics.slot_resonance_GHz(slot_len, ref.plane_er_full, open_at_one_end=open_one_end)
+    return {"est": est, "lo": lo, "hi": hi, "z0": z0, "refl": refl, "f_res": f_res, "f_low": f_low}
+
+
+def _gap_message(ch, ref, ref_net, rc, ev, gap_type, x, y, way, sides, share, e, settings):
+    detour, method, split = way
+    ia, ib = sides
     what = {"split": "crosses a split", "slot": "crosses a slot", "void": "crosses a void"}[
         gap_type
     ]
     if ev == "graze":
         what = f"runs beside a {gap_type}"
     det = "no path within the plane" if detour is None else f"detour {detour:.2f} mm"
-    if detour_method == "hull-estimate":
+    if method == "hull-estimate":
         det = f"detour about {detour:.2f} mm (round the gap's hull; no clear path was proven)"
     if split and ib is not None and ia is not None and rc.island_net[ib] != rc.island_net[ia]:
         det += f" ({rc.island_net[ia]} on one side, {rc.island_net[ib]} on the other)"
-    msg = (
+    return (
         f"{ch.net} on {ch.layer} {what} in {ref_net} on {ref.layer} at ({x:.2f}, {y:.2f}) mm: "
-        f"{det}, "
-        f"{share:.0%} of return current interrupted, about {est:.1f} nH added ({lo:.1f}-{hi:.1f}), "
-        f"~{refl:.0%} reflection at {settings.rise_ns:g} ns; gap resonance near {f_res:.2f} GHz"
+        f"{det}, {share:.0%} of return current interrupted, about {e['est']:.1f} nH added "
+        f"({e['lo']:.1f}-{e['hi']:.1f}), ~{e['refl']:.0%} reflection at {settings.rise_ns:g} ns; "
+        f"gap resonance near {e['f_res']:.2f} GHz"
     )
+
+
+def _where(line, local, hw, ch, ref, settings, ev, s0, s1):
+    """(middle, span along the track, distance to the void) of a crossing or a graze; None for a
+    graze below the thresholds."""
+    if ev == "cross":
+        return (s0 + s1) / 2, (s0 - hw, s1 + hw), None
+    graze = _graze_span(line, local, hw, ch.width_mm, ref, settings)
+    if graze is None:
+        return None
+    d, mid_s, span = graze
+    return mid_s, span, d
+
+
+def _sides(line, local, rc, ev, s0, s1, d):
+    """Points just before and after the gap, and the plane islands they are in."""
+    if ev != "cross":
+        return _graze_sides(line, local, rc, d)
+    pa = line.interpolate(max(0.0, s0 - STEP_OFF_MM))
+    pb = line.interpolate(min(line.length, s1 + STEP_OFF_MM))
+    return pa, pb, rc.island_at(pa), rc.island_at(pb)
+
+
+def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, settings, ref_net):
+    """The gap-crossing finding of one track over one gap (a crossing or a graze), or None when it
+    is below the reporting thresholds."""
+    where = _where(line, local, hw, ch, ref, settings, ev, s0, s1)
+    if where is None:
+        return None
+    mid_s, span, d = where
+    # the gap's size first: a short enclosed gap (an antipad) is not reported, whatever it
+    # interrupts
+    mid = line.interpolate(mid_s)
+    tangent = _tangent(line, mid_s)
+    geo = slot_geometry(void, (mid.x, mid.y), tangent, reach, settings.slot_aspect_ratio)
+    if geo["length"] < settings.min_gap_length_mm and void.enclosed:
+        return None
+    share, _ = interrupted_share(line, span[0], span[1], hw, ch.width_mm, ref, local)
+    if share < settings.min_interrupted_fraction:
+        return None
+    pa, pb, ia, ib = _sides(line, local, rc, ev, s0, s1, d)
+    detour, path, method, split = _way_round(rc, void, hw, ev, pa, pb, ia, ib)
+    if ev == "cross" and not split and detour < settings.min_detour_mm:
+        return None
+    gap_type = _gap_type(split, void, geo)
+    width = (
+        geo["width"]
+        if geo["width"] is not None and not split
+        else (s1 - s0 if ev == "cross" else 0.0)
+    )
+    ends = _slot_ends(rc, void, gap_type, geo)
+    e = _gap_estimate(board, ch, ref, settings, detour, geo["length"], width, ends)
+    x, y = float(mid.x), float(mid.y)
+    way = (detour, method, split)
+    msg = _gap_message(ch, ref, ref_net, rc, ev, gap_type, x, y, way, (ia, ib), share, e, settings)
+    return _gap_record(
+        ch,
+        ref,
+        ref_net,
+        ev,
+        gap_type,
+        x,
+        y,
+        geo["length"],
+        width,
+        share,
+        e,
+        settings,
+        (detour, method, path, split),
+        ends,
+        void.enclosed,
+        msg,
+    )
+
+
+def _gap_record(
+    ch,
+    ref,
+    ref_net,
+    ev,
+    gap_type,
+    x,
+    y,
+    slot_len,
+    width,
+    share,
+    e,
+    settings,
+    way,
+    ends,
+    enclosed,
+    msg,
+):
+    detour, method, path, split = way
+    l_closed, l_open, open_one_end = ends
     return {
-        "id": fid,
+        "id": stable_id(
+            "gap-crossing", ch.layer, ref.layer, ch.net, f"{x:.1f}", f"{y:.1f}", gap_type
+        ),
         "kind": "gap-crossing",
         "gap_type": gap_type,
-        "severity": severity,
+        "severity": severity.gap_crossing(split, e["refl"], e["f_low"], settings),
         "net": ch.net,
         "layer": ch.layer,
         "reference_layer": ref.layer,
@@ -931,23 +996,23 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         "gap_length_mm": slot_len,
         "gap_width_mm": width,
         "detour_mm": detour,
-        "detour_method": detour_method,
+        "detour_method": method,
         "interrupted_fraction": min(1.0, share),
-        "added_inductance_nH": est,
-        "added_inductance_range_nH": [lo, hi],
+        "added_inductance_nH": e["est"],
+        "added_inductance_range_nH": [e["lo"], e["hi"]],
         "inductance_method": "geometric mean of hsdd-slot-formula and slotline-stub-model",
-        "resonance_GHz": f_res,
-        "resonance_range_GHz": sorted([f_res_low, f_res]),
+        "resonance_GHz": e["f_res"],
+        "resonance_range_GHz": sorted([e["f_low"], e["f_res"]]),
         "resonance_er_eff": ref.plane_er_eff,
         "resonance_mode": "quarter-wave" if open_one_end else "half-wave",
-        "reflection_fraction": refl,
-        "z0_ohm": z0,
-        "trace_width_mm": w,
+        "reflection_fraction": e["refl"],
+        "z0_ohm": e["z0"],
+        "trace_width_mm": ch.width_mm,
         "height_mm": ref.h_mm,
         "line_type": ref.kind,
         "plane_share": ref.share,
         "crossing": ev,
         "detour_path_mm": [[round(a, 4), round(b, 4)] for a, b in path] if path else None,
-        "slot_ends_mm": [l_closed, l_open] if void.enclosed and gap_type == "slot" else None,
+        "slot_ends_mm": [l_closed, l_open] if enclosed and gap_type == "slot" else None,
         "message": msg,
     }

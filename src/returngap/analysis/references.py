@@ -4,8 +4,7 @@ For each signal layer: the nearest plane-carrying copper layer above and below, 
 dielectric height to each, microstrip or stripline, and each plane's share of the
 return. Tracks are merged into centre-line chains per net and width; each chain's
 return footprint is its width plus the half-width holding the chosen share of the
-return current (REFERENCE: 1/(1+(x/h)^2) for microstrip, the two-plate law for stripline).
-"""
+return current (REFERENCE: 1/(1+(x/h)^2) for microstrip, the two-plate law for stripline)."""
 
 import fnmatch
 from collections import defaultdict
@@ -69,8 +68,8 @@ def footprint_polygon(line, halfwidth):
 
 
 class Footprints(Mapping):
-    """Reference layer -> (footprint polygon, half-width) of one chain. A polygon is buffered only
-    when
+    """Reference layer -> (footprint polygon, half-width) of one chain. A polygon is buffered
+    only when
     first asked for: most tracks meet no gap, and the half-width alone answers 'is a gap near?'."""
 
     def __init__(self, line, outline):

@@ -1,10 +1,9 @@
-"""Batch audit of many released board archives: isolated, resumable, on local processes or a Dask
-cluster.
+"""Batch audit of many released board archives: isolated, resumable, on local processes or a
+Dask cluster.
 
 Each board runs in its own worker process (time and memory limits) and writes its reports
 into a private folder inside the output folder, which is renamed into place when complete;
-a board whose input content and settings are unchanged since its last result is skipped.
-"""
+a board whose input content and settings are unchanged since its last result is skipped."""
 
 import csv
 import hashlib
@@ -131,8 +130,8 @@ def content_hash(path, extra):
 
 
 def audit_one(task):
-    """Run one board in a worker process; returns its status row. Safe to call from a thread or a
-    Dask worker."""
+    """Run one board in a worker process; returns its status row. Safe to call from a thread or
+    a Dask worker."""
     out = Path(task["out"])
     final = out / "boards" / task["board_id"]
     status_file = final / "status.json"

@@ -7,8 +7,8 @@ cutting) finds the way, and the way is then pulled taut against the true outline
 cells are joined by the longest straight pieces that stay clear, and each bend is slid towards
 its neighbours' chord as far as it stays clear. Every piece of the result is tested against the
 exact geometry, so the way is real; its length exceeds the geodesic by a fraction of a cell per
-bend. A passage narrower than about a cell can be missed (the way then found, if any, is longer).
-"""
+bend. A passage narrower than about a cell can be missed (the way then found, if any, is
+longer)."""
 
 import math
 
@@ -102,8 +102,8 @@ class Lattice:
     def window(self, cx, cy, half):
         """The free cells of a square window round (cx, cy), at least 2 * half wide, as a new array
         [row, column], and the lattice position (x, y) of its lower left corner. Its side is a whole
-        number of SHAPE_STEP cells: windows of few shapes share their search graphs' structure (see
-        _template)."""
+        number of SHAPE_STEP cells: windows of few shapes share their search graphs' structure
+        (see _template)."""
         s = self.size
         n = SHAPE_STEP * math.ceil(2 * half / s / SHAPE_STEP - 1e-9)
         j0, i0 = round(cx / s - n / 2), round(cy / s - n / 2)
@@ -314,8 +314,8 @@ def _pull_taut(pts, passable, raster=None):
 
 
 def _search(graph, dst, dst_d, limit):
-    """Dijkstra from the start node (the last) over `graph` (see _graph), at most `limit` long, to
-    the
+    """Dijkstra from the start node (the last) over `graph` (see _graph), at most `limit` long,
+    to the
     cells dst (joined to pb at distances dst_d): the cells of the way, or None."""
     n = graph.shape[0] - 1
     d, pred = dijkstra(graph, directed=True, indices=n, return_predecessors=True, limit=limit)

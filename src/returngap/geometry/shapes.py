@@ -257,8 +257,8 @@ def merge_pieces(pieces):
 
 
 def disjoint_union(geoms):
-    """Union of geometries known not to touch one another: their polygons side by side already form
-    a
+    """Union of geometries known not to touch one another: their polygons side by side already
+    form a
     valid MultiPolygon, with no overlay work."""
     parts = shapely.get_parts(np.array(list(geoms), dtype=object))
     polys = [q for q in parts if q.geom_type == "Polygon" and not q.is_empty]

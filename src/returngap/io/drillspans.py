@@ -11,6 +11,8 @@ import re
 from pathlib import PurePosixPath
 
 __all__ = [
+    "drill_span",
+    "side_files",
     "is_layer_pairs",
     "is_drill_report",
     "read_layer_pairs",
@@ -78,3 +80,45 @@ def _layer_number(name, n_layers):
 def span_from_names(pair, n_layers):
     a, b = (_layer_number(x, n_layers) for x in pair)
     return None if a is None or b is None else (min(a, b), max(a, b))
+
+
+def drill_span(name, role, n_layers, side_files):
+    """(from, to) and where it came from: the user or the file's own attribute, the layer-pair file,
+    the drill report, the file name; else a through hole, stated."""
+    if role.span:
+        return role.span, role.source
+    key = PurePosixPath(name).name.lower()
+    tokens = side_files["layer pairs"].get(key)
+    if tokens:
+        span = span_from_tokens(tokens, side_files["suffix"])
+        if span:
+            return span, f"layer-pair file {side_files['layer pairs file']}"
+    pair = side_files["report"].get(key)
+    if pair:
+        span = span_from_names(pair, n_layers)
+        if span:
+            return span, f"drill report {side_files['report file']}"
+    m = re.search(r"[-_]L?(\d+)[-_]L?(\d+)\.\w+$", PurePosixPath(name).name, re.I)
+    if m and 1 <= int(m.group(1)) < int(m.group(2)) <= n_layers:
+        return (int(m.group(1)), int(m.group(2))), "file name"
+    return (1, n_layers), "assumed (through hole)"
+
+
+def side_files(bf, texts, layers):
+    out = {
+        "layer pairs": {},
+        "report": {},
+        "layer pairs file": None,
+        "report file": None,
+        "suffix": {
+            PurePosixPath(c.file).suffix.lower(): int(c.name[1:]) for c in layers if not c.missing
+        },
+    }
+    for f in bf.fab:
+        if f.kind == "layerpairs":
+            out["layer pairs"].update(read_layer_pairs(texts[f.name]))
+            out["layer pairs file"] = f.name
+        elif f.kind == "drillreport":
+            out["report"].update(read_drill_report(texts[f.name]))
+            out["report file"] = f.name
+    return out

@@ -8,16 +8,30 @@ area not far from the copper's own extent; loops nested one level inside it that
 are cut-outs.
 """
 
+import re
 from dataclasses import dataclass
+from pathlib import PurePosixPath
 
 import numpy as np
 import shapely
 from gerbonara import graphic_objects as go
 from gerbonara.utils import Inch
 
+from returngap.errors import InputError
 from returngap.geometry import shapes
+from returngap.io.gerber import arc_points_mm, parse_gerber
+from returngap.model.board import Problem
 
-__all__ = ["CopperSample", "Loops", "OutlineChoice", "choose", "loops_of", "copper_sample", "fit"]
+__all__ = [
+    "CopperSample",
+    "Loops",
+    "OutlineChoice",
+    "choose",
+    "loops_of",
+    "copper_sample",
+    "fit",
+    "pick_outline",
+]
 
 WELD_MM = 0.005  # stroke ends closer than this are one point (writers round differently)
 MIN_CONTAINED = 0.95  # share of the copper area an outline must hold (our own judgement, no source)
@@ -80,19 +94,7 @@ def _strokes(g, tol):
         if isinstance(obj, go.Line):
             out.append([(obj.x1 * k, obj.y1 * k), (obj.x2 * k, obj.y2 * k)])
         elif isinstance(obj, go.Arc):
-            c = obj.center
-            out.append(
-                shapes.arc_points(
-                    obj.x1 * k,
-                    obj.y1 * k,
-                    obj.x2 * k,
-                    obj.y2 * k,
-                    c[0] * k,
-                    c[1] * k,
-                    obj.clockwise,
-                    tol,
-                )
-            )
+            out.append(arc_points_mm(obj, k, tol))
         elif isinstance(obj, go.Region):
             pts = shapes.ring_points(obj.outline, obj.arc_centers or [], tol, k)
             if len(pts) > 2:
@@ -245,3 +247,89 @@ def choose(candidates, sample):
         + ("; a drawing layer, so no cut-outs taken from it" if rank >= DRAWING_RANK else "")
     )
     return OutlineChoice(poly, name, why, share, ratio)
+
+
+def _profile_candidates(roles, bf, texts, notes, parsed_cache):
+    """Outline candidates, most trusted first: (file, rank, parsed Gerber)."""
+    ranked = []
+    for name, role in roles.items():
+        if role.kind == "profile":
+            rank = {"stackup file": 0, "X2 attribute": 1, "job file": 2}.get(role.source, 3)
+            if rank == 3 and not OUTLINE_NAME_RE.search(PurePosixPath(name).name):
+                rank = 5  # the name rules call every mechanical layer an outline
+            ranked.append((rank, name))
+        elif role.kind == "other" and MECHANICAL_NAME_RE.search(PurePosixPath(name).name):
+            # a layer named as the outline before a drawing layer that may also show it
+            ranked.append((4 if OUTLINE_NAME_RE.search(PurePosixPath(name).name) else 5, name))
+    by_name = {f.name: f for f in bf.fab}
+    out = []
+    for rank, name in sorted(ranked):
+        if name not in parsed_cache:
+            try:
+                parsed_cache[name] = parse_gerber(by_name[name], texts[name], notes)
+            except InputError as e:
+                if rank < 4:
+                    raise
+                notes.append(f"{name}: not usable as an outline ({e.message})")
+                parsed_cache[name] = None
+        if parsed_cache[name] is not None:
+            out.append((name, rank, parsed_cache[name]))
+    return out
+
+
+OUTLINE_NAME_RE = re.compile(
+    r"(\.gko|\.gml|edge[_.-]?cuts|outline|profile|dimension|contour)", re.I
+)
+
+
+MECHANICAL_NAME_RE = re.compile(
+    r"(\.gm\d+|\.gko|\.gml|edge[_.-]?cuts|outline|profile|dimension|mech)", re.I
+)
+
+
+def pick_outline(roles, bf, texts, layers, tol, notes, problems):
+    """The board outline (see outline.py) and where it came from. A profile the user names is used
+    as named; when nothing fits, the copper's own extent stands in, stated."""
+    sample = copper_sample(layers)
+    cache = {}
+    cands = _profile_candidates(roles, bf, texts, notes, cache)
+    user = [c for c in cands if c[1] == 0]
+    looked = []
+    for name, rank, g in user or cands:
+        loops = loops_of(g, tol)
+        if loops is not None:
+            looked.append((name, loops, rank, len(g.objects)))
+    if looked and not len(sample.xy):  # only negative copper: nothing to test a loop against yet
+        name, loops = looked[0][0], looked[0][1]
+        return (
+            max(loops.figures, key=lambda p: p.area),
+            name,
+            "the most trusted profile file, as drawn (no positive copper to test it against)",
+        )
+    if user and looked:
+        name, loops = looked[0][0], looked[0][1]
+        shell = max(loops.figures, key=lambda p: p.area)
+        share, ratio = fit(sample, shell)
+        if share < MIN_CONTAINED or ratio > MAX_AREA_RATIO:
+            problems.append(
+                Problem(
+                    name,
+                    f"the outline the stackup file names holds {share:.0%} of the copper "
+                    f"and is {ratio:.1f} times the copper's extent",
+                )
+            )
+        return shell, name, "named as the profile in the stackup file"
+    choice = choose(looked, sample)
+    if choice is not None:
+        return choice.polygon, choice.file, choice.why
+    pts = np.vstack(
+        [shapely.get_coordinates(shapely.convex_hull(c.pieces)) for c in layers if len(c.pieces)]
+        or [np.zeros((0, 2))]
+    )
+    hull = shapely.MultiPoint(pts).convex_hull if len(pts) >= 3 else shapely.Polygon()
+    tried = ", ".join(n for n, _, _ in cands) or "none"
+    notes.append(
+        f"no closed outline holds the copper (files tried: {tried}); board outline taken as the "
+        "convex hull of all copper"
+    )
+    return hull, None, "the convex hull of all copper (no outline file fits)"

@@ -50,8 +50,8 @@ class CopperLayer:
 
     @property
     def geometry(self):
-        """The copper as one (Multi)Polygon: a union, so only for pictures, cross-checks and small
-        boards."""
+        """The copper as one (Multi)Polygon: a union, so only for pictures, cross-checks and
+        small boards."""
         if self._geometry is None:
             parts = [p for p in self.pieces if p is not None and not p.is_empty]
             self._geometry = shapely.union_all(parts) if parts else shapely.Polygon()

@@ -180,8 +180,8 @@ def ellipk_c(kc):
 
 
 def ellipk(k):
-    """Complete elliptic integral of the first kind K(k) (modulus k), by the arithmetic-geometric
-    mean."""
+    """Complete elliptic integral of the first kind K(k) (modulus k), by the
+    arithmetic-geometric mean."""
     return ellipk_c(math.sqrt(max(0.0, 1.0 - k * k)))
 
 

@@ -1,7 +1,6 @@
 """Reports: the layers summary and the findings report (JSON, text table).
 
-Floats are rounded to fixed decimals so that the same input gives byte-identical output.
-"""
+Floats are rounded to fixed decimals so that the same input gives byte-identical output."""
 
 import json
 import math

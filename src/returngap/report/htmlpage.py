@@ -8,18 +8,19 @@ __all__ = ["STYLE", "SCRIPT", "SEV_RANK", "page"]
 
 STYLE = """
 body{font:14px/1.45 system-ui,sans-serif;margin:24px;color:#1f2a44;max-width:1280px}
-h1{font-size:22px;margin:0 0 4px} h2{font-size:17px;margin:28px 0 8px;border-bottom:1px solid
-#c9d6e3}
+h1{font-size:22px;margin:0 0 4px}
+h2{font-size:17px;margin:28px 0 8px;border-bottom:1px solid #c9d6e3}
 .note{background:#fff6e0;border-left:4px solid #e69f00;padding:8px 12px;margin:12px 0}
 .incomplete{background:#fde8e8;border-left:6px solid #b2182b;padding:8px 12px;margin:12px 0}
-table{border-collapse:collapse;width:100%;font-size:13px} th,td{padding:4px 8px;border-bottom:1px
-solid #e3e8ef;text-align:left}
-th{background:#eef2f7;cursor:pointer;user-select:none;position:sticky;top:0} th:after{content:"
-\\2195";color:#9aa8b8}
+table{border-collapse:collapse;width:100%;font-size:13px}
+th,td{padding:4px 8px;border-bottom:1px solid #e3e8ef;text-align:left}
+th{background:#eef2f7;cursor:pointer;user-select:none;position:sticky;top:0}
+th:after{content:" \\2195";color:#9aa8b8}
 td.n{text-align:right;font-variant-numeric:tabular-nums}
-.sev-error{color:#b24400;font-weight:600}.sev-warning{color:#a66f00;font-weight:600}.sev-info{color:#0061a0}
-.waived{opacity:.55} .pill{display:inline-block;border-radius:8px;padding:0
-6px;background:#eef2f7;font-size:12px}
+.sev-error{color:#b24400;font-weight:600}.sev-warning{color:#a66f00;font-weight:600}
+.sev-info{color:#0061a0}
+.waived{opacity:.55}
+.pill{display:inline-block;border-radius:8px;padding:0 6px;background:#eef2f7;font-size:12px}
 figure{margin:16px 0} figure img{max-width:100%;border:1px solid #c9d6e3}
 figcaption{font-size:12px;color:#555}
 ul{margin:4px 0 4px 20px;padding:0}
@@ -31,8 +32,8 @@ document.querySelectorAll('table.sortable th').forEach(function(th, col){
     var tb = th.closest('table').tBodies[0], rows = Array.from(tb.rows);
     var asc = th.dataset.dir !== 'asc'; th.dataset.dir = asc ? 'asc' : 'desc';
     rows.sort(function(a, b){
-      var x = a.cells[col].dataset.v || a.cells[col].textContent, y = b.cells[col].dataset.v ||
-      b.cells[col].textContent;
+      var x = a.cells[col].dataset.v || a.cells[col].textContent;
+      var y = b.cells[col].dataset.v || b.cells[col].textContent;
       var nx = parseFloat(x), ny = parseFloat(y);
       var r = (!isNaN(nx) && !isNaN(ny)) ? nx - ny : x.localeCompare(y);
       return asc ? r : -r;

@@ -26,8 +26,8 @@ WAIVER_KEYS = {
 
 
 def load_waivers(path):
-    """[[waiver]] tables: an id, or a match on kind / net (glob) / layers / location; who, why and
-    when."""
+    """[[waiver]] tables: an id, or a match on kind / net (glob) / layers / location; who, why
+    and when."""
     data = read_toml(path)
     items = data.get("waiver", [])
     if not isinstance(items, list):

@@ -4,7 +4,14 @@ from dataclasses import dataclass
 
 from returngap import report
 from returngap.analysis import completeness, connectivity, gaps, references, stackup
-from returngap.checks import hazards
+from returngap.checks import (
+    edge_run,
+    floating,
+    net_conflict,
+    reference_change,
+    return_split,
+    stitching,
+)
 from returngap.io import config, load
 from returngap.model.settings import Settings
 from returngap.run import parallel
@@ -89,13 +96,20 @@ def _findings(board, nets, refs, chains, settings, runner):
         board, nets, refs, chains, settings, plane_nets_of, workers, runner
     )
     hs = settings  # the other checks' thresholds are settings too
-    checks = hazards.checks_without_gaps(board, nets, refs, chains, settings, hs, plane_nets_of)
+    # the checks that do not need the gap crossings, as tasks beside the gap scan
+    checks = [
+        lambda: reference_change.reference_changes(board, nets, refs, settings),
+        lambda: edge_run.edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of),
+        lambda: floating.floating_copper(board, nets, refs, chains, settings, hs),
+        lambda: stitching.stitching_spacing(board, nets, refs, chains, settings, hs),
+    ]
     areas = [lambda layer=layer: _area(nets, layer) for layer in board.copper]
     jobs = checks + areas + tasks
     done = parallel.fork_map(lambda k: jobs[k](), len(jobs), workers)
     for layer, area in zip(board.copper, done[len(checks) : len(checks) + len(areas)]):
         layer.area_mm2 = area
     findings = combine(done[len(checks) + len(areas) :])
-    findings += sum(done[: len(checks)], []) + hazards.return_splits(board, findings, settings, hs)
-    findings += hazards.net_conflicts(nets)
+    findings += sum(done[: len(checks)], [])
+    findings += return_split.return_splits(board, findings, settings, hs)
+    findings += net_conflict.net_conflicts(nets)
     return findings

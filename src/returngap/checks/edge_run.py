@@ -1,0 +1,201 @@
+"""edge-run: a track whose return footprint runs along the edge of its reference plane's copper,
+or off it at a track end (CVEL asks the trace to stay at least 1 h from the edge; REFERENCE 7.2).
+A track crossing a gap between plane islands is a gap crossing, not an edge run."""
+
+from collections import defaultdict
+
+import numpy as np
+import shapely
+
+from returngap import physics
+from returngap.analysis.gaps import coords_along_lines
+from returngap.checks.common import finding
+from returngap.geometry.shapes import disjoint_union
+
+__all__ = ["edge_runs"]
+
+OFF, NEAR = 2, 1  # sample classes: off the plane, within the limit of its edge (0: neither)
+
+
+def edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of):
+    """Edge runs of every checked track against its nearest reference plane."""
+    by_layer = defaultdict(list)  # signal layer -> indices of its chains
+    for k, ch in enumerate(chains):
+        by_layer[ch.layer].append(k)
+    edges = {}  # reference layer -> (plane copper without its holes, tree of its edge segments)
+    sampled = {}  # chain index -> (net, ref, limit, s, points, inside, d)
+    for layer, idx in by_layer.items():
+        ref = min(refs.get(layer, []), key=lambda q: q.h_mm, default=None)
+        if ref is not None:
+            sampled.update(_sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges))
+    findings = []
+    for ci in sorted(sampled):
+        findings += _runs(chains[ci], *sampled[ci], hs)
+    return findings
+
+
+def _plane_edges(nets, ref_layer, edges):
+    if ref_layer not in edges:
+        outer = _filled(nets.layers[ref_layer].union_of(nets.plane_nets))
+        shapely.prepare(outer)
+        edges[ref_layer] = (outer, _segment_tree(outer.boundary))
+    return edges[ref_layer]
+
+
+def _sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges):
+    """Samples along the tracks of one signal layer that come near their plane's edge or leave it:
+    {chain index: (plane net, ref, limit, distances along, points, on the plane, distance to the
+    edge)}."""
+    lines = np.array([chains[k].line for k in idx], dtype=object)
+    ref_nets = [plane_nets_of[k][ref.layer] for k in idx]
+    keep = np.array([n is not None for n in ref_nets])
+    if not keep.any():
+        return {}
+    outer, edge_tree = _plane_edges(nets, ref.layer, edges)
+    limit = hs.edge_distance_h * ref.h_mm
+    near_edge = np.zeros(len(idx), dtype=bool)
+    # long lines: a bounded nearest search prunes more of the tree than a distance query does
+    near_edge[edge_tree.query_nearest(lines, max_distance=limit, all_matches=False)[0]] = True
+    keep &= near_edge | ~shapely.contains(outer, lines)  # on the plane, far from its edge: nothing
+    todo = np.flatnonzero(keep)
+    if not len(todo):
+        return {}
+    step = max(0.05, min(0.25, ref.h_mm / 2))
+    sub = lines[todo]
+    dists = [np.linspace(0, L, max(2, int(L / step) + 1)) for L in shapely.length(sub)]
+    xy = coords_along_lines(sub, dists)
+    inside, d = _measure(
+        xy, _samples_to_look_at(sub, dists, outer, edge_tree, limit), outer, edge_tree, limit
+    )
+    ends = np.cumsum([0] + [len(x) for x in dists])
+    out = {}
+    for j, t in enumerate(todo):
+        a, b = ends[j], ends[j + 1]
+        out[idx[t]] = (ref_nets[t], ref, limit, dists[j], xy[a:b], inside[a:b], d[a:b])
+    return out
+
+
+def _measure(xy, look, outer, edge_tree, limit):
+    """Per sample: on the plane, and the distance to its edge (exact within the limit, and for every
+    sample off the plane; infinite elsewhere). Only the samples `look` marks are measured."""
+    at = np.flatnonzero(look)
+    inside = np.ones(len(xy), dtype=bool)
+    d = np.full(len(xy), np.inf)
+    if not len(at):
+        return inside, d
+    pts = shapely.points(xy[at])
+    inside[at] = shapely.intersects(outer, pts)
+    (k, _), dist = edge_tree.query_nearest(
+        pts, max_distance=limit, return_distance=True, all_matches=False
+    )
+    d[at[k]] = dist
+    off = np.flatnonzero(~inside[at] & np.isinf(d[at]))
+    if len(off):
+        (k, _), dist = edge_tree.query_nearest(pts[off], return_distance=True, all_matches=False)
+        d[at[off[k]]] = dist
+    return inside, d
+
+
+def _runs(ch, net, ref, limit, s, pts, inside, d, hs):
+    """The edge-run findings of one track from its samples."""
+    n = len(s)
+    cls = np.where(~inside, OFF, np.where(d < limit, NEAR, 0))
+    change = np.flatnonzero(np.diff(cls)) + 1
+    out = []
+    for a, b in zip(np.concatenate([[0], change]), np.concatenate([change, [n]])):
+        c = cls[a]
+        if c == 0 or (c == OFF and a != 0 and b != n):
+            continue  # off the plane between two stretches on it: a gap crossing
+        length = float(s[b - 1] - s[a])
+        if length < hs.edge_min_run_mm:
+            continue
+        k = a + int(np.argmin(d[a:b])) if c == NEAR else (b - 1 if a == 0 else a)
+        signed = float(d[k]) if c == NEAR else -float(np.max(d[a:b]))
+        out.append(_run_finding(ch, net, ref, c, length, signed, pts[k]))
+    return out
+
+
+def _run_finding(ch, net, ref, c, length, signed, at):
+    if ref.other_h_mm is None:
+        share = physics.microstrip_fraction_beyond_edge(signed, ref.h_mm)
+    else:
+        share = (
+            physics.stripline_fraction_between(signed, 1e3 * ref.h_mm, ref.h_mm, ref.other_h_mm)
+            / ref.share
+        )
+    sev = "error" if c == OFF else ("warning" if signed < ref.h_mm else "info")
+    where = "runs off" if c == OFF else "runs along"
+    msg = (
+        f"{ch.net} on {ch.layer} {where} the edge of the plane copper on {ref.layer} for "
+        f"{length:.1f} mm, {'as far as' if c == OFF else 'closest'} {abs(signed):.2f} mm "
+        f"({signed / ref.h_mm:.1f} h): about {share:.0%} of its return current on that plane lies "
+        "beyond the edge"
+    )
+    return finding(
+        "edge-run",
+        sev,
+        ch.net,
+        ch.layer,
+        at[0],
+        at[1],
+        msg,
+        reference_layer=ref.layer,
+        reference_net=net,
+        run_length_mm=length,
+        edge_distance_mm=signed,
+        edge_distance_h=signed / ref.h_mm,
+        beyond_edge_fraction=float(min(1.0, share)),
+        height_mm=ref.h_mm,
+    )
+
+
+def _segment_tree(lines):
+    """STRtree of the two-point pieces of a (multi)line: nearest-distance queries in log time, where
+    the distance to one large boundary costs a pass over all its vertices."""
+    parts = shapely.get_parts(lines)
+    xy, idx = shapely.get_coordinates(parts, return_index=True)
+    same = idx[1:] == idx[:-1]
+    segs = shapely.linestrings(np.stack([xy[:-1][same], xy[1:][same]], axis=1))
+    return shapely.STRtree(segs)
+
+
+def _filled(copper):
+    """Plane copper with its holes filled in. The islands are disjoint, so their filled outlines are
+    disjoint or nested: the outermost ones, side by side, are the union, with no overlay work."""
+    filled = shapely.polygons(shapely.get_exterior_ring(shapely.get_parts(copper)))
+    inner, outer = shapely.STRtree(filled).query(filled)
+    b = shapely.bounds(filled)
+    maybe = (
+        (inner != outer)
+        & (b[outer, :2] <= b[inner, :2]).all(axis=1)
+        & (b[outer, 2:] >= b[inner, 2:]).all(axis=1)
+    )
+    inner, outer = inner[maybe], outer[maybe]
+    nested = np.unique(inner[shapely.within(filled[inner], filled[outer])])
+    return disjoint_union(np.delete(filled, nested))
+
+
+def _samples_to_look_at(lines, dists, outer, edge_tree, limit):
+    """For samples at distances dists[i] along lines[i] (laid end to end, as coords_along_lines lays
+    them): True where the straight piece of line a sample lies on comes within `limit` of the
+    plane's edge or lies off the plane (`outer`). A piece farther than that from the edge does not
+    cross it, so one point tells whether all of it is on the plane."""
+    xy, idx = shapely.get_coordinates(lines, return_index=True)
+    same = idx[1:] == idx[:-1]
+    a, b, of_line = xy[:-1][same], xy[1:][same], idx[:-1][same]
+    flag = np.zeros(len(a), dtype=bool)
+    # a bounded nearest search prunes more of the tree than a distance query (long pieces, boxes)
+    pieces = shapely.linestrings(np.stack([a, b], axis=1))
+    flag[edge_tree.query_nearest(pieces, max_distance=limit, all_matches=False)[0]] = True
+    far = np.flatnonzero(~flag)
+    mid = (a[far] + b[far]) / 2
+    flag[far] = ~shapely.intersects_xy(outer, mid[:, 0], mid[:, 1])
+    # the piece under each sample, by its distance along the pieces of all lines laid end to end
+    run = np.concatenate([[0.0], np.cumsum(np.hypot(*(b - a).T))])
+    first = np.searchsorted(of_line, np.arange(len(dists)))
+    last = np.searchsorted(of_line, np.arange(len(dists)), side="right") - 1
+    count = [len(x) for x in dists]
+    pos = np.concatenate([x + run[f] for x, f in zip(dists, first)] or [np.zeros(0)])
+    piece = np.searchsorted(run, pos, side="right") - 1
+    piece = np.clip(piece, np.repeat(first, count), np.repeat(last, count))
+    return flag[piece]
