@@ -157,3 +157,35 @@ def test_a_task_error_is_raised_here_as_in_one_process(forking_allowed):
 
     with pytest.raises(ValueError, match="bad layer 5"):
         parallel.fork_map(task, 12, 2)
+
+
+def test_findings_are_typed_one_class_per_kind():
+    """Every finding of the demo board is an instance of its kind's class, and the report schema
+    and the classes name the same kinds."""
+    from returngap import report
+    from returngap.model.findings import KINDS, Finding
+    from returngap.run.pipeline import run_check
+
+    demo = PKG.parents[1] / "examples" / "demo-board"
+    found = run_check(demo, demo / "stackup.toml", workers=1).findings
+    assert found and all(isinstance(f, KINDS[f["kind"]]) for f in found)
+    assert {type(f) for f in found} >= {KINDS["gap-crossing"], KINDS["reference-change"]}
+    enum = report.schema()["properties"]["findings"]["items"]["properties"]["kind"]["enum"]
+    assert set(enum) == set(KINDS)
+    with pytest.raises(TypeError):  # a field the kind does not have is refused
+        KINDS["edge-run"](
+            id="x",
+            severity="info",
+            net="N",
+            layer="L1",
+            x_mm=0,
+            y_mm=0,
+            message="m",
+            run_length_mm=1,
+            edge_distance_mm=1,
+            edge_distance_h=1,
+            beyond_edge_fraction=0,
+            height_mm=0.2,
+            detour_mm=3,
+        )
+    assert issubclass(KINDS["net-conflict"], Finding)

@@ -43,8 +43,18 @@ def loaded():
     return get
 
 
+# boards read in the default test run; `make corpus` (RETURNGAP_SLOW=1) reads them all
+DEFAULT = ["limesdr-micro-m2-1v2", "mch2022-badge", "poe-gpib-adapter", "ulx3s-v3.1.1", "vesc-4.12"]
+
+
+def slow_unless_default(slug):
+    if slug not in DEFAULT and not __import__("os").environ.get("RETURNGAP_SLOW"):
+        pytest.skip("slow corpus board; run `make corpus` (RETURNGAP_SLOW=1)")
+
+
 @pytest.mark.parametrize("slug", sorted(BOARDS))
 def test_board_loads(loaded, slug):
+    slow_unless_default(slug)
     b = loaded(slug)
     assert len(b.copper) == BOARDS[slug][2]
     assert b.outline.area > 100
@@ -68,6 +78,7 @@ def test_board_loads(loaded, slug):
     ],
 )
 def test_layer_order_follows_the_files_own_attributes(loaded, slug):
+    slow_unless_default(slug)
     b = loaded(slug)
     root = corpus_board(BOARDS[slug][0])
     for c in b.copper:
@@ -98,6 +109,7 @@ def test_blind_via_span_comes_from_the_layer_pair_file(loaded):
 
 
 def test_altium_drill_spans_and_plating_are_reported(loaded):
+    slow_unless_default("limesdr-usb-1v4")
     b = loaded("limesdr-usb-1v4")
     assert all(
         (d.from_layer, d.to_layer) == (1, 12) and "layer-pair file" in d.span_source
@@ -109,6 +121,7 @@ def test_altium_drill_spans_and_plating_are_reported(loaded):
 
 @pytest.mark.parametrize("slug", sorted(BOARDS))
 def test_no_corpus_board_is_incomplete(loaded, slug):
+    slow_unless_default(slug)
     assert not loaded(slug).problems
 
 
@@ -127,6 +140,7 @@ def test_job_file_stackup_is_used(loaded):
 
 
 def test_unattributed_drill_formats_are_inferred(loaded):
+    slow_unless_default("parallella-buddy-rev1")
     for slug in ("parallella-buddy-rev1", "a20-olinuxino-lime2-k2"):
         b = loaded(slug)
         assert b.drills[0].hole_count > 1000
@@ -161,6 +175,8 @@ def _pygerber_raster(path, dpmm):
 )
 def test_copper_agrees_with_pygerber(loaded, slug, layer):
     """Independent rasterisation by pygerber: area within 1 %, no disagreeing blob 5 px wide."""
+    if slug == "mch2022-badge":
+        slow_unless_default("parallella-buddy-rev1")  # 30 s of pygerber: in make corpus only
     ndimage = pytest.importorskip("scipy.ndimage")
     b = loaded(slug)
     c = b.layer(layer)
@@ -223,6 +239,7 @@ def test_check_runs_to_completion(slug):
 
 def test_inferred_drill_format_matches_the_netlist(loaded):
     # the Allegro drill file states no format; its holes must sit on the IPC-D-356 via records
+    slow_unless_default("parallella-buddy-rev1")
     b = loaded("parallella-buddy-rev1")
     vias = np.array([(p.x, p.y) for p in b.netlist if p.is_via])
     holes = np.vstack([d.holes[:, :2] for d in b.drills])

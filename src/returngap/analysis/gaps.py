@@ -22,6 +22,7 @@ from returngap.analysis import severity
 from returngap.analysis.references import footprint_polygon, line_z0
 from returngap.geometry.cuts import cut_intervals, ring_edges
 from returngap.geometry.gridpath import CELLS, Lattice, lattice_way
+from returngap.model.findings import GapCrossing
 from returngap.model.runner import SERIAL
 
 __all__ = [
@@ -980,39 +981,36 @@ def _gap_record(
 ):
     detour, method, path, split = way
     l_closed, l_open, open_one_end = ends
-    return {
-        "id": stable_id(
-            "gap-crossing", ch.layer, ref.layer, ch.net, f"{x:.1f}", f"{y:.1f}", gap_type
-        ),
-        "kind": "gap-crossing",
-        "gap_type": gap_type,
-        "severity": severity.gap_crossing(split, e["refl"], e["f_low"], settings),
-        "net": ch.net,
-        "layer": ch.layer,
-        "reference_layer": ref.layer,
-        "reference_net": ref_net,
-        "x_mm": x,
-        "y_mm": y,
-        "gap_length_mm": slot_len,
-        "gap_width_mm": width,
-        "detour_mm": detour,
-        "detour_method": method,
-        "interrupted_fraction": min(1.0, share),
-        "added_inductance_nH": e["est"],
-        "added_inductance_range_nH": [e["lo"], e["hi"]],
-        "inductance_method": "geometric mean of hsdd-slot-formula and slotline-stub-model",
-        "resonance_GHz": e["f_res"],
-        "resonance_range_GHz": sorted([e["f_low"], e["f_res"]]),
-        "resonance_er_eff": ref.plane_er_eff,
-        "resonance_mode": "quarter-wave" if open_one_end else "half-wave",
-        "reflection_fraction": e["refl"],
-        "z0_ohm": e["z0"],
-        "trace_width_mm": ch.width_mm,
-        "height_mm": ref.h_mm,
-        "line_type": ref.kind,
-        "plane_share": ref.share,
-        "crossing": ev,
-        "detour_path_mm": [[round(a, 4), round(b, 4)] for a, b in path] if path else None,
-        "slot_ends_mm": [l_closed, l_open] if enclosed and gap_type == "slot" else None,
-        "message": msg,
-    }
+    return GapCrossing(
+        id=stable_id("gap-crossing", ch.layer, ref.layer, ch.net, f"{x:.1f}", f"{y:.1f}", gap_type),
+        gap_type=gap_type,
+        severity=severity.gap_crossing(split, e["refl"], e["f_low"], settings),
+        net=ch.net,
+        layer=ch.layer,
+        reference_layer=ref.layer,
+        reference_net=ref_net,
+        x_mm=x,
+        y_mm=y,
+        gap_length_mm=slot_len,
+        gap_width_mm=width,
+        detour_mm=detour,
+        detour_method=method,
+        interrupted_fraction=min(1.0, share),
+        added_inductance_nH=e["est"],
+        added_inductance_range_nH=[e["lo"], e["hi"]],
+        inductance_method="geometric mean of hsdd-slot-formula and slotline-stub-model",
+        resonance_GHz=e["f_res"],
+        resonance_range_GHz=sorted([e["f_low"], e["f_res"]]),
+        resonance_er_eff=ref.plane_er_eff,
+        resonance_mode="quarter-wave" if open_one_end else "half-wave",
+        reflection_fraction=e["refl"],
+        z0_ohm=e["z0"],
+        trace_width_mm=ch.width_mm,
+        height_mm=ref.h_mm,
+        line_type=ref.kind,
+        plane_share=ref.share,
+        crossing=ev,
+        detour_path_mm=[[round(a, 4), round(b, 4)] for a, b in path] if path else None,
+        slot_ends_mm=[l_closed, l_open] if enclosed and gap_type == "slot" else None,
+        message=msg,
+    )

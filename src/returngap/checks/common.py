@@ -4,6 +4,7 @@ import numpy as np
 import shapely
 
 from returngap.analysis.gaps import stable_id
+from returngap.model.findings import KINDS
 
 __all__ = ["DEFAULT_PART_LOOP_NH", "finding", "plane_net_near", "parts_bridging"]
 
@@ -13,22 +14,18 @@ DEFAULT_PART_LOOP_NH = (
 
 
 def finding(kind, severity, net, layer, x, y, message, **extra):
-    """The common fields of every finding, then the kind's own."""
-    f = {
-        "id": stable_id(kind, layer, extra.get("reference_layer"), net, f"{x:.1f}", f"{y:.1f}"),
-        "kind": kind,
-        "gap_type": None,
-        "severity": severity,
-        "net": net,
-        "layer": layer,
-        "reference_layer": extra.pop("reference_layer", None),
-        "reference_net": extra.pop("reference_net", None),
-        "x_mm": float(x),
-        "y_mm": float(y),
-        "message": message,
-    }
-    f.update(extra)
-    return f
+    """A finding of the given kind (model/findings.py): the shared fields, then the kind's own."""
+    ref = extra.get("reference_layer")
+    return KINDS[kind](
+        id=stable_id(kind, layer, ref, net, f"{x:.1f}", f"{y:.1f}"),
+        severity=severity,
+        net=net,
+        layer=layer,
+        x_mm=float(x),
+        y_mm=float(y),
+        message=message,
+        **extra,
+    )
 
 
 def plane_net_near(ln, plane_nets, x, y, reach=2.0):

@@ -7,6 +7,7 @@ import math
 from importlib import resources
 
 from returngap import __version__
+from returngap.model.findings import Finding
 
 __all__ = [
     "DISCLAIMER",
@@ -49,6 +50,8 @@ def clean(value):
             return None
         v = round(value, DECIMALS)
         return 0.0 if v == 0 else v
+    if isinstance(value, Finding):
+        value = value.as_dict()
     if isinstance(value, dict):
         return {k: clean(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
