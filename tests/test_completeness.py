@@ -333,3 +333,28 @@ def test_terminal_shows_assumptions_also_when_quiet(tmp_path):
     assert "assumptions and warnings" in r.output
     r = run("check", tmp_path, "--fail-on", "never", "--quiet")
     assert "assumption(s)" in r.output and len(r.output.strip().splitlines()) == 2
+
+
+def test_a_profile_the_user_names_keeps_its_cut_outs(tmp_path):
+    """A stackup-file profile: 60 x 40 with a 10 x 4 mm routed cut-out where no layer has copper."""
+    b = SynthBoard("u", 60, 40, n_layers=4, dielectrics=[(0.2, 4.3), (1.0, 4.3), (0.2, 4.3)])
+    for n in (2, 3):
+        b.planes.append((n, "GND", rect(0, 0, 60, 40)))
+        b.cutouts.append((n, rect(24, 28, 36, 34)))  # the planes are pulled back round it
+    b.tracks.append((1, "SIG", [(5, 10), (55, 10)], 0.2))
+    b.vias.append(Via(5, 5, "GND"))
+    b.write(tmp_path, job_file=False)
+    (tmp_path / "u-profile.gbr").unlink()
+    (tmp_path / "Dim.gbr").write_text(
+        _outline_gerber(
+            [
+                [(0, 0), (60, 0), (60, 40), (0, 40), (0, 0)],
+                [(25, 29), (35, 29), (35, 33), (25, 33), (25, 29)],
+            ]
+        )
+    )
+    st = tmp_path / "stackup.toml"
+    st.write_text(st.read_text() + '\n[layers]\n"Dim.gbr" = "profile"\n')
+    board, _ = pipeline.read_board(tmp_path, st)
+    assert board.outline.area == pytest.approx(2400 - 40, abs=0.01)
+    assert board.outline_why == "named as the profile in the stackup file, 1 cut-out(s)"

@@ -318,7 +318,12 @@ def pick_outline(roles, bf, texts, layers, tol, notes, problems):
                     f"and is {ratio:.1f} times the copper's extent",
                 )
             )
-        return shell, name, "named as the profile in the stackup file"
+        cuts = _cutouts(shell, [loops], sample)
+        poly = shell.difference(shapely.union_all(cuts)) if cuts else shell
+        why = "named as the profile in the stackup file" + (
+            f", {len(cuts)} cut-out(s)" if cuts else ""
+        )
+        return poly, name, why
     choice = choose(looked, sample)
     if choice is not None:
         return choice.polygon, choice.file, choice.why
