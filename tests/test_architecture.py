@@ -189,3 +189,19 @@ def test_findings_are_typed_one_class_per_kind():
             detour_mm=3,
         )
     assert issubclass(KINDS["net-conflict"], Finding)
+
+
+def test_only_the_report_composes_sentences():
+    """The checks return numbers (typed findings have no message); the report says them."""
+    from returngap import report
+    from returngap.model.findings import KINDS
+    from returngap.run.pipeline import run_check
+
+    assert not any("message" in {f.name for f in dataclasses.fields(c)} for c in KINDS.values())
+    demo = PKG.parents[1] / "examples" / "demo-board"
+    result = run_check(demo, demo / "stackup.toml", workers=1)
+    assert all("message" not in f for f in result.findings)
+    rep = report.findings_report(result)
+    assert all(
+        f["message"].startswith(f["net"]) or f["kind"] == "floating-copper" for f in rep["findings"]
+    )

@@ -22,7 +22,7 @@ from returngap.analysis import severity
 from returngap.analysis.references import footprint_polygon, line_z0
 from returngap.geometry.cuts import cut_intervals, ring_edges
 from returngap.geometry.gridpath import CELLS, Lattice, lattice_way
-from returngap.model.findings import GapCrossing
+from returngap.model.findings import UNSET, GapCrossing
 from returngap.model.runner import SERIAL
 
 __all__ = [
@@ -867,25 +867,12 @@ def _gap_estimate(board, ch, ref, settings, detour, slot_len, width, ends):
     return {"est": est, "lo": lo, "hi": hi, "z0": z0, "refl": refl, "f_res": f_res, "f_low": f_low}
 
 
-def _gap_message(ch, ref, ref_net, rc, ev, gap_type, x, y, way, sides, share, e, settings):
-    detour, method, split = way
+def _side_nets(rc, split, sides):
+    """[net, net] of the copper either side of a split between two nets; UNSET otherwise."""
     ia, ib = sides
-    what = {"split": "crosses a split", "slot": "crosses a slot", "void": "crosses a void"}[
-        gap_type
-    ]
-    if ev == "graze":
-        what = f"runs beside a {gap_type}"
-    det = "no path within the plane" if detour is None else f"detour {detour:.2f} mm"
-    if method == "hull-estimate":
-        det = f"detour about {detour:.2f} mm (round the gap's hull; no clear path was proven)"
     if split and ib is not None and ia is not None and rc.island_net[ib] != rc.island_net[ia]:
-        det += f" ({rc.island_net[ia]} on one side, {rc.island_net[ib]} on the other)"
-    return (
-        f"{ch.net} on {ch.layer} {what} in {ref_net} on {ref.layer} at ({x:.2f}, {y:.2f}) mm: "
-        f"{det}, {share:.0%} of return current interrupted, about {e['est']:.1f} nH added "
-        f"({e['lo']:.1f}-{e['hi']:.1f}), ~{e['refl']:.0%} reflection at {settings.rise_ns:g} ns; "
-        f"gap resonance near {e['f_res']:.2f} GHz"
-    )
+        return [rc.island_net[ia], rc.island_net[ib]]
+    return UNSET
 
 
 def _where(line, local, hw, ch, ref, settings, ev, s0, s1):
@@ -939,8 +926,7 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
     ends = _slot_ends(rc, void, gap_type, geo)
     e = _gap_estimate(board, ch, ref, settings, detour, geo["length"], width, ends)
     x, y = float(mid.x), float(mid.y)
-    way = (detour, method, split)
-    msg = _gap_message(ch, ref, ref_net, rc, ev, gap_type, x, y, way, (ia, ib), share, e, settings)
+    side_nets = _side_nets(rc, split, (ia, ib))
     return _gap_record(
         ch,
         ref,
@@ -957,7 +943,7 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         (detour, method, path, split),
         ends,
         void.enclosed,
-        msg,
+        side_nets,
     )
 
 
@@ -977,7 +963,7 @@ def _gap_record(
     way,
     ends,
     enclosed,
-    msg,
+    side_nets,
 ):
     detour, method, path, split = way
     l_closed, l_open, open_one_end = ends
@@ -1012,5 +998,5 @@ def _gap_record(
         crossing=ev,
         detour_path_mm=[[round(a, 4), round(b, 4)] for a, b in path] if path else None,
         slot_ends_mm=[l_closed, l_open] if enclosed and gap_type == "slot" else None,
-        message=msg,
+        side_nets=side_nets,
     )

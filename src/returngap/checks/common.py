@@ -13,7 +13,7 @@ DEFAULT_PART_LOOP_NH = (
 )
 
 
-def finding(kind, severity, net, layer, x, y, message, **extra):
+def finding(kind, severity, net, layer, x, y, **extra):
     """A finding of the given kind (model/findings.py): the shared fields, then the kind's own."""
     ref = extra.get("reference_layer")
     return KINDS[kind](
@@ -23,7 +23,6 @@ def finding(kind, severity, net, layer, x, y, message, **extra):
         layer=layer,
         x_mm=float(x),
         y_mm=float(y),
-        message=message,
         **extra,
     )
 

@@ -124,13 +124,6 @@ def _run_finding(ch, net, ref, c, length, signed, at):
             / ref.share
         )
     sev = "error" if c == OFF else ("warning" if signed < ref.h_mm else "info")
-    where = "runs off" if c == OFF else "runs along"
-    msg = (
-        f"{ch.net} on {ch.layer} {where} the edge of the plane copper on {ref.layer} for "
-        f"{length:.1f} mm, {'as far as' if c == OFF else 'closest'} {abs(signed):.2f} mm "
-        f"({signed / ref.h_mm:.1f} h): about {share:.0%} of its return current on that plane lies "
-        "beyond the edge"
-    )
     return finding(
         "edge-run",
         sev,
@@ -138,7 +131,6 @@ def _run_finding(ch, net, ref, c, length, signed, at):
         ch.layer,
         at[0],
         at[1],
-        msg,
         reference_layer=ref.layer,
         reference_net=net,
         run_length_mm=length,

@@ -63,11 +63,6 @@ def _island_finding(layer, net, isl, track, refs, settings, hs):
     vias = max(2, math.ceil(rim / (lam / 20)))
     sev = "warning" if f_res <= 3 * settings.knee_GHz else "info"
     p = isl.representative_point()
-    msg = (
-        f"unconnected copper island of {isl.area:.1f} mm2 on {layer.name} within "
-        f"{hs.floating_coupling_mm:g} mm of {track.net}: patch resonance near {f_res:.2f} GHz; "
-        f"stitch it with about {vias} vias (lambda/20 at {settings.knee_GHz:g} GHz) or remove it"
-    )
     return finding(
         "floating-copper",
         sev,
@@ -75,7 +70,6 @@ def _island_finding(layer, net, isl, track, refs, settings, hs):
         layer.name,
         p.x,
         p.y,
-        msg,
         island_net=net,
         area_mm2=float(isl.area),
         island_length_mm=length,

@@ -49,11 +49,8 @@ class _Change:
             z0_ohm=self.z0,
         )
 
-    def finding(self, sev, msg, **extra):
-        return finding(KIND, sev, self.net, self.la, self.x, self.y, msg, **extra, **self.common())
-
-    def where(self):
-        return f"{self.net} changes from {self.la} to {self.lb} at ({self.x:.2f}, {self.y:.2f}) mm"
+    def finding(self, sev, **extra):
+        return finding(KIND, sev, self.net, self.la, self.x, self.y, **extra, **self.common())
 
 
 def reference_changes(board, nets, refs, settings):
@@ -147,13 +144,8 @@ def _same_net(ch, table, settings):
     lo, hi = sorted((int(ch.ra.layer[1:]), int(ch.rb.layer[1:])))
     near = table.nearest(ch.na, lo, hi, ch.x, ch.y)
     if near is None:
-        msg = (
-            f"{ch.where()}; its return must move from {ch.ra.layer} to {ch.rb.layer} ({ch.na}) "
-            "but no stitching via joins them"
-        )
         return ch.finding(
             "error",
-            msg,
             distance_mm=None,
             added_inductance_nH=None,
         )
@@ -163,14 +155,8 @@ def _same_net(ch, table, settings):
     sev = severity.by_reflection(refl, settings.reflection_budget)
     if sev == "info" and refl < settings.reflection_budget / 4:
         return None
-    msg = (
-        f"{ch.where()}; nearest {ch.na} stitching via joining {ch.ra.layer} and {ch.rb.layer} is "
-        f"{s:.2f} mm away: about {ind:.2f} nH of via-pair loop, ~{refl:.0%} reflection at "
-        f"{settings.rise_ns:g} ns"
-    )
     return ch.finding(
         sev,
-        msg,
         distance_mm=s,
         return_x_mm=float(table.x[i]),
         return_y_mm=float(table.y[i]),
@@ -185,20 +171,11 @@ def _other_nets(board, nets, ch, settings):
     """Planes of two nets: the return crosses through the nearest part bridging them."""
     parts, known = parts_bridging(board, nets, ch.na, ch.nb)
     if not parts:
-        why = (
-            "no two-terminal part bridges them"
-            if known
-            else "the data has no part information to tell"
-        )
-        msg = (
-            f"{ch.where()}; its return moves from {ch.na} on {ch.ra.layer} to {ch.nb} on "
-            f"{ch.rb.layer}: {why}"
-        )
         return ch.finding(
             "error" if known else "warning",
-            msg,
             distance_mm=None,
             added_inductance_nH=None,
+            parts_known=known,
         )
     d, ref_des, px, py = min((math.hypot(px - ch.x, py - ch.y), rd, px, py) for rd, px, py in parts)
     spread = physics.via_pair_inductance_nH(ch.h, max(d, 2.5 * ch.rv), ch.rv)
@@ -206,13 +183,8 @@ def _other_nets(board, nets, ch, settings):
     ind = spread + DEFAULT_PART_LOOP_NH
     refl = physics.series_inductance_reflection(ind, ch.z0, settings.rise_ns)
     sev = severity.by_reflection(refl, settings.reflection_budget)
-    msg = (
-        f"{ch.where()}; its return moves from {ch.na} to {ch.nb} through {ref_des}, {d:.2f} mm "
-        f"away: about {ind:.2f} nH ({lo:.2f}-{hi:.2f}), ~{refl:.0%} reflection"
-    )
     return ch.finding(
         sev,
-        msg,
         distance_mm=d,
         bridge_part=ref_des,
         return_x_mm=px,

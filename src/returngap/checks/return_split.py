@@ -27,11 +27,6 @@ def return_splits(board, gap_findings, settings, hs):
         ind_near = 2 * physics.wire_partial_inductance_nH(near, gmd)
         ind_far = 2 * physics.wire_partial_inductance_nH(far, gmd)
         dc, hf = physics.two_branch_shares(r_near, r_far, ind_near, ind_far)
-        msg = (
-            f"{f['net']} over the slot in {f['reference_net']} on {f['reference_layer']}: its "
-            f"return goes round the near end ({l_near:.1f} mm) and the far end ({l_far:.1f} mm): "
-            f"{dc:.0%} near at DC, {hf:.0%} near at high frequency"
-        )
         out.append(
             finding(
                 "return-split",
@@ -40,7 +35,6 @@ def return_splits(board, gap_findings, settings, hs):
                 f["layer"],
                 f["x_mm"],
                 f["y_mm"],
-                msg,
                 reference_layer=f["reference_layer"],
                 reference_net=f["reference_net"],
                 branch_lengths_mm=[l_near, l_far],

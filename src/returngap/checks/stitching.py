@@ -56,11 +56,6 @@ def _island_spacing(layer, net, isl, holes, i, utree, limit, eeff, settings, hs)
     gap, a, b = max(edges)
     mx, my = (pts[a] + pts[b]) / 2
     sev = "warning" if gap <= 2 * limit else "error"
-    msg = (
-        f"{net} copper on {layer.name}: neighbouring stitching vias {gap:.1f} mm apart next to "
-        f"signal tracks, more than lambda/{round(1 / hs.stitch_fraction)} = {limit:.1f} mm at "
-        f"{settings.knee_GHz:g} GHz (eps_eff {eeff:.2f})"
-    )
     return finding(
         "stitching-spacing",
         sev,
@@ -68,7 +63,6 @@ def _island_spacing(layer, net, isl, holes, i, utree, limit, eeff, settings, hs)
         layer.name,
         mx,
         my,
-        msg,
         via_spacing_mm=gap,
         spacing_limit_mm=limit,
         er_eff=eeff,

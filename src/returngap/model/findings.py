@@ -1,9 +1,9 @@
 """Findings as typed values: one dataclass per finding kind over the fields every kind shares.
 
 Checks build them; reports read them as mappings (f["net"]) or as_dict(), the JSON fields in
-order: the shared ones, the kind's own, the message last. A field the finding does not have (a
-reference change with no stitching via has no return point) is left UNSET and out of the JSON;
-None is a value ("no detour": a split).
+order: the shared ones, then the kind's own (report/messages.py adds the sentence). A field the
+finding does not have (a reference change with no stitching via has no return point) is left
+UNSET and out of the JSON; None is a value ("no detour": a split).
 """
 
 from collections.abc import Mapping
@@ -66,7 +66,6 @@ class Finding(Mapping):
     layer: str
     x_mm: float
     y_mm: float
-    message: str
     gap_type: str | None = None
     reference_layer: str | None = None
     reference_net: str | None = None
@@ -75,10 +74,9 @@ class Finding(Mapping):
         """The JSON fields, in order."""
         d = self.__dict__.get("_dict")
         if d is None:
-            own = [f.name for f in fields(self) if f.name not in _SHARED and f.name != "message"]
+            own = [f.name for f in fields(self) if f.name not in _SHARED]
             d = {k: (self.kind if k == "kind" else getattr(self, k)) for k in _SHARED}
             d.update((k, getattr(self, k)) for k in own if getattr(self, k) is not UNSET)
-            d["message"] = self.message
             self.__dict__["_dict"] = d
         return d
 
@@ -118,6 +116,7 @@ class GapCrossing(Finding):
     crossing: str  # cross | graze
     detour_path_mm: list | None
     slot_ends_mm: list | None
+    side_nets: list = _opt()  # a split between two nets' copper: [one side, the other]
 
 
 @dataclass(kw_only=True)
@@ -138,6 +137,7 @@ class ReferenceChange(Finding):
     added_inductance_range_nH: list = _opt()
     inductance_method: str = _opt()
     reflection_fraction: float = _opt()
+    parts_known: bool = _opt()  # no bridging part: does the data tell parts at all
 
 
 @dataclass(kw_only=True)
@@ -199,6 +199,7 @@ class NetConflict(Finding):
     kind: ClassVar[str] = "net-conflict"
     conflicting_nets: list
     joined_by_part: str | None
+    labels: int  # objects carrying the other label there
 
 
 KINDS = {

@@ -8,6 +8,7 @@ from importlib import resources
 
 from returngap import __version__
 from returngap.model.findings import Finding
+from returngap.report import messages
 
 __all__ = [
     "DISCLAIMER",
@@ -149,9 +150,17 @@ def sort_findings(findings):
     )
 
 
+def _said(finding, settings):
+    """A finding's fields with its sentence last (composed before any rounding)."""
+    fields = dict(finding.as_dict() if isinstance(finding, Finding) else finding)
+    fields.pop("message", None)
+    fields["message"] = messages.message(fields, settings)
+    return fields
+
+
 def findings_report(result):
     board = result.board
-    findings = sort_findings([clean(f) for f in result.findings])
+    findings = sort_findings([clean(_said(f, result.settings)) for f in result.findings])
     counts = {
         s: sum(1 for f in findings if f["severity"] == s) for s in ("error", "warning", "info")
     }

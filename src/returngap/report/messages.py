@@ -1,0 +1,137 @@
+"""The one sentence every finding carries, composed from its fields (and the run's settings): the
+checks measure, the report says it."""
+
+__all__ = ["message"]
+
+
+def message(f, settings):
+    """f: a finding's fields (model/findings.py as_dict, before rounding); settings: Settings."""
+    return _BY_KIND[f["kind"]](f, settings)
+
+
+def _gap(f, s):
+    gap_type = f["gap_type"]
+    what = {"split": "crosses a split", "slot": "crosses a slot", "void": "crosses a void"}[
+        gap_type
+    ]
+    if f["crossing"] == "graze":
+        what = f"runs beside a {gap_type}"
+    detour = f["detour_mm"]
+    det = "no path within the plane" if detour is None else f"detour {detour:.2f} mm"
+    if f["detour_method"] == "hull-estimate":
+        det = f"detour about {detour:.2f} mm (round the gap's hull; no clear path was proven)"
+    if f.get("side_nets"):
+        a, b = f["side_nets"]
+        det += f" ({a} on one side, {b} on the other)"
+    lo, hi = f["added_inductance_range_nH"]
+    return (
+        f"{f['net']} on {f['layer']} {what} in {f['reference_net']} on {f['reference_layer']} at "
+        f"({f['x_mm']:.2f}, {f['y_mm']:.2f}) mm: {det}, {f['interrupted_fraction']:.0%} of return "
+        f"current interrupted, about {f['added_inductance_nH']:.1f} nH added ({lo:.1f}-{hi:.1f}), "
+        f"~{f['reflection_fraction']:.0%} reflection at {s.rise_ns:g} ns; gap resonance near "
+        f"{f['resonance_GHz']:.2f} GHz"
+    )
+
+
+def _reference_change(f, s):
+    where = (
+        f"{f['net']} changes from {f['layer']} to {f['to_layer']} at ({f['x_mm']:.2f}, "
+        f"{f['y_mm']:.2f}) mm"
+    )
+    ra, rb, na, nb = (
+        f["reference_layer"],
+        f["other_reference_layer"],
+        f["reference_net"],
+        f["other_reference_net"],
+    )
+    if f.get("bridge_part"):
+        lo, hi = f["added_inductance_range_nH"]
+        return (
+            f"{where}; its return moves from {na} to {nb} through {f['bridge_part']}, "
+            f"{f['distance_mm']:.2f} mm away: about {f['added_inductance_nH']:.2f} nH "
+            f"({lo:.2f}-{hi:.2f}), ~{f['reflection_fraction']:.0%} reflection"
+        )
+    if f["distance_mm"] is not None:
+        return (
+            f"{where}; nearest {na} stitching via joining {ra} and {rb} is "
+            f"{f['distance_mm']:.2f} mm "
+            f"away: about {f['added_inductance_nH']:.2f} nH of via-pair loop, "
+            f"~{f['reflection_fraction']:.0%} reflection at {s.rise_ns:g} ns"
+        )
+    if na == nb:
+        return (
+            f"{where}; its return must move from {ra} to {rb} ({na}) but no stitching via joins "
+            "them"
+        )
+    why = (
+        "no two-terminal part bridges them"
+        if f["parts_known"]
+        else "the data has no part information to tell"
+    )
+    return f"{where}; its return moves from {na} on {ra} to {nb} on {rb}: {why}"
+
+
+def _edge_run(f, s):
+    off = f["severity"] == "error"  # off the plane (analysis: error), else along its edge
+    signed = f["edge_distance_mm"]
+    return (
+        f"{f['net']} on {f['layer']} {'runs off' if off else 'runs along'} the edge of the plane "
+        f"copper on {f['reference_layer']} for {f['run_length_mm']:.1f} mm, "
+        f"{'as far as' if off else 'closest'} {abs(signed):.2f} mm ({f['edge_distance_h']:.1f} h): "
+        f"about {f['beyond_edge_fraction']:.0%} of its return current on that plane lies beyond "
+        "the "
+        "edge"
+    )
+
+
+def _floating(f, s):
+    return (
+        f"unconnected copper island of {f['area_mm2']:.1f} mm2 on {f['layer']} within "
+        f"{s.floating_coupling_mm:g} mm of {f['net']}: patch resonance near "
+        f"{f['resonance_GHz']:.2f} GHz; stitch it with about {f['stitching_vias_needed']} vias "
+        f"(lambda/20 at {s.knee_GHz:g} GHz) or remove it"
+    )
+
+
+def _stitching(f, s):
+    return (
+        f"{f['net']} copper on {f['layer']}: neighbouring stitching vias "
+        f"{f['via_spacing_mm']:.1f} mm "
+        f"apart next to signal tracks, more than lambda/{round(1 / s.stitch_fraction)} = "
+        f"{f['spacing_limit_mm']:.1f} mm at {s.knee_GHz:g} GHz (eps_eff {f['er_eff']:.2f})"
+    )
+
+
+def _return_split(f, s):
+    near, far = f["branch_lengths_mm"]
+    return (
+        f"{f['net']} over the slot in {f['reference_net']} on {f['reference_layer']}: its return "
+        f"goes round the near end ({near:.1f} mm) and the far end ({far:.1f} mm): "
+        f"{f['dc_share_near']:.0%} near at DC, {f['hf_share_near']:.0%} near at high frequency"
+    )
+
+
+def _net_conflict(f, s):
+    main, other = f["conflicting_nets"]
+    if f["joined_by_part"]:
+        why = (
+            f"joined by copper at part {f['joined_by_part']}, whose own pads carry both labels (a "
+            "net tie, a jumper or a bypassed part: check that it is intended)"
+        )
+    else:
+        why = "a short in the released data, or a wrong label"
+    return (
+        f"copper of net {main} on {f['layer']} also carries the label {other} ({f['labels']} "
+        f"object(s)) at ({f['x_mm']:.2f}, {f['y_mm']:.2f}): {why}"
+    )
+
+
+_BY_KIND = {
+    "gap-crossing": _gap,
+    "reference-change": _reference_change,
+    "edge-run": _edge_run,
+    "floating-copper": _floating,
+    "stitching-spacing": _stitching,
+    "return-split": _return_split,
+    "net-conflict": _net_conflict,
+}
