@@ -57,6 +57,22 @@ def _run(ctx, fn):
         sys.exit(2)
 
 
+def _edge_rate(command):
+    """The signal's edge: --rise-time or --max-freq (check and audit alike)."""
+    command = click.option(
+        "--max-freq",
+        "max_ghz",
+        type=click.FloatRange(min=1e-4, max=1e3),
+        help="Highest frequency of interest, GHz (instead of --rise-time).",
+    )(command)
+    return click.option(
+        "--rise-time",
+        "rise_ns",
+        type=click.FloatRange(min=1e-4, max=1e3),
+        help="10-90 % rise time, ns.",
+    )(command)
+
+
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="returngap")
 @click.option("--debug", is_flag=True, help="Show a traceback on errors.")
@@ -91,18 +107,7 @@ def layers(ctx, board, stackup_file, as_json):
 @click.option(
     "--stackup", "stackup_file", type=click.Path(), help="Stackup / layer-mapping TOML file."
 )
-@click.option(
-    "--rise-time",
-    "rise_ns",
-    type=click.FloatRange(min=1e-4, max=1e3),
-    help="10-90 % rise time, ns.",
-)
-@click.option(
-    "--max-freq",
-    "max_ghz",
-    type=click.FloatRange(min=1e-4, max=1e3),
-    help="Highest frequency of interest, GHz (instead of --rise-time).",
-)
+@_edge_rate
 @click.option(
     "--nets", "net_globs", multiple=True, help="Only nets matching this glob (repeatable)."
 )
@@ -237,18 +242,7 @@ def check(
     type=click.Path(file_okay=False),
     help="Folder of <board name>.toml stackup files.",
 )
-@click.option(
-    "--rise-time",
-    "rise_ns",
-    type=click.FloatRange(min=1e-4, max=1e3),
-    help="10-90 % rise time, ns.",
-)
-@click.option(
-    "--max-freq",
-    "max_ghz",
-    type=click.FloatRange(min=1e-4, max=1e3),
-    help="Highest frequency, GHz.",
-)
+@_edge_rate
 @click.option(
     "--fail-on",
     type=click.Choice(["error", "warning", "never"]),
