@@ -358,3 +358,36 @@ def test_a_profile_the_user_names_keeps_its_cut_outs(tmp_path):
     board, _ = pipeline.read_board(tmp_path, st)
     assert board.outline.area == pytest.approx(2400 - 40, abs=0.01)
     assert board.outline_why == "named as the profile in the stackup file, 1 cut-out(s)"
+
+
+def test_thresholds_are_set_in_the_stackup_file(tmp_path):
+    """[thresholds] sets any setting by name; the command line wins; an unknown name is refused."""
+    four_layer(tmp_path)
+    st = tmp_path / "stackup.toml"
+    base = st.read_text()
+    st.write_text(base + "\n[thresholds]\nedge_distance_h = 5.0\nrise_time_ns = 2.0\n")
+    out = tmp_path / "r.json"
+    r = run("check", tmp_path, "--stackup", st, "--json", out, "--fail-on", "never")
+    assert r.exit_code == 0
+    s = json.loads(out.read_text())["settings"]
+    assert s["edge_distance_h"] == 5.0 and s["rise_time_ns"] == 2.0
+    r = run(
+        "check",
+        tmp_path,
+        "--stackup",
+        st,
+        "--json",
+        out,
+        "--fail-on",
+        "never",
+        "--rise-time",
+        "0.1",
+    )
+    assert json.loads(out.read_text())["settings"]["rise_time_ns"] == 0.1  # the command line wins
+    st.write_text(base + "\n[thresholds]\nedge_distanse_h = 5.0\n")
+    r = run("check", tmp_path, "--stackup", st)
+    assert (
+        r.exit_code == 2
+        and "stackup.toml" in r.output
+        and "unknown setting 'edge_distanse_h'" in r.output
+    )

@@ -1,9 +1,11 @@
 """The user's stackup file (TOML, our own schema; see README) -> a checked dict."""
 
+import dataclasses
 import re
 import tomllib
 
 from returngap.errors import InputError
+from returngap.model.settings import Settings
 
 __all__ = ["KNOWN_TOP", "read_toml", "load_stackup_file"]
 
@@ -16,6 +18,7 @@ KNOWN_TOP = {
     "plane_nets",
     "ground_nets",
     "power_nets",
+    "thresholds",
 }
 
 
@@ -42,6 +45,29 @@ def read_toml(path):
         raise InputError(path, f"not valid TOML ({str(e).split(' (at')[0]})", line) from None
 
 
+def _thresholds(path, table):
+    """[thresholds]: any field of model/settings.Settings by name, checked against its type."""
+    if not isinstance(table, dict):
+        raise InputError(path, "[thresholds] must be a table of setting = value")
+    fields = {f.name: f for f in dataclasses.fields(Settings)}
+    out = {}
+    for key, value in table.items():
+        if key not in fields:
+            raise InputError(path, f"[thresholds]: unknown setting {key!r}")
+        default = fields[key].default
+        if isinstance(default, bool):
+            if not isinstance(value, bool):
+                raise InputError(path, f"[thresholds] {key} must be true or false")
+            out[key] = value
+        elif isinstance(default, tuple):
+            if not isinstance(value, list) or not all(isinstance(x, str) for x in value):
+                raise InputError(path, f"[thresholds] {key} must be a list of strings")
+            out[key] = tuple(value)
+        else:
+            out[key] = _number(path, f"[thresholds] {key}", value, 0.0, 1e6)
+    return out
+
+
 def load_stackup_file(path):
     if path is None:
         return {}
@@ -49,7 +75,12 @@ def load_stackup_file(path):
     unknown = set(data) - KNOWN_TOP
     if unknown:
         raise InputError(path, f"unknown key(s): {', '.join(sorted(unknown))}")
-    out = {"path": str(path), "layers": {}, "dielectric": []}
+    out = {
+        "path": str(path),
+        "layers": {},
+        "dielectric": [],
+        "thresholds": _thresholds(path, data.get("thresholds", {})),
+    }
     for key, lo, hi in (
         ("board_thickness_mm", 0.05, 20),
         ("copper_thickness_mm", 0.001, 0.5),

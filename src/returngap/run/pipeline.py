@@ -1,5 +1,6 @@
 """One board through every stage: import -> stackup -> nets -> projection -> findings."""
 
+import dataclasses
 from dataclasses import dataclass
 
 from returngap import report
@@ -16,7 +17,7 @@ from returngap.io import config, load
 from returngap.model.settings import Settings
 from returngap.run import parallel
 
-__all__ = ["CheckResult", "read_board", "layers_report", "run_check"]
+__all__ = ["CheckResult", "read_board", "layers_report", "with_file_thresholds", "run_check"]
 
 
 @dataclass
@@ -70,12 +71,21 @@ def _area(nets, layer):
     return float(nets.layers[layer.name].island_areas().sum())
 
 
+def with_file_thresholds(settings, thresholds):
+    """The stackup file's [thresholds] on top of the defaults; a value the caller (the command
+    line) already changed from its default wins over the file."""
+    defaults = Settings()
+    given = {k: v for k, v in thresholds.items() if getattr(settings, k) == getattr(defaults, k)}
+    return dataclasses.replace(settings, **given) if given else settings
+
+
 def run_check(sources, stackup_file=None, settings=None, scratch=None, workers=0):
     """One board through every stage. workers: processes (0: both cores where the work pays,
     1: this process only)."""
     settings = settings or Settings()
     runner = parallel.Parallel(workers)
     board, cfg = read_board(sources, stackup_file, scratch, workers)
+    settings = with_file_thresholds(settings, cfg.get("thresholds", {}))
     if not settings.allow_incomplete:  # refuse before the expensive stages
         completeness.enforce(board, board.problems, False)
     nets = connectivity.build_nets(board, cfg, runner)
