@@ -391,3 +391,32 @@ def test_thresholds_are_set_in_the_stackup_file(tmp_path):
         and "stackup.toml" in r.output
         and "unknown setting 'edge_distanse_h'" in r.output
     )
+
+
+def test_a_blind_via_file_without_its_layer_pair_file_takes_its_span_from_its_pads(tmp_path):
+    """A drill file that states no span, whose holes have pads on L3 and L4 only, is no through
+    hole."""
+    b = SynthBoard("v", 60, 40, n_layers=4, dielectrics=[(0.2, 4.3), (1.0, 4.3), (0.2, 4.3)])
+    b.planes.append((2, "GND", rect(0, 0, 60, 40)))
+    b.planes.append((3, "GND", rect(0, 0, 60, 40)))
+    b.tracks.append((1, "SIG", [(10, 20), (50, 20)], 0.2))
+    b.vias.append(Via(5, 5, "GND"))
+    for layer in (3, 4):
+        b.pads.append((layer, 40, 30, 0.5, 0.5, "GND", None))
+    b.write(tmp_path, job_file=False)
+    drill = ALTIUM_DRILL.format(vias=f"X{_altium_coord(40)}Y{_altium_coord(30)}").replace(
+        "T02\nX003Y0005\n", ""
+    )
+    (tmp_path / "v.TX1").write_text(drill)
+    board = load.load_board(tmp_path)
+    d = next(x for x in board.drills if x.file == "v.TX1")
+    assert (d.from_layer, d.to_layer) == (3, 4) and d.span_source == "where its holes have pads"
+    assert any(
+        "v.TX1: no layer span stated; its holes have pads on L3-L4 only" in a
+        for a in board.assumptions
+    )
+    assert not any(
+        "v.TX1: no layer span stated; taken as a through hole" in a for a in board.assumptions
+    )
+    through = next(x for x in board.drills if x.file == "v.drl")
+    assert (through.from_layer, through.to_layer) == (1, 4)

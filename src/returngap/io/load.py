@@ -344,6 +344,10 @@ def _drills(board, roles, bf, texts, notes, problems):
     side = drillspans.side_files(bf, texts, board.copper)
     by_name = {f.name: f for f in bf.fab}
     several = len([r for r in roles.values() if r.kind == "drill"]) > 1
+    pads = [
+        shapely.STRtree(shapely.points(c.flashes[:, :2])) if len(c.flashes) else None
+        for c in board.copper
+    ]
     for name, role in roles.items():
         if role.kind == "other":
             board.other_files.append(
@@ -358,11 +362,54 @@ def _drills(board, roles, bf, texts, notes, problems):
             name, build_drill, f, d, role, n, texts[name], fmt, span, span_source
         )
         _drill_problems(name, texts[name], drill, notes, problems)
+        _check_span_against_pads(board, drill, pads, notes)
         if unknown and drill.hole_count:
             notes.append(f"{name}: plating not stated; holes assumed plated")
-        if span_source.startswith("assumed") and several:
+        if drill.span_source.startswith("assumed") and several:
             notes.append(f"{name}: no layer span stated; taken as a through hole L1-L{n}")
         board.drills.append(drill)
+
+
+PAD_SHARE = 0.5  # a layer where this share of a file's holes has a pad is in its span (our own)
+
+
+def _padded_span(pads, drill):
+    """(first, last) layer on which at least PAD_SHARE of the holes have a flashed pad centred on
+    them; None when no layer has (non-plated holes, a file without pads)."""
+    if not len(drill.holes):
+        return None
+    pts = shapely.points(drill.holes[:, :2])
+    padded = []
+    for k, tree in enumerate(pads):
+        if tree is not None:
+            hit = np.unique(tree.query(pts, predicate="dwithin", distance=0.005)[0])
+            if len(hit) >= PAD_SHARE * len(pts):
+                padded.append(k + 1)
+    return (padded[0], padded[-1]) if padded else None
+
+
+def _check_span_against_pads(board, drill, pads, notes):
+    """Where a plated file's holes have their pads tells its span: taken from there when nothing
+    states one (a blind-via file without its layer-pair file is no through hole), and a stated
+    span the pads contradict is said."""
+    if not drill.hole_plated.any():
+        return
+    seen = _padded_span(pads, drill)
+    if seen is None or seen == (drill.from_layer, drill.to_layer):
+        return
+    a, b = seen
+    if drill.span_source.startswith("assumed"):
+        drill.from_layer, drill.to_layer = a, b
+        drill.span_source = "where its holes have pads"
+        notes.append(
+            f"{drill.file}: no layer span stated; its holes have pads on L{a}-L{b} only, so "
+            f"it is taken as spanning L{a}-L{b}"
+        )
+    elif drill.from_layer < a or drill.to_layer > b:
+        notes.append(
+            f"{drill.file}: the {drill.span_source} gives L{drill.from_layer}-"
+            f"L{drill.to_layer}, but its holes have pads on L{a}-L{b} only"
+        )
 
 
 def _last_checks(board, bf, notes, problems):
