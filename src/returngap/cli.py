@@ -73,6 +73,14 @@ def _edge_rate(command):
     )(command)
 
 
+_fail_on = click.option(  # check and audit alike
+    "--fail-on",
+    type=click.Choice(["error", "warning", "never"]),
+    default="error",
+    show_default=True,
+)
+
+
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="returngap")
 @click.option("--debug", is_flag=True, help="Show a traceback on errors.")
@@ -128,12 +136,7 @@ def layers(ctx, board, stackup_file, as_json):
     show_default=True,
     help="How far (mm) a finding may move and still match the baseline.",
 )
-@click.option(
-    "--fail-on",
-    type=click.Choice(["error", "warning", "never"]),
-    default="error",
-    show_default=True,
-)
+@_fail_on
 @click.option(
     "--new-only", is_flag=True, help="With --baseline: only new findings count for --fail-on."
 )
@@ -243,12 +246,7 @@ def check(
     help="Folder of <board name>.toml stackup files.",
 )
 @_edge_rate
-@click.option(
-    "--fail-on",
-    type=click.Choice(["error", "warning", "never"]),
-    default="error",
-    show_default=True,
-)
+@_fail_on
 @click.option(
     "--time-limit",
     "time_limit_s",

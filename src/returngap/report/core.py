@@ -7,7 +7,6 @@ import math
 from importlib import resources
 
 from returngap import __version__
-from returngap.model.findings import Finding
 from returngap.report import messages
 
 __all__ = [
@@ -44,8 +43,6 @@ def clean(value):
             return None
         v = round(value, DECIMALS)
         return 0.0 if v == 0 else v
-    if isinstance(value, Finding):
-        value = value.as_dict()
     if isinstance(value, dict):
         return {k: clean(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
@@ -152,8 +149,7 @@ def sort_findings(findings):
 
 def _said(finding, settings):
     """A finding's fields with its sentence last (composed before any rounding)."""
-    fields = dict(finding.as_dict() if isinstance(finding, Finding) else finding)
-    fields.pop("message", None)
+    fields = dict(finding.as_dict())
     fields["message"] = messages.message(fields, settings)
     return fields
 
