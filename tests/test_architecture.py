@@ -97,6 +97,8 @@ def _odd(field):
         return not v
     if isinstance(v, (int, float)):
         return v * 1.5 + 0.125
+    if field.name == "net_classes":
+        return ({"name": "fast", "nets": ["DDR_*"], "rise_time_ns": 0.1, "check": True},)
     if isinstance(v, tuple):
         return ("CLK*", "DQ?")
     return 2.5  # the optional floats (max_freq_GHz)

@@ -27,14 +27,20 @@ def test_check_demo_json_validates_and_fails_on_error(tmp_path):
     assert rep["format"] == "returngap-findings" and rep["version"] == 1
     gaps = [f for f in rep["findings"] if f["kind"] == "gap-crossing"]
     kinds = {(f["net"], f["gap_type"]) for f in gaps}
-    # the four deliberate problems of examples/make_demo_board.py
+    # the deliberate problems of examples/make_demo_board.py; the SD_CMD graze of a round void
+    # bends only the edge of its return (0.00 mm detour): below the noise floor, shown with --all
     assert {
         ("SPI_SCK", "slot"),
         ("RMII_TXD0", "split"),
         ("RMII_TXD1", "split"),
         ("ADC_MCLK", "slot"),
-        ("SD_CMD", "void"),
     } <= kinds
+    assert "SD_CMD" not in {f["net"] for f in gaps}
+    everything = tmp_path / "all.json"
+    run("check", DEMO, "--stackup", DEMO / "stackup.toml", "--json", everything, "--all")
+    graze = [f for f in json.loads(everything.read_text())["findings"] if f["net"] == "SD_CMD"]
+    assert [(f["gap_type"], f["crossing"]) for f in graze] == [("void", "graze")]
+    assert graze[0]["added_inductance_nH"] < 0.1
     assert not any(f["net"].startswith("DB") or f["net"].startswith("MODEM") for f in gaps)
     # the bus changes layers through the decoupling capacitors C12 / C13 (reference changes,
     # not gaps)

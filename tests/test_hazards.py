@@ -142,8 +142,9 @@ def test_return_split_two_branches(tmp_path):
     D = 20.0
     s = 0.5
     near = (D - s / 2) / 3  # so that 2 * far + s = 2 * (2 * near + s)
-    f = kinds(slot_board(tmp_path, D=D, s=s, offset=D / 2 - near), "return-split")
-    assert len(f) == 1
+    crossing = kinds(slot_board(tmp_path, D=D, s=s, offset=D / 2 - near), "gap-crossing")
+    assert len(crossing) == 1 and crossing[0]["return_path"] == "detour"
+    f = [crossing[0]["return_split"]]  # the split is a field of its crossing, not a finding
     near, far = f[0]["branch_lengths_mm"]
     assert far / near == pytest.approx(2.0, rel=0.02)
     assert f[0]["dc_share_near"] == pytest.approx(far / (near + far), rel=1e-9)

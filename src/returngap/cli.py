@@ -154,6 +154,13 @@ def layers(ctx, board, stackup_file, as_json):
     help="Go on when the board data is incomplete, stating each problem (the run's status says "
     "so).",
 )
+@click.option(
+    "--all",
+    "show_all",
+    is_flag=True,
+    help="Also report effects below the noise floor (under 0.1 nH added, grazes without a detour).",
+)
+@click.option("--by-net", is_flag=True, help="Print a per-net summary after the findings.")
 @click.pass_context
 def check(
     ctx,
@@ -172,6 +179,8 @@ def check(
     limit,
     quiet,
     allow_incomplete,
+    show_all,
+    by_net,
 ):
     """Find where return current must detour around slots, splits and voids."""
     from returngap.model.settings import Settings
@@ -182,7 +191,7 @@ def check(
         raise click.UsageError("give --rise-time or --max-freq, not both")
     if new_only and not baseline_file:
         raise click.UsageError("--new-only needs --baseline")
-    settings = Settings(nets=tuple(net_globs), allow_incomplete=allow_incomplete)
+    settings = Settings(nets=tuple(net_globs), allow_incomplete=allow_incomplete, show_all=show_all)
     if rise_ns:
         settings.rise_time_ns = rise_ns
     if max_ghz:
@@ -202,7 +211,12 @@ def check(
         if out_dir:
             outputs.write_outputs(result, rep, out_dir, fail_on, quiet)
         if not quiet:
+            gaps = report.gaps_block(rep, limit)
+            if gaps:
+                click.echo(gaps + "\n")
             click.echo(report.findings_table(rep, limit))
+            if by_net:
+                click.echo("\n" + report.by_net_table(rep, limit))
             for w in (rep.get("waivers") or {}).get("stale", []):
                 click.echo(
                     f"stale waiver #{w['waiver']} ({w.get('by')}): matches no finding", err=True

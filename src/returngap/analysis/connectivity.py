@@ -27,6 +27,8 @@ __all__ = [
     "Nets",
     "touching",
     "FILL_OVERLAP",
+    "POUR_STROKE_HAIR_MM",
+    "POUR_MIN_MM2",
     "NetConflict",
     "classify",
     "layer_islands",
@@ -41,6 +43,8 @@ POWER_RE = re.compile(
     r"P?\d+V\d*\w*|\d+V|V\d+\w*|\d+\.\d+V\w*)$",
     re.I,
 )
+POUR_MIN_MM2 = 25.0  # an island this large is a pour, its net a supply (common practice, no source)
+POUR_STROKE_HAIR_MM = 1e-3  # a pour's outline stroke runs on its region's edge, to rounding
 PLANE_AREA_FRACTION = (
     0.20  # an island this share of the board acts as a plane (common practice, no source)
 )
@@ -229,6 +233,25 @@ def touching(tree, pieces, geoms):
 _VERTEX_COUNTS = weakref.WeakKeyDictionary()  # tree -> vertex count of each of its geometries
 
 
+def _region_islands(piece_island, tree, pieces, regions):
+    """Island of each dark region: that of the largest piece it meets (its own copper; a point on
+    the region as drawn may fall in a clear cut-out holding another net's track)."""
+    if not regions:
+        return np.zeros(0, dtype=int)
+    polys = np.array([r[0] for r in regions], dtype=object)
+    reg, piece = tree.query(polys, predicate="intersects")
+    out = _island_index(
+        piece_island,
+        tree,
+        shapely.get_coordinates(shapely.point_on_surface(polys)).reshape(-1, 2),
+    )
+    if len(reg):
+        area = shapely.area(pieces[piece])
+        order = np.lexsort((area, reg))  # by region, then area: the last of each region wins
+        out[reg[order]] = piece_island[piece[order]]
+    return out
+
+
 def _island_index(piece_island, tree, xy):
     """Island containing each point; nearest island for points that fall on no copper."""
     if len(xy) == 0:
@@ -279,6 +302,30 @@ def _fill_segments(layer, ln, seg_isl, pairs):
             isl_area = ln.island_area(int(i))
             fill_island[i] = per_island[i] > FILL_OVERLAP * isl_area and isl_area > 2.0
     return fill_island[seg_isl]
+
+
+def _pour_strokes(layer):
+    """Strokes drawn along the edge of a dark region of their layer: a pour's outline drawn round
+    its filled polygon (the older KiCad way). Pour copper, never a signal: a signal track crosses
+    a region's edge, it does not follow it (a track inside a region's clear cut-out lies away
+    from the region's own edge, so it stays a track)."""
+    s = layer.segments
+    if not len(s) or not layer.regions:
+        return np.zeros(len(s), dtype=bool)
+    edges = shapely.boundary(np.array([r[0] for r in layer.regions], dtype=object))
+    lines = shapely.linestrings(s[:, :4].reshape(-1, 2, 2))
+    seg, reg = shapely.STRtree(edges).query(
+        lines, predicate="dwithin", distance=POUR_STROKE_HAIR_MM
+    )
+    out = np.zeros(len(s), dtype=bool)
+    if not len(seg):
+        return out
+    ends = s[seg, :4].reshape(-1, 2, 2)
+    on_edge = np.ones(len(seg), dtype=bool)
+    for xy in (ends[:, 0], ends[:, 1], ends.mean(axis=1)):
+        on_edge &= shapely.distance(shapely.points(xy), edges[reg]) <= POUR_STROKE_HAIR_MM
+    out[seg[on_edge]] = True
+    return out
 
 
 @dataclass
@@ -411,10 +458,7 @@ def layer_islands(layer):
             piece_island, tree, np.column_stack([(s[:, 0] + s[:, 2]) / 2, (s[:, 1] + s[:, 3]) / 2])
         )
         fl_isl = _island_index(piece_island, tree, layer.flashes[:, :2])
-        reg_xy = shapely.get_coordinates(
-            shapely.point_on_surface(np.array([r[0] for r in layer.regions], dtype=object))
-        ).reshape(-1, 2)
-        reg_isl = _island_index(piece_island, tree, reg_xy)
+        reg_isl = _region_islands(piece_island, tree, pieces, layer.regions)
     layer.islands_found = (piece_island, seg_isl, fl_isl, reg_isl, count, pairs)
     layer.piece_tree = tree
 
@@ -445,12 +489,15 @@ def build_nets(board, user_cfg=None, runner=SERIAL):
     layers = _layer_nets(board, per_layer, node_net, tied)
     net_class = classify(sorted(set(node_net.values())), user_cfg)
     with runner.threads(size) as pool:
-        big = set().union(
-            *pool.map(
+        found = list(
+            pool.map(
                 lambda li: _pours_and_planes(board, layers, per_layer, li), range(len(board.copper))
             )
         )
+    big = set().union(*(b for b, _ in found))
+    poured = set().union(*(p for _, p in found))
     notes = _ground_and_power(layers, net_class, big, runner, size)
+    notes += _poured_nets(net_class, poured)
     plane_nets = {n for n, c in net_class.items() if c in ("ground", "power")}
     hole_net = {k: node_net[v] for k, v in hole_nodes.items()}
     for note in notes:
@@ -590,19 +637,40 @@ def _layer_nets(board, per_layer, node_net, tied):
 
 
 def _pours_and_planes(board, layers, per_layer, li):
-    """Pour segments of one layer, and the nets of its plane-sized islands (an island's area lies
-    between its largest piece's and its pieces' sum: only islands between the two are unioned)."""
+    """Pour segments of one layer; the nets of its plane-sized islands and of its poured ones."""
     layer = board.copper[li]
     ln = layers[layer.name]
     _, _, seg_isl, _, _, pairs = per_layer[layer.name]
-    ln.segment_fill = _fill_segments(layer, ln, seg_isl, pairs)
-    limit = PLANE_AREA_FRACTION * (board.outline.area or 1.0)
+    ln.segment_fill = _fill_segments(layer, ln, seg_isl, pairs) | _pour_strokes(layer)
+    return tuple(
+        _nets_with_island(ln, limit)
+        for limit in (PLANE_AREA_FRACTION * (board.outline.area or 1.0), POUR_MIN_MM2)
+    )
+
+
+def _nets_with_island(ln, limit):
+    """Nets of the islands of one layer at least `limit` mm2 large (an island's area lies between
+    its largest piece's and its pieces' sum: only islands between the two are unioned)."""
     upper, lower = ln.piece_area_bounds()
     return {
         ln.island_net[i]
         for i in np.flatnonzero(upper >= limit)
         if lower[i] >= limit or ln.island_area(int(i)) >= limit
     }
+
+
+def _poured_nets(net_class, poured):
+    """Signal-named nets with a poured island: power (a signal track never grows that large)."""
+    found = sorted(n for n in poured if net_class[n] == "signal")
+    for n in found:
+        net_class[n] = "power"
+    if not found:
+        return []
+    shown = ", ".join(found[:8]) + (f" and {len(found) - 8} more" if len(found) > 8 else "")
+    return [
+        f"{len(found)} net(s) with a poured island of {POUR_MIN_MM2:g} mm2 or more are treated as "
+        f"power, not as signals: {shown}"
+    ]
 
 
 def _ground_by_copper(layers, runner, size):

@@ -9,6 +9,7 @@ ending inside a void (its own via's antipad, or running off the plane) is left t
 the layer-change and plane-edge checks.
 """
 
+import dataclasses
 import functools
 import hashlib
 import math
@@ -16,10 +17,11 @@ from dataclasses import dataclass
 
 import numpy as np
 import shapely
+import shapely.ops
 
 from returngap import physics
 from returngap.analysis import severity
-from returngap.analysis.references import footprint_polygon, line_z0
+from returngap.analysis.references import footprint_halfwidth, footprint_polygon, line_z0
 from returngap.geometry.cuts import cut_intervals, ring_edges
 from returngap.geometry.gridpath import CELLS, Lattice, lattice_way
 from returngap.model.findings import UNSET, GapCrossing
@@ -31,6 +33,7 @@ __all__ = [
     "MAX_STATIONS",
     "EDGE_HAIR_MM",
     "WINDOW_MM",
+    "OTHER_PLANE_COVER",
     "Void",
     "ReferenceCopper",
     "interval_fraction",
@@ -48,6 +51,7 @@ EPS = 1e-6
 STEP_OFF_MM = 0.01  # how far beyond a gap's edge the detour path starts and ends
 MAX_STATIONS = 160  # transverse cuts per crossing for the interrupted share
 EDGE_HAIR_MM = 0.005  # a detour may graze a gap's edge by this much
+OTHER_PLANE_COVER = 0.9  # a stripline's other plane this much under a crossing carries its return
 WINDOW_MM = 10.0  # side of the first detour window (at least); the second is three times as wide
 
 
@@ -60,6 +64,12 @@ class Void:
     @functools.cached_property
     def rect(self):
         return self.geom.minimum_rotated_rectangle  # one per void, however many tracks cross it
+
+    @functools.cached_property
+    def filled_area(self):
+        """Its area with its holes filled: a moat round an island of other copper (a feed track
+        routed through the plane, its clearance cut round it) is a slot as long as the moat."""
+        return float(shapely.area(shapely.polygons(shapely.get_exterior_ring(self.geom))))
 
     @functools.cached_property
     def edges(self):
@@ -300,6 +310,11 @@ def _extent_across(void, mid, direction, reach):
     return max(0.0, -lo), max(0.0, hi), tuple(m + lo * u), tuple(m + hi * u)
 
 
+def _rect_sides(rect):
+    c = np.asarray(rect.exterior.coords)[:3] if rect.geom_type == "Polygon" else np.zeros((3, 2))
+    return float(np.hypot(*(c[1] - c[0]))), float(np.hypot(*(c[2] - c[1])))
+
+
 def _tangent(line, s):
     a = line.interpolate(max(0.0, s - 0.01))
     b = line.interpolate(min(line.length, s + 0.01))
@@ -312,7 +327,7 @@ def slot_geometry(void, mid, tangent, reach, aspect_limit):
     """gap length and width, the crossing's distances to the two ends, and which end is open."""
     perp = (-tangent[1], tangent[0])
     rect = void.rect
-    if void.enclosed and void.geom.area >= 0.6 * rect.area:  # slot- or hole-like: its own rectangle
+    if void.enclosed and void.filled_area >= 0.6 * rect.area:  # slot- or hole-like: its rectangle
         c = np.asarray(rect.exterior.coords)[:4]
         e1, e2 = c[1] - c[0], c[2] - c[1]
         if np.hypot(*e1) < np.hypot(*e2):
@@ -348,6 +363,7 @@ class _GapScan:
             own_holes.setdefault(net, []).append((x, y))
         self.own_hole_pts = {n: shapely.points(np.array(v)) for n, v in own_holes.items()}
         self.ref_by_layer = {(s, r.layer): r for s, rs in refs.items() for r in rs}
+        self.ref_by_layer_of = refs
         self._copper = {}
 
     def copper(self, ref_layer):
@@ -363,34 +379,66 @@ class _GapScan:
         plane net under most of the chain} (see chain_plane_nets)."""
         out = []
         for ref_layer in ch.footprints:
-            hw = ch.footprints.halfwidth(ref_layer)
+            ref_net = ref_nets[ref_layer]  # the plane net under most of the centre line
+            if ref_net is None:
+                continue
+            ref, other = self._reference(ch, ref_layer, ref_nets)
+            hw = (
+                ch.footprints.halfwidth(ref_layer)
+                if other is not None or len(ch.footprints) == 1
+                else footprint_halfwidth(ch.width_mm, ref, self.settings.current_fraction)
+            )
             rc = self.copper(ref_layer)
             near = self._near_voids(rc, ch, hw) if rc.voids else []
-            ref_net = ref_nets[ref_layer]  # the plane net under most of the centre line
-            if not len(near) or ref_net is None:
+            if not len(near):
                 continue
-            ref = self.ref_by_layer[(ch.layer, ref_layer)]
+            whole = functools.partial(self._other_whole, ch, other) if other else None
             near, local_all, along, of = _crossings(rc, ch.line, hw, near)
             for j, vi in enumerate(near):
                 void = rc.voids[int(vi)]
                 for ev, s0, s1 in _events(sorted(along[of == j].tolist()), void, ch.line, hw):
-                    f = self._finding(ch, ref, rc, void, local_all[j], hw, ev, s0, s1, ref_net)
+                    f = self._finding(
+                        ch, ref, rc, void, local_all[j], hw, ev, s0, s1, ref_net, whole
+                    )
                     if f is not None:
-                        key = (
-                            f["net"],
-                            f["layer"],
-                            f["reference_layer"],
-                            void.index,
-                            round(f["x_mm"], 1),
-                            round(f["y_mm"], 1),
-                        )
-                        out.append((key, f))
+                        key = (f["net"], f["layer"], f["reference_layer"], void.index)
+                        out.append((key + (round(f["x_mm"], 1), round(f["y_mm"], 1)), f))
         return out
 
-    def _near_voids(self, rc, ch, hw):
-        """Every void the footprint meets, but the antipad of the track's own via (that belongs
-        to its layer change)."""
-        near = rc.voids_near(ch.line, hw)
+    def _reference(self, ch, ref_layer, ref_nets):
+        """(the reference as this chain sees it, the other plane's (layer, reference) or None). A
+        stripline whose other plane has no plane copper under the chain is a microstrip over this
+        one: the whole return is here."""
+        ref = self.ref_by_layer[(ch.layer, ref_layer)]
+        if ref.other_h_mm is None:
+            return ref, None
+        other = next(r for r in self.ref_by_layer_of[ch.layer] if r.layer != ref_layer)
+        if ref_nets.get(other.layer) is None:
+            return dataclasses.replace(ref, other_h_mm=None, share=1.0), None
+        return ref, (other.layer, dataclasses.replace(other, other_h_mm=None, share=1.0))
+
+    def _other_whole(self, ch, other, s_from, s_to):
+        """True where the other plane of a stripline carries the return past this crossing: its
+        copper lies under at least OTHER_PLANE_COVER of the track's centre line there, antipad-sized
+        holes (gaps the scan itself would not report) counting as copper, as the current weaves
+        between them. Where the other plane is cut too, its own crossing is reported there."""
+        rc = self.copper(other[0])
+        s_from, s_to = max(0.0, s_from), min(ch.line.length, s_to)
+        n = int(min(200, max(5, (s_to - s_from) / 0.1)))
+        pts = shapely.points(coords_along(ch.line, np.linspace(s_from, s_to, n)))
+        pt, k = rc.void_tree.query(pts, predicate="intersects")
+        if not len(pt):
+            return True
+        limit = self.settings.min_gap_length_mm
+        big = np.array(
+            [not rc.voids[j].enclosed or max(_rect_sides(rc.voids[j].rect)) >= limit for j in k]
+        )
+        return len(np.unique(pt[big])) <= (1.0 - OTHER_PLANE_COVER) * n
+
+    def _near_voids(self, rc, ch, hw, line=None):
+        """Every void the footprint meets (of the whole track, or of a piece of it), but the antipad
+        of the track's own via (that belongs to its layer change)."""
+        near = rc.voids_near(ch.line if line is None else line, hw)
         own = self.own_hole_pts.get(ch.net)
         if own is None:
             return near
@@ -400,7 +448,7 @@ class _GapScan:
             if not (rc.voids[k].enclosed and shapely.intersects(rc.void_geoms[k], own).any())
         ]
 
-    def _finding(self, ch, ref, rc, void, local, hw, ev, s0, s1, ref_net):
+    def _finding(self, ch, ref, rc, void, local, hw, ev, s0, s1, ref_net, whole):
         args = (
             ch,
             ref,
@@ -415,6 +463,7 @@ class _GapScan:
             self.reach,
             self.settings,
             ref_net,
+            whole,
         )
         try:
             return _finding(self.board, *args)
@@ -861,10 +910,37 @@ def _gap_estimate(board, ch, ref, settings, detour, slot_len, width, ends):
     est = math.sqrt(l_hsdd * l_stub) if len(vals) == 2 else (vals[0] if vals else 0.0)
     lo, hi = (min(vals), max(vals)) if vals else (0.0, 0.0)
     z0 = line_z0(board, ch.layer, ch.width_mm, ref)
-    refl = physics.series_inductance_reflection(est, z0, settings.rise_ns)
+    refl = physics.series_inductance_reflection(est, z0, settings.rise_ns_for(ch.net))
     f_res = physics.slot_resonance_GHz(slot_len, ref.plane_er_eff, open_at_one_end=open_one_end)
     f_low = physics.slot_resonance_GHz(slot_len, ref.plane_er_full, open_at_one_end=open_one_end)
-    return {"est": est, "lo": lo, "hi": hi, "z0": z0, "refl": refl, "f_res": f_res, "f_low": f_low}
+    return {
+        "est": est,
+        "lo": lo,
+        "hi": hi,
+        "z0": z0,
+        "refl": refl,
+        "f_res": f_res,
+        "f_low": f_low,
+        "method": "geometric mean of hsdd-slot-formula and slotline-stub-model",
+        "return_plane": ref.layer,
+    }
+
+
+def _one_plane_estimate(board, ch, ref, settings, over_mm, e):
+    """The other plane of the stripline is whole under the crossing: the return moves there for
+    the crossed length, a local rise of the line's inductance, not a loop round the gap."""
+    t = board.stackup.copper_thickness_mm.get(ch.layer, 0.035)
+    est = physics.one_plane_missing_inductance_nH(ch.width_mm, ref.h_mm, ref.other_h_mm, t, over_mm)
+    refl = physics.series_inductance_reflection(est, e["z0"], settings.rise_ns_for(ch.net))
+    return {
+        **e,
+        "est": est,
+        "lo": est,
+        "hi": est,
+        "refl": refl,
+        "method": "one plane missing: stripline to microstrip over the other plane",
+        "return_plane": "other",
+    }
 
 
 def _side_nets(rc, split, sides):
@@ -896,7 +972,9 @@ def _sides(line, local, rc, ev, s0, s1, d):
     return pa, pb, rc.island_at(pa), rc.island_at(pb)
 
 
-def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, settings, ref_net):
+def _finding(
+    board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, settings, ref_net, whole=None
+):
     """The gap-crossing finding of one track over one gap (a crossing or a graze), or None when it
     is below the reporting thresholds."""
     where = _where(line, local, hw, ch, ref, settings, ev, s0, s1)
@@ -925,6 +1003,9 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
     )
     ends = _slot_ends(rc, void, gap_type, geo)
     e = _gap_estimate(board, ch, ref, settings, detour, geo["length"], width, ends)
+    if whole is not None and whole(span[0], span[1]):
+        over = (s1 - s0) if ev == "cross" else (span[1] - span[0]) * min(1.0, share)
+        e = _one_plane_estimate(board, ch, ref, settings, over, e)
     x, y = float(mid.x), float(mid.y)
     side_nets = _side_nets(rc, split, (ia, ib))
     return _gap_record(
@@ -944,7 +1025,16 @@ def _finding(board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, setti
         ends,
         void.enclosed,
         side_nets,
+        void.geom.bounds,
     )
+
+
+def _severity(ch, e, share, settings):
+    """The ladder's word on one crossing: its reflection times the share it interrupts; its
+    resonance counts only where the return goes round the gap (not through the other plane)."""
+    resonance = e["f_low"] if e["return_plane"] != "other" else None
+    knee = settings.knee_GHz_for(ch.net)
+    return severity.gap_crossing(e["refl"] * min(1.0, share), resonance, knee, settings)
 
 
 def _gap_record(
@@ -964,13 +1054,14 @@ def _gap_record(
     ends,
     enclosed,
     side_nets,
+    gap_bounds,
 ):
     detour, method, path, split = way
     l_closed, l_open, open_one_end = ends
     return GapCrossing(
         id=stable_id("gap-crossing", ch.layer, ref.layer, ch.net, f"{x:.1f}", f"{y:.1f}", gap_type),
         gap_type=gap_type,
-        severity=severity.gap_crossing(split, e["refl"], e["f_low"], settings),
+        severity=_severity(ch, e, share, settings),
         net=ch.net,
         layer=ch.layer,
         reference_layer=ref.layer,
@@ -984,7 +1075,13 @@ def _gap_record(
         interrupted_fraction=min(1.0, share),
         added_inductance_nH=e["est"],
         added_inductance_range_nH=[e["lo"], e["hi"]],
-        inductance_method="geometric mean of hsdd-slot-formula and slotline-stub-model",
+        inductance_method=e["method"],
+        return_path="other plane"
+        if e["return_plane"] == "other"
+        else ("split" if split else "detour"),
+        rise_time_ns=settings.rise_ns_for(ch.net),
+        gap_id=stable_id("gap", ref.layer, *(f"{v:.2f}" for v in gap_bounds)),
+        gap_enclosed=enclosed,
         resonance_GHz=e["f_res"],
         resonance_range_GHz=sorted([e["f_low"], e["f_res"]]),
         resonance_er_eff=ref.plane_er_eff,

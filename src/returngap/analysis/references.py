@@ -7,6 +7,7 @@ return footprint is its width plus the half-width holding the chosen share of th
 return current (REFERENCE: 1/(1+(x/h)^2) for microstrip, the two-plate law for stripline)."""
 
 import fnmatch
+import math
 from collections import defaultdict
 from collections.abc import Mapping
 from dataclasses import dataclass
@@ -24,6 +25,7 @@ __all__ = [
     "Footprints",
     "Chain",
     "plane_layers",
+    "solid_planes",
     "find_references",
     "line_z0",
     "footprint_halfwidth",
@@ -131,16 +133,51 @@ def _er_around(stackup, layer_name, n_layers):
     return sum(ers) / len(ers) if ers else 4.3
 
 
+def solid_planes(board, nets, planes, settings):
+    """Plane layers with next to no signal tracks of their own: solid planes. The others are pours
+    on signal layers, whose openings are their own layer's tracks."""
+    limit = settings.solid_plane_track_factor * np.sqrt(board.outline.area or 1.0)
+    out = set()
+    for layer in board.copper:
+        if not planes[layer.name]:
+            continue
+        ln, seg = nets.layers[layer.name], layer.segments
+        if len(seg):
+            fill = ln.segment_fill if ln.segment_fill is not None else np.zeros(len(seg), bool)
+            sig = np.fromiter((nets.is_signal(n) for n in ln.segment_net), bool, len(seg))
+            length = np.hypot(*(seg[:, 2:4] - seg[:, 0:2]).T)[sig & ~fill].sum()
+        else:
+            length = 0.0
+        if length <= limit:
+            out.add(layer.name)
+    return out
+
+
+def _nearest_planes(names, i, planes, solid, st):
+    """The plane layers a layer's tracks return in: the nearest plane each way, but a pour only
+    where it is nearer than every solid plane round the layer (a solid plane nearer carries the
+    return; the pour's openings round its own tracks are no gaps to the track)."""
+    name = names[i]
+    ways = (range(i - 1, -1, -1), range(i + 1, len(names)))
+    nearest = [next((names[j] for j in way if planes[names[j]]), None) for way in ways]
+    solid_h = [st.height_mm(name, names[j]) for way in ways for j in way if names[j] in solid]
+    closest_solid = min(solid_h, default=math.inf)
+    return [
+        r
+        for r in nearest
+        if r is not None and (r in solid or st.height_mm(name, r) < closest_solid)
+    ]
+
+
 def find_references(board, nets, settings):
-    """For each copper layer: the plane(s) its tracks return in."""
+    """For each copper layer: the plane(s) its tracks return in, and which layers carry a plane."""
     planes = plane_layers(board, nets, settings)
+    solid = solid_planes(board, nets, planes, settings)
     names = [c.name for c in board.copper]
     st = board.stackup
     out = {}
     for i, name in enumerate(names):
-        above = next((names[j] for j in range(i - 1, -1, -1) if planes[names[j]]), None)
-        below = next((names[j] for j in range(i + 1, len(names)) if planes[names[j]]), None)
-        found = [r for r in (above, below) if r is not None]
+        found = _nearest_planes(names, i, planes, solid, st)
         refs = []
         for r in found:
             h = st.height_mm(name, r)
@@ -182,7 +219,12 @@ def footprint_halfwidth(width_mm, ref, fraction):
 
 
 def wanted(net, settings):
-    return not settings.nets or any(fnmatch.fnmatchcase(net, g) for g in settings.nets)
+    """A net the run checks: its class does not say check = false, and it matches --nets (any
+    case) when that is given."""
+    if not settings.checks_net(net):
+        return False
+    low = net.lower()
+    return not settings.nets or any(fnmatch.fnmatchcase(low, g.lower()) for g in settings.nets)
 
 
 def chains(board, nets, refs, settings):

@@ -2,13 +2,16 @@
 or off it at a track end (CVEL asks the trace to stay at least 1 h from the edge; REFERENCE 7.2).
 A track crossing a gap between plane islands is a gap crossing, not an edge run."""
 
+import dataclasses
 from collections import defaultdict
 
 import numpy as np
 import shapely
 
 from returngap import physics
+from returngap.analysis import severity
 from returngap.analysis.gaps import coords_along_lines
+from returngap.analysis.references import line_z0
 from returngap.checks.common import finding
 from returngap.geometry.shapes import disjoint_union
 
@@ -30,7 +33,7 @@ def edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of):
             sampled.update(_sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges))
     findings = []
     for ci in sorted(sampled):
-        findings += _runs(chains[ci], *sampled[ci], hs)
+        findings += _runs(board, chains[ci], *sampled[ci], hs)
     return findings
 
 
@@ -96,7 +99,7 @@ def _measure(xy, look, outer, edge_tree, limit):
     return inside, d
 
 
-def _runs(ch, net, ref, limit, s, pts, inside, d, hs):
+def _runs(board, ch, net, ref, limit, s, pts, inside, d, hs):
     """The edge-run findings of one track from its samples."""
     n = len(s)
     cls = np.where(~inside, OFF, np.where(d < limit, NEAR, 0))
@@ -111,11 +114,11 @@ def _runs(ch, net, ref, limit, s, pts, inside, d, hs):
             continue
         k = a + int(np.argmin(d[a:b])) if c == NEAR else (b - 1 if a == 0 else a)
         signed = float(d[k]) if c == NEAR else -float(np.max(d[a:b]))
-        out.append(_run_finding(ch, net, ref, c, length, signed, pts[k]))
+        out.append(_run_finding(board, ch, net, ref, c, length, signed, pts[k], hs))
     return out
 
 
-def _run_finding(ch, net, ref, c, length, signed, at):
+def _run_finding(board, ch, net, ref, c, length, signed, at, settings):
     if ref.other_h_mm is None:
         share = physics.microstrip_fraction_beyond_edge(signed, ref.h_mm)
     else:
@@ -123,10 +126,13 @@ def _run_finding(ch, net, ref, c, length, signed, at):
             physics.stripline_fraction_between(signed, 1e3 * ref.h_mm, ref.h_mm, ref.other_h_mm)
             / ref.share
         )
-    sev = "error" if c == OFF else ("warning" if signed < ref.h_mm else "info")
+    z0 = line_z0(board, ch.layer, ch.width_mm, ref)
+    added = _added_inductance_nH(board, ch, ref, c, length, signed)
+    rise = settings.rise_ns_for(ch.net)
+    refl = physics.series_inductance_reflection(added, z0, rise)
     return finding(
         "edge-run",
-        sev,
+        severity.by_effect(refl, settings.reflection_budget),
         ch.net,
         ch.layer,
         at[0],
@@ -138,7 +144,31 @@ def _run_finding(ch, net, ref, c, length, signed, at):
         edge_distance_h=signed / ref.h_mm,
         beyond_edge_fraction=float(min(1.0, share)),
         height_mm=ref.h_mm,
+        off_plane=bool(c == OFF),
+        added_inductance_nH=added,
+        inductance_method=(
+            "off the plane: edge rise plus the return receding to the edge (image estimate)"
+            if c == OFF
+            else "L' rise near a plane edge (2-D solve, reference sheet section 12)"
+        ),
+        reflection_fraction=refl,
+        z0_ohm=z0,
+        rise_time_ns=rise,
     )
+
+
+def _added_inductance_nH(board, ch, ref, c, length, signed):
+    """The run's added series inductance: the rise of the line's L' near (or beyond) the plane's
+    edge over the run's length; a stripline's other plane carries its own share unchanged."""
+    alone = ref if ref.other_h_mm is None else dataclasses.replace(ref, other_h_mm=None)
+    t = board.stackup.copper_thickness_mm.get(ch.layer, 0.035)
+    z_air, e_air = physics.microstrip_z0_eeff(ch.width_mm, ref.h_mm, 1.0, t)
+    l_line = physics.line_inductance_nH_per_mm(z_air, e_air)
+    if c == OFF:
+        per_mm = physics.off_plane_inductance_nH_per_mm(alone.h_mm, -signed, l_line)
+    else:
+        per_mm = physics.plane_edge_inductance_rise(signed / ref.h_mm) * l_line
+    return per_mm * length * ref.share
 
 
 def _segment_tree(lines):

@@ -151,7 +151,7 @@ def _same_net(ch, table, settings):
         )
     s, i = near
     ind = physics.via_pair_inductance_nH(ch.h, s, ch.rv)
-    refl = physics.series_inductance_reflection(ind, ch.z0, settings.rise_ns)
+    refl = physics.series_inductance_reflection(ind, ch.z0, settings.rise_ns_for(ch.net))
     sev = severity.by_reflection(refl, settings.reflection_budget)
     if sev == "info" and refl < settings.reflection_budget / 4:
         return None
@@ -171,8 +171,10 @@ def _other_nets(board, nets, ch, settings):
     """Planes of two nets: the return crosses through the nearest part bridging them."""
     parts, known = parts_bridging(board, nets, ch.na, ch.nb)
     if not parts:
+        # no part in the data bridges the two nets: with parts known that is a missing bridge (an
+        # error); without part data there is nothing to estimate, said once in the report
         return ch.finding(
-            "error" if known else "warning",
+            "error" if known else "info",
             distance_mm=None,
             added_inductance_nH=None,
             parts_known=known,
@@ -181,7 +183,7 @@ def _other_nets(board, nets, ch, settings):
     spread = physics.via_pair_inductance_nH(ch.h, max(d, 2.5 * ch.rv), ch.rv)
     lo, hi = spread + 0.5, spread + 1.5
     ind = spread + DEFAULT_PART_LOOP_NH
-    refl = physics.series_inductance_reflection(ind, ch.z0, settings.rise_ns)
+    refl = physics.series_inductance_reflection(ind, ch.z0, settings.rise_ns_for(ch.net))
     sev = severity.by_reflection(refl, settings.reflection_budget)
     return ch.finding(
         sev,

@@ -17,6 +17,7 @@ from shapely import affinity
 
 __all__ = [
     "DEFAULT_CHORD_TOL_MM",
+    "near_clusters",
     "chord_count",
     "quad_segs_for",
     "arc_points",
@@ -274,3 +275,23 @@ def place_all(bases, xy):
         np.asarray(xy, dtype=float).reshape(-1, 2), shapely.get_num_coordinates(geoms), axis=0
     )
     return list(shapely.transform(geoms, lambda c: c + off))
+
+
+def near_clusters(xy, reach):
+    """Single-linkage clusters of points within `reach` of each other: per point, the smallest
+    position in its cluster (a label)."""
+    pts = shapely.points(np.asarray(xy, dtype=float).reshape(-1, 2))
+    a, b = shapely.STRtree(pts).query(pts, predicate="dwithin", distance=reach)
+    parent = np.arange(len(pts))
+
+    def root(i):
+        while parent[i] != i:
+            parent[i] = parent[parent[i]]
+            i = parent[i]
+        return i
+
+    for i, j in zip(a.tolist(), b.tolist()):
+        ri, rj = root(i), root(j)
+        if ri != rj:
+            parent[max(ri, rj)] = min(ri, rj)
+    return np.array([root(i) for i in range(len(pts))], dtype=int)

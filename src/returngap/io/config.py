@@ -19,7 +19,9 @@ KNOWN_TOP = {
     "ground_nets",
     "power_nets",
     "thresholds",
+    "net_class",
 }
+NET_CLASS_KEYS = {"name", "nets", "rise_time_ns", "max_freq_GHz", "check"}
 
 
 def _number(path, where, value, low, high):
@@ -52,7 +54,7 @@ def _thresholds(path, table):
     fields = {f.name: f for f in dataclasses.fields(Settings)}
     out = {}
     for key, value in table.items():
-        if key not in fields:
+        if key not in fields or key == "net_classes":
             raise InputError(path, f"[thresholds]: unknown setting {key!r}")
         default = fields[key].default
         if isinstance(default, bool):
@@ -68,6 +70,37 @@ def _thresholds(path, table):
     return out
 
 
+def _net_classes(path, tables):
+    """[[net_class]]: nets (globs, any case), an edge rate (rise_time_ns or max_freq_GHz) and
+    check = false for nets not worth checking; the first class a net matches is its class."""
+    if not isinstance(tables, list):
+        raise InputError(path, "net_class must be an array of tables ([[net_class]])")
+    out = []
+    for i, t in enumerate(tables):
+        where = f"net_class #{i + 1}"
+        if not isinstance(t, dict):
+            raise InputError(path, f"{where} must be a table")
+        unknown = set(t) - NET_CLASS_KEYS
+        if unknown:
+            raise InputError(path, f"{where}: unknown key(s) {', '.join(sorted(unknown))}")
+        nets = t.get("nets")
+        if not isinstance(nets, list) or not nets or not all(isinstance(x, str) for x in nets):
+            raise InputError(path, f'{where} needs nets = ["glob", ...]')
+        if "rise_time_ns" in t and "max_freq_GHz" in t:
+            raise InputError(path, f"{where}: give rise_time_ns or max_freq_GHz, not both")
+        c = {"name": str(t.get("name", f"class {i + 1}")), "nets": list(nets)}
+        if "rise_time_ns" in t:
+            c["rise_time_ns"] = _number(path, f"{where} rise_time_ns", t["rise_time_ns"], 1e-4, 1e3)
+        if "max_freq_GHz" in t:
+            c["max_freq_GHz"] = _number(path, f"{where} max_freq_GHz", t["max_freq_GHz"], 1e-4, 1e3)
+        if "check" in t:
+            if not isinstance(t["check"], bool):
+                raise InputError(path, f"{where} check must be true or false")
+            c["check"] = t["check"]
+        out.append(c)
+    return tuple(out)
+
+
 def load_stackup_file(path):
     if path is None:
         return {}
@@ -81,6 +114,8 @@ def load_stackup_file(path):
         "dielectric": [],
         "thresholds": _thresholds(path, data.get("thresholds", {})),
     }
+    if "net_class" in data:
+        out["thresholds"]["net_classes"] = _net_classes(path, data["net_class"])
     for key, lo, hi in (
         ("board_thickness_mm", 0.05, 20),
         ("copper_thickness_mm", 0.001, 0.5),

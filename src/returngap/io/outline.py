@@ -107,21 +107,7 @@ def _weld(strokes):
     ends = np.array([p for s in strokes for p in (s[0], s[-1])], dtype=float)
     if not len(ends):
         return strokes
-    tree = shapely.STRtree(shapely.points(ends))
-    a, b = tree.query(shapely.points(ends), predicate="dwithin", distance=WELD_MM)
-    parent = np.arange(len(ends))
-
-    def root(i):
-        while parent[i] != i:
-            parent[i] = parent[parent[i]]
-            i = parent[i]
-        return i
-
-    for i, j in zip(a.tolist(), b.tolist()):
-        ri, rj = root(i), root(j)
-        if ri != rj:
-            parent[max(ri, rj)] = min(ri, rj)
-    roots = np.array([root(i) for i in range(len(ends))])
+    roots = shapes.near_clusters(ends, WELD_MM)
     sums = np.zeros((len(ends), 2))
     np.add.at(sums, roots, ends)
     mean = sums / np.maximum(np.bincount(roots, minlength=len(ends)), 1)[:, None]

@@ -18,7 +18,6 @@ __all__ = [
     "EdgeRun",
     "FloatingCopper",
     "StitchingSpacing",
-    "ReturnSplit",
     "NetConflict",
     "KINDS",
 ]
@@ -116,7 +115,14 @@ class GapCrossing(Finding):
     crossing: str  # cross | graze
     detour_path_mm: list | None
     slot_ends_mm: list | None
+    return_path: str  # detour | other plane | split
+    rise_time_ns: float  # the net's edge rate the numbers are for
+    gap_enclosed: bool  # the plane closes round the gap (else it opens to the plane's edge)
+    gap_id: str = ""  # one id per gap: the crossings of one slot share it (analysis/grouping.py)
     side_nets: list = _opt()  # a split between two nets' copper: [one side, the other]
+    # a closed slot: the share of the return round each end (checks/return_split.py)
+    return_split: dict = _opt()
+    merged: int = _opt()  # near-duplicate crossings folded into this one
 
 
 @dataclass(kw_only=True)
@@ -150,6 +156,12 @@ class EdgeRun(Finding):
     edge_distance_h: float
     beyond_edge_fraction: float
     height_mm: float
+    off_plane: bool  # the run leaves the plane at a track end (else it runs near its edge)
+    added_inductance_nH: float
+    inductance_method: str
+    reflection_fraction: float
+    z0_ohm: float
+    rise_time_ns: float
 
 
 @dataclass(kw_only=True)
@@ -180,19 +192,6 @@ class StitchingSpacing(Finding):
 
 
 @dataclass(kw_only=True)
-class ReturnSplit(Finding):
-    """The share of the return going round each end of a closed slot, at DC and high frequency."""
-
-    kind: ClassVar[str] = "return-split"
-    branch_lengths_mm: list
-    dc_share_near: float
-    hf_share_near: float
-    branch_resistance_ohm: list
-    branch_inductance_nH: list
-    gap_finding: str
-
-
-@dataclass(kw_only=True)
 class NetConflict(Finding):
     """Copper that carries two nets' labels."""
 
@@ -210,7 +209,6 @@ KINDS = {
         EdgeRun,
         FloatingCopper,
         StitchingSpacing,
-        ReturnSplit,
         NetConflict,
     )
 }

@@ -32,9 +32,12 @@ __all__ = [
     "knee_frequency_GHz",
     "rise_time_for_knee_ns",
     "series_inductance_reflection",
+    "one_plane_missing_inductance_nH",
     "wavelength_mm",
     "via_pair_inductance_nH",
     "microstrip_fraction_beyond_edge",
+    "plane_edge_inductance_rise",
+    "off_plane_inductance_nH_per_mm",
     "patch_resonance_GHz",
     "two_branch_shares",
     "copper_resistance_ohm",
@@ -276,9 +279,30 @@ def rise_time_for_knee_ns(freq_GHz):
 
 
 def series_inductance_reflection(inductance_nH, z0_ohm, rise_time_ns):
-    """Reflected fraction of a step from a series inductance: L / (2*Z0*T_r), valid while
-    L/(2 Z0) << T_r (derived; Bogatin, Signal and Power Integrity - Simplified, from memory)."""
-    return inductance_nH / (2.0 * max(z0_ohm, 1e-3) * rise_time_ns)
+    """Peak reflected fraction of a linear ramp (rise time T_r) at a series inductance between two
+    matched lines: (tau/T_r) * (1 - exp(-T_r/tau)), tau = L/(2*Z0) (derived: the first-order
+    response of the series L to the ramp, largest at its end; its small-L limit is the familiar
+    L/(2*Z0*T_r), Bogatin, Signal and Power Integrity - Simplified, from memory). Below 1 by
+    construction."""
+    tau = inductance_nH / (2.0 * max(z0_ohm, 1e-3))
+    if tau <= 0:
+        return 0.0
+    x = rise_time_ns / tau
+    return float(-math.expm1(-x) / x)
+
+
+def one_plane_missing_inductance_nH(width_mm, h_cut_mm, h_kept_mm, t_mm, length_mm):
+    """Series inductance added where one plane of a stripline is cut under the track and the other
+    is whole: over that length the track is a microstrip over the whole plane (under a dielectric
+    cover, which changes its capacitance, not its inductance), so the added inductance is
+    (L'_microstrip(h_kept) - L'_stripline(h_cut + h_kept)) * length, each L' = Z0*sqrt(eeff)/c
+    taken in air. Hammerstad & Jensen 1980 (microstrip), Cohn 1954 (centred stripline); derived."""
+    if length_mm <= 0:
+        return 0.0
+    z_ms, e_ms = microstrip_z0_eeff(width_mm, h_kept_mm, 1.0, t_mm)
+    l_ms = line_inductance_nH_per_mm(z_ms, e_ms)
+    l_sl = line_inductance_nH_per_mm(stripline_z0(width_mm, h_cut_mm + h_kept_mm, 1.0), 1.0)
+    return max(0.0, l_ms - l_sl) * length_mm
 
 
 def wavelength_mm(freq_GHz, eeff):
@@ -303,6 +327,37 @@ def microstrip_fraction_beyond_edge(distance_mm, h_mm):
     at this distance from the trace centre: 1/2 - atan(d/h)/pi (derived from the 1/(1+(x/h)^2) law;
     first-order only, the true half-plane current crowds at the edge)."""
     return 0.5 - math.atan2(distance_mm, h_mm) / math.pi
+
+
+# L' rise of a microstrip near its plane's edge against the distance in heights: 2-D field solve of
+# the reference sheet (section 12; an independent numerical solve, not a published source)
+_EDGE_RISE_D_H = (1.0, 3.0, 5.0)
+_EDGE_RISE = (0.062, 0.008, 0.0026)
+
+
+def plane_edge_inductance_rise(distance_h):
+    """Relative rise of a microstrip's L' with the plane's edge `distance_h` heights from the
+    track (positive: the plane runs on beyond the track). Log-linear between the solved points,
+    extrapolated from the first two below one height (to about 17 % with the edge under the
+    track); zero beyond 8 heights."""
+    d = float(distance_h)
+    if d >= 8.0:
+        return 0.0
+    x, y = _EDGE_RISE_D_H, np.log(_EDGE_RISE)
+    if d <= x[1]:
+        slope = (y[1] - y[0]) / (x[1] - x[0])
+        return float(np.exp(y[0] + slope * (max(d, 0.0) - x[0])))
+    return float(np.exp(np.interp(d, x, y)))
+
+
+def off_plane_inductance_nH_per_mm(h_mm, beyond_mm, l_line_nH_per_mm):
+    """L' added where a track runs beyond its plane's edge by `beyond_mm`: the rise with the edge
+    under the track, plus the return moving from under the track to the edge, as for a wire over
+    a plane whose image recedes from h to sqrt(h^2 + e^2): (mu0/2pi) ln(sqrt(h^2 + e^2)/h)
+    (derived from the image method; an estimate)."""
+    e = max(0.0, beyond_mm)
+    far = MU0_NH_PER_MM / (2 * math.pi) * math.log(math.hypot(h_mm, e) / h_mm)
+    return plane_edge_inductance_rise(0.0) * l_line_nH_per_mm + far
 
 
 def patch_resonance_GHz(length_mm, width_mm, h_mm, er, tied_at_one_end=False):

@@ -18,6 +18,8 @@ __all__ = [
     "board_summary",
     "layers_report",
     "sort_findings",
+    "gap_groups",
+    "net_summary",
     "findings_report",
     "to_json",
     "schema",
@@ -192,8 +194,72 @@ def findings_report(result):
             "tracks_checked": len(result.chains),
         },
         "nets_checked": sorted({c.net for c in result.chains}),
+        "gaps": gap_groups(findings),
+        "by_net": net_summary(findings),
         "findings": findings,
     }
+
+
+def gap_groups(findings):
+    """One record per gap (its crossings share a gap_id): where, how large, which nets cross it
+    and each one's numbers, worst first."""
+    groups = {}
+    for f in findings:
+        if f["kind"] == "gap-crossing":
+            groups.setdefault(f["gap_id"], []).append(f)
+    out = []
+    for gid, fs in groups.items():
+        worst = max(fs, key=lambda f: (-SEVERITY_ORDER[f["severity"]], f["added_inductance_nH"]))
+        out.append(
+            {
+                "gap_id": gid,
+                "gap_type": worst["gap_type"],
+                "severity": worst["severity"],
+                "reference_layer": worst["reference_layer"],
+                "reference_net": worst["reference_net"],
+                "x_mm": worst["x_mm"],
+                "y_mm": worst["y_mm"],
+                "gap_length_mm": worst["gap_length_mm"],
+                "gap_width_mm": worst["gap_width_mm"],
+                "worst_added_inductance_nH": worst["added_inductance_nH"],
+                "nets": sorted({f["net"] for f in fs}),
+                "crossings": [
+                    {
+                        k: f[k]
+                        for k in (
+                            "id",
+                            "net",
+                            "layer",
+                            "severity",
+                            "added_inductance_nH",
+                            "reflection_fraction",
+                            "return_path",
+                        )
+                    }
+                    for f in fs
+                ],
+            }
+        )
+    out.sort(key=lambda g: (SEVERITY_ORDER[g["severity"]], -g["worst_added_inductance_nH"]))
+    return out
+
+
+def net_summary(findings):
+    """Per net: how many findings of each severity, the kinds, the worst added inductance."""
+    out = {}
+    for f in findings:
+        n = out.setdefault(
+            f["net"],
+            {"findings": 0, "error": 0, "warning": 0, "info": 0, "kinds": [], "worst_nH": None},
+        )
+        n["findings"] += 1
+        n[f["severity"]] += 1
+        if f["kind"] not in n["kinds"]:
+            n["kinds"].append(f["kind"])
+        added = f.get("added_inductance_nH")
+        if added is not None and (n["worst_nH"] is None or added > n["worst_nH"]):
+            n["worst_nH"] = added
+    return dict(sorted(out.items(), key=lambda kv: (-kv[1]["error"], -kv[1]["warning"], kv[0])))
 
 
 def to_json(data):

@@ -23,14 +23,31 @@ def _gap(f, s):
     if f.get("side_nets"):
         a, b = f["side_nets"]
         det += f" ({a} on one side, {b} on the other)"
+    if f["return_path"] == "other plane":
+        det = (
+            "the other plane is whole under the track, so the return moves there for the "
+            f"crossing ({det} in this plane is not taken)"
+        )
     lo, hi = f["added_inductance_range_nH"]
-    return (
+    rng = f" ({lo:.1f}-{hi:.1f})" if hi - lo > 0.05 else ""
+    text = (
         f"{f['net']} on {f['layer']} {what} in {f['reference_net']} on {f['reference_layer']} at "
         f"({f['x_mm']:.2f}, {f['y_mm']:.2f}) mm: {det}, {f['interrupted_fraction']:.0%} of return "
-        f"current interrupted, about {f['added_inductance_nH']:.1f} nH added ({lo:.1f}-{hi:.1f}), "
-        f"~{f['reflection_fraction']:.0%} reflection at {s.rise_ns:g} ns; gap resonance near "
-        f"{f['resonance_GHz']:.2f} GHz"
+        f"current interrupted, about {f['added_inductance_nH']:.2f} nH added{rng}, "
+        f"~{f['reflection_fraction']:.0%} reflection at {f['rise_time_ns']:g} ns; gap resonance "
+        f"near {f['resonance_GHz']:.2f} GHz"
     )
+    split = f.get("return_split")
+    if split:
+        near, far = split["branch_lengths_mm"]
+        text += (
+            f"; the return goes round the near end ({near:.1f} mm) and the far end "
+            f"({far:.1f} mm): {split['dc_share_near']:.0%} near at DC, "
+            f"{split['hf_share_near']:.0%} at high frequency"
+        )
+    if f.get("merged"):
+        text += f" ({f['merged']} more crossing(s) within 0.5 mm folded in)"
+    return text
 
 
 def _reference_change(f, s):
@@ -72,15 +89,15 @@ def _reference_change(f, s):
 
 
 def _edge_run(f, s):
-    off = f["severity"] == "error"  # off the plane (analysis: error), else along its edge
+    off = f["off_plane"]
     signed = f["edge_distance_mm"]
     return (
         f"{f['net']} on {f['layer']} {'runs off' if off else 'runs along'} the edge of the plane "
         f"copper on {f['reference_layer']} for {f['run_length_mm']:.1f} mm, "
         f"{'as far as' if off else 'closest'} {abs(signed):.2f} mm ({f['edge_distance_h']:.1f} h): "
         f"about {f['beyond_edge_fraction']:.0%} of its return current on that plane lies beyond "
-        "the "
-        "edge"
+        f"the edge; about {f['added_inductance_nH']:.2f} nH added, "
+        f"~{f['reflection_fraction']:.0%} reflection at {f['rise_time_ns']:g} ns"
     )
 
 
@@ -99,15 +116,6 @@ def _stitching(f, s):
         f"{f['via_spacing_mm']:.1f} mm "
         f"apart next to signal tracks, more than lambda/{round(1 / s.stitch_fraction)} = "
         f"{f['spacing_limit_mm']:.1f} mm at {s.knee_GHz:g} GHz (eps_eff {f['er_eff']:.2f})"
-    )
-
-
-def _return_split(f, s):
-    near, far = f["branch_lengths_mm"]
-    return (
-        f"{f['net']} over the slot in {f['reference_net']} on {f['reference_layer']}: its return "
-        f"goes round the near end ({near:.1f} mm) and the far end ({far:.1f} mm): "
-        f"{f['dc_share_near']:.0%} near at DC, {f['hf_share_near']:.0%} near at high frequency"
     )
 
 
@@ -132,6 +140,5 @@ _BY_KIND = {
     "edge-run": _edge_run,
     "floating-copper": _floating,
     "stitching-spacing": _stitching,
-    "return-split": _return_split,
     "net-conflict": _net_conflict,
 }

@@ -1,7 +1,14 @@
 """The reports as terminal text: the findings table, the summary line, the notes block and the
 layers listing."""
 
-__all__ = ["findings_table", "summary_line", "notes_block", "layers_text"]
+__all__ = [
+    "findings_table",
+    "gaps_block",
+    "by_net_table",
+    "summary_line",
+    "notes_block",
+    "layers_text",
+]
 
 
 def _fmt(v, spec):
@@ -12,24 +19,78 @@ def _percent(share):
     return None if share is None else 100 * share
 
 
+def _unestimated(f):
+    """A reference change between two nets' planes the data cannot estimate (no part data)."""
+    return f["kind"] == "reference-change" and f.get("parts_known") is False
+
+
 def findings_table(report, limit=None):
-    rows = report["findings"][:limit] if limit else report["findings"]
+    """The findings, worst first; reference changes the data cannot estimate (no part data) are
+    one line at the end, not a row each."""
+    shown = [f for f in report["findings"] if not _unestimated(f)]
+    rows = shown[:limit] if limit else shown
     head = (
-        f"{'#':>3} {'severity':8} {'kind':12} {'gap':6} {'net':18} {'layer':5} {'ref':5} "
+        f"{'#':>3} {'severity':8} {'kind':17} {'gap':6} {'net':18} {'layer':5} {'ref':5} "
         f"{'x mm':>8} {'y mm':>8} {'detour mm':>9} {'cut %':>5} {'added nH':>8} {'res GHz':>7}"
     )
     lines = [head, "-" * len(head)]
     for i, f in enumerate(rows, 1):
         lines.append(
-            f"{i:>3} {f['severity']:8} {f['kind'][:12]:12} {(f.get('gap_type') or '-')[:6]:6} "
+            f"{i:>3} {f['severity']:8} {f['kind']:17} {(f.get('gap_type') or '-')[:6]:6} "
             f"{f['net'][:18]:18} {f['layer']:5} {f.get('reference_layer') or '-':5} "
             f"{f['x_mm']:8.2f} {f['y_mm']:8.2f} {_fmt(f.get('detour_mm'), '9.2f'):>9} "
             f"{_fmt(_percent(f.get('interrupted_fraction')), '5.0f'):>5} "
             f"{_fmt(f.get('added_inductance_nH'), '8.2f'):>8} "
             f"{_fmt(f.get('resonance_GHz'), '7.2f'):>7}"
         )
-    if limit and len(report["findings"]) > limit:
-        lines.append(f"... {len(report['findings']) - limit} more in the JSON report")
+    if limit and len(shown) > limit:
+        lines.append(f"... {len(shown) - limit} more in the JSON report")
+    quiet = [f for f in report["findings"] if _unestimated(f)]
+    if quiet:
+        pairs = sorted({f"{f['reference_net']}/{f['other_reference_net']}" for f in quiet})
+        lines.append(
+            f"{len(quiet)} layer change(s) move the return between planes of different nets "
+            f"({', '.join(pairs[:4])}{', ...' if len(pairs) > 4 else ''}): the data has no part "
+            "information (an IPC-D-356 netlist gives it), so their loops are not estimated"
+        )
+    return "\n".join(lines)
+
+
+def gaps_block(report, limit=None):
+    """One line per gap, worst first: its size, place, the nets that cross it and the worst."""
+    gaps = report.get("gaps") or []
+    if not gaps:
+        return ""
+    lines = [f"gaps crossed ({len(gaps)}):"]
+    for g in gaps[:limit] if limit else gaps:
+        size = f"{g['gap_length_mm']:.1f}"
+        if g["gap_width_mm"]:
+            size += f" x {g['gap_width_mm']:.2f}"
+        n = len(g["nets"])
+        names = ", ".join(g["nets"][:3]) + (", ..." if n > 3 else "")
+        lines.append(
+            f"  {g['severity']:7} {g['gap_type']} {size} mm on {g['reference_layer']} "
+            f"({g['reference_net']}) at ({g['x_mm']:.1f}, {g['y_mm']:.1f}): {n} net(s) cross "
+            f"({names}), worst {g['worst_added_inductance_nH']:.2f} nH"
+        )
+    if limit and len(gaps) > limit:
+        lines.append(f"  ... {len(gaps) - limit} more gaps in the JSON report")
+    return "\n".join(lines)
+
+
+def by_net_table(report, limit=None):
+    """Per net: its findings by severity, their kinds and the worst added inductance."""
+    rows = list((report.get("by_net") or {}).items())
+    head = f"{'net':24} {'error':>5} {'warn':>5} {'info':>5} {'worst nH':>8}  kinds"
+    lines = [head, "-" * len(head)]
+    for net, n in rows[:limit] if limit else rows:
+        name = net if len(net) <= 24 else net[:23] + "\u2026"
+        lines.append(
+            f"{name:24} {n['error']:5} {n['warning']:5} {n['info']:5} "
+            f"{_fmt(n['worst_nH'], '8.2f'):>8}  {', '.join(n['kinds'])}"
+        )
+    if limit and len(rows) > limit:
+        lines.append(f"... {len(rows) - limit} more nets in the JSON report")
     return "\n".join(lines)
 
 
@@ -39,9 +100,17 @@ def summary_line(report):
     return (
         f"returngap: {report['board']['name']}: {status}{s['findings']} finding(s) "
         f"({s['error']} error, {s['warning']} warning, {s['info']} info) on "
-        f"{s['tracks_checked']} track(s); "
+        f"{s['tracks_checked']} track(s) at {_edge_rate(report)}; "
         f"estimates only, see disclaimer"
     )
+
+
+def _edge_rate(report):
+    st = report.get("settings") or {}
+    rate = f"{st.get('rise_time_ns', 0):g} ns edges ({st.get('knee_frequency_GHz', 0):g} GHz knee)"
+    if st.get("net_classes"):
+        rate += f", {len(st['net_classes'])} net class(es) of their own"
+    return rate
 
 
 def notes_block(report, quiet=False):

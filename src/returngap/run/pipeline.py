@@ -4,7 +4,7 @@ import dataclasses
 from dataclasses import dataclass
 
 from returngap import report
-from returngap.analysis import completeness, connectivity, gaps, references, stackup
+from returngap.analysis import completeness, connectivity, gaps, grouping, references, stackup
 from returngap.checks import (
     edge_run,
     floating,
@@ -120,6 +120,7 @@ def _findings(board, nets, refs, chains, settings, runner):
         layer.area_mm2 = area
     findings = combine(done[len(checks) + len(areas) :])
     findings += sum(done[: len(checks)], [])
-    findings += return_split.return_splits(board, findings, settings, hs)
+    findings = return_split.with_return_splits(board, findings, settings)
+    findings = grouping.refine(findings, settings)
     findings += net_conflict.net_conflicts(nets)
     return findings
