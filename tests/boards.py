@@ -138,3 +138,36 @@ def narrow_split_board(folder, strip=2.0):
     b.vias.append(Via(5, 30, "GND"))
     b.write(folder)
     return folder
+
+
+def off_plane_neck_board(folder):
+    """60 x 40 mm, 4 layers: the L2 GND plane covers x < 30 only; CLK on L1 runs from (10, 20) to
+    (40, 20) 0.2 mm wide, then on to (50, 20) 0.3 mm wide: 20 mm off the plane, in two widths."""
+    b = SynthBoard("o", 60, 40, n_layers=4, dielectrics=[(H, 4.3), (1.0, 4.3), (H, 4.3)])
+    b.planes.append((2, "GND", rect(0, 0, 30, 40)))
+    b.planes.append((3, "GND", rect(0, 0, 60, 40)))
+    b.tracks.append((1, "CLK", [(10, 20), (40, 20)], 0.2))
+    b.tracks.append((1, "CLK", [(40, 20), (50, 20)], 0.3))
+    b.vias.append(Via(5, 5, "GND"))
+    b.write(folder)
+    return folder
+
+
+def coplanar_board(folder, gap=0.15, sides=2):
+    """slot_board's 20 x 0.5 mm slot under CLK (L1, 0.2 mm wide, h = 0.2 mm), with GND poured on
+    L1 beside the track, `gap` mm from its edges, on one or both sides (stitched to L2)."""
+    b = SynthBoard("c", 60, 40, n_layers=4, dielectrics=[(H, 4.3), (1.0, 4.3), (H, 4.3)])
+    b.planes.append((2, "GND", rect(0, 0, 60, 40)))
+    b.planes.append((3, "GND", rect(0, 0, 60, 40)))
+    b.cutouts.append((2, rect(29.75, 10, 30.25, 30)))
+    edge = 0.1 + gap
+    b.planes.append((1, "GND", rect(5, 20 + edge, 55, 30)))
+    if sides == 2:
+        b.planes.append((1, "GND", rect(5, 10, 55, 20 - edge)))
+    b.tracks.append((1, "CLK", [(10, 20), (50, 20)], 0.2))
+    for x in (8, 20, 40, 52):
+        b.vias.append(Via(x, 25, "GND"))
+        if sides == 2:
+            b.vias.append(Via(x, 15, "GND"))
+    b.write(folder)
+    return folder

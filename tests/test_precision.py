@@ -245,3 +245,41 @@ def test_net_classes_from_the_stackup_file(tmp_path):
     bad.write_text('[[net_class]]\nnets = ["A"]\nrise = 1\n')
     with pytest.raises(Exception, match="unknown key"):
         config.load_stackup_file(bad)
+
+
+def test_one_run_off_the_plane_is_one_finding(tmp_path):
+    # the track leaves the plane's edge at x = 30 and runs 20 mm beyond it, its width changing
+    # at x = 40: one run of 20 mm (geometry), not two runs with a "track end" between
+    from boards import off_plane_neck_board
+
+    r = run_check(off_plane_neck_board(tmp_path))
+    runs = [f for f in r.findings if f["kind"] == "edge-run" and f["off_plane"]]
+    assert len(runs) == 1
+    assert runs[0]["run_length_mm"] == pytest.approx(20.0, abs=0.6)
+    xs = sorted(p[0] for p in runs[0]["run_ends_mm"])
+    assert xs[0] == pytest.approx(30.0, abs=0.6) and xs[1] == pytest.approx(50.0, abs=0.01)
+
+
+@pytest.mark.parametrize("sides", [2, 1])
+def test_coplanar_ground_beside_the_track_carries_the_return(tmp_path, sides):
+    # GND on L1 0.15 mm from each edge of the 0.2 mm track over a 0.5 mm slot in L2: the return
+    # follows the coplanar ground; added L = (L'cpw - L'ms) * 0.5 mm, coplanar waveguide in air
+    # (Wen 1969: (mu0/4) K(k')/K(k), k = w/(w + 2g), scipy's K), microstrip from scikit-rf
+    # (Hammerstad & Jensen 1980); one side only: twice the two-sided L' (an upper estimate)
+    from scipy.special import ellipk
+
+    from boards import coplanar_board
+
+    r = run_check(coplanar_board(tmp_path, gap=0.15, sides=sides), settings=Settings(show_all=True))
+    [f] = [x for x in crossings(r, "CLK") if x["reference_layer"] == "L2"]
+    assert f["return_path"] == "coplanar"
+    k = 0.2 / (0.2 + 2 * 0.15)
+    cpw = 0.4 * math.pi / 4 * ellipk(1 - k**2) / ellipk(k**2) * (1 if sides == 2 else 2)
+    expect = (cpw - _mline_air_inductance_nH_per_mm(0.2, 0.2, 0.035)) * 0.5
+    assert f["added_inductance_nH"] == pytest.approx(expect, rel=0.03)
+    # without the coplanar copper the same slot is a detour of about its length (slot_board)
+    [bare] = crossings(run_check(slot_board(tmp_path / "bare", D=20.0, s=0.5)), "CLK")
+    assert (
+        bare["return_path"] == "detour"
+        and bare["added_inductance_nH"] > 5 * f["added_inductance_nH"]
+    )

@@ -310,6 +310,17 @@ def _extent_across(void, mid, direction, reach):
     return max(0.0, -lo), max(0.0, hi), tuple(m + lo * u), tuple(m + hi * u)
 
 
+def _beside_side(edge, islands, side):
+    """The copper found lies on the given side of the track's edge line (not across the track)."""
+    probe = edge.offset_curve(side * 0.002)
+    return (
+        bool(len(islands))
+        and not probe.is_empty
+        and probe.distance(shapely.union_all(islands))
+        <= edge.distance(shapely.union_all(islands)) + 1e-6
+    )
+
+
 def _rect_sides(rect):
     c = np.asarray(rect.exterior.coords)[:3] if rect.geom_type == "Polygon" else np.zeros((3, 2))
     return float(np.hypot(*(c[1] - c[0]))), float(np.hypot(*(c[2] - c[1])))
@@ -365,6 +376,7 @@ class _GapScan:
         self.ref_by_layer = {(s, r.layer): r for s, rs in refs.items() for r in rs}
         self.ref_by_layer_of = refs
         self._copper = {}
+        self._own = {}
 
     def copper(self, ref_layer):
         rc = self._copper.get(ref_layer)
@@ -393,12 +405,13 @@ class _GapScan:
             if not len(near):
                 continue
             whole = functools.partial(self._other_whole, ch, other) if other else None
+            beside = functools.partial(self._coplanar_gaps, ch)
             near, local_all, along, of = _crossings(rc, ch.line, hw, near)
             for j, vi in enumerate(near):
                 void = rc.voids[int(vi)]
                 for ev, s0, s1 in _events(sorted(along[of == j].tolist()), void, ch.line, hw):
                     f = self._finding(
-                        ch, ref, rc, void, local_all[j], hw, ev, s0, s1, ref_net, whole
+                        ch, ref, rc, void, local_all[j], hw, ev, s0, s1, ref_net, (whole, beside)
                     )
                     if f is not None:
                         key = (f["net"], f["layer"], f["reference_layer"], void.index)
@@ -435,17 +448,56 @@ class _GapScan:
         )
         return len(np.unique(pt[big])) <= (1.0 - OTHER_PLANE_COVER) * n
 
+    def _coplanar_gaps(self, ch, s_from, s_to):
+        """(gap on one side, gap on the other or None) between the track's edges and plane copper
+        of its own layer alongside the whole stretch s_from..s_to, each at most
+        settings.coplanar_max_gap_mm; None where no such copper runs beside it."""
+        limit = self.settings.coplanar_max_gap_mm
+        tree, islands = self._own_plane(ch.layer)
+        if tree is None or s_to <= s_from:
+            return None
+        piece = shapely.ops.substring(ch.line, max(0.0, s_from), min(ch.line.length, s_to))
+        gaps_found = []
+        for side in (1, -1):
+            edge = piece.offset_curve(side * ch.width_mm / 2)
+            if edge.is_empty or edge.geom_type != "LineString":
+                continue
+            n = int(min(100, max(3, edge.length / 0.1)))
+            pts = shapely.points(coords_along(edge, np.linspace(0, edge.length, n)))
+            (_, k), d = tree.query_nearest(pts, return_distance=True, all_matches=False)
+            if len(d) == n and d.max() <= limit and _beside_side(edge, islands[k], side):
+                gaps_found.append(float(d.max()))
+        if not gaps_found:
+            return None
+        return gaps_found[0], (gaps_found[1] if len(gaps_found) > 1 else None)
+
+    def _own_plane(self, layer):
+        """(tree, islands) of the plane copper of a signal layer, built once."""
+        if layer not in self._own:
+            islands = np.array(
+                [p for _, p in self.nets.layers[layer].islands_of(self.nets.plane_nets)],
+                dtype=object,
+            )
+            self._own[layer] = (shapely.STRtree(islands) if len(islands) else None, islands)
+        return self._own[layer]
+
     def _near_voids(self, rc, ch, hw, line=None):
         """Every void the footprint meets (of the whole track, or of a piece of it), but the antipad
-        of the track's own via (that belongs to its layer change)."""
+        of the track's own via (that belongs to its layer change). A gap larger than an antipad
+        (a moat round a feed track, with the via's antipad merged into it) is a gap still."""
         near = rc.voids_near(ch.line if line is None else line, hw)
         own = self.own_hole_pts.get(ch.net)
         if own is None:
             return near
+        antipad = 2 * self.settings.min_gap_length_mm
         return [
             k
             for k in near
-            if not (rc.voids[k].enclosed and shapely.intersects(rc.void_geoms[k], own).any())
+            if not (
+                rc.voids[k].enclosed
+                and max(_rect_sides(rc.voids[k].rect)) < antipad
+                and shapely.intersects(rc.void_geoms[k], own).any()
+            )
         ]
 
     def _finding(self, ch, ref, rc, void, local, hw, ev, s0, s1, ref_net, whole):
@@ -922,7 +974,52 @@ def _gap_estimate(board, ch, ref, settings, detour, slot_len, width, ends):
         "f_res": f_res,
         "f_low": f_low,
         "method": "geometric mean of hsdd-slot-formula and slotline-stub-model",
-        "return_plane": ref.layer,
+        "return_plane": "round",  # the return goes round the gap in this plane
+    }
+
+
+def _other_returns(board, ch, ref, settings, ways, ev, crossed, span, share, e):
+    """The estimate where the return need not go round the gap: the other plane of a stripline
+    whole under the crossing, or plane copper of the track's own layer beside it (coplanar)."""
+    whole, beside = ways if ways is not None else (None, None)
+    over = (crossed[1] - crossed[0]) if ev == "cross" else (span[1] - span[0]) * min(1.0, share)
+    if whole is not None and whole(span[0], span[1]):
+        return _one_plane_estimate(board, ch, ref, settings, over, e)
+    # the copper beside must run on past the gap by the footprint's spread to carry the return
+    reach = (span[1] - span[0] - (crossed[1] - crossed[0])) / 2 if ev == "cross" else 0.0
+    gaps_beside = (
+        beside(crossed[0] - reach, crossed[1] + reach)
+        if beside is not None and ev == "cross"
+        else None
+    )
+    if gaps_beside is not None:
+        return _coplanar_estimate(board, ch, ref, settings, over, gaps_beside, e)
+    return e
+
+
+def _coplanar_estimate(board, ch, ref, settings, over_mm, gaps_beside, e):
+    """Plane copper of the track's own layer runs beside it over the gap: the return follows it
+    (a coplanar line there): the rise from the line's L' to the coplanar waveguide's, over the
+    crossed length."""
+    t = board.stackup.copper_thickness_mm.get(ch.layer, 0.035)
+    if ref.other_h_mm is None:
+        z_air, e_air = physics.microstrip_z0_eeff(ch.width_mm, ref.h_mm, 1.0, t)
+        l_line = physics.line_inductance_nH_per_mm(z_air, e_air)
+    else:
+        b = ref.h_mm + ref.other_h_mm
+        l_line = physics.line_inductance_nH_per_mm(physics.stripline_z0(ch.width_mm, b, 1.0), 1.0)
+    l_cpw = physics.cpw_inductance_nH_per_mm(ch.width_mm, *gaps_beside)
+    est = max(0.0, l_cpw - l_line) * over_mm
+    refl = physics.series_inductance_reflection(est, e["z0"], settings.rise_ns_for(ch.net))
+    sides = "both sides" if gaps_beside[1] is not None else "one side"
+    return {
+        **e,
+        "est": est,
+        "lo": est,
+        "hi": est,
+        "refl": refl,
+        "method": f"coplanar: own-layer plane copper beside the track on {sides}",
+        "return_plane": "coplanar",
     }
 
 
@@ -1003,9 +1100,7 @@ def _finding(
     )
     ends = _slot_ends(rc, void, gap_type, geo)
     e = _gap_estimate(board, ch, ref, settings, detour, geo["length"], width, ends)
-    if whole is not None and whole(span[0], span[1]):
-        over = (s1 - s0) if ev == "cross" else (span[1] - span[0]) * min(1.0, share)
-        e = _one_plane_estimate(board, ch, ref, settings, over, e)
+    e = _other_returns(board, ch, ref, settings, whole, ev, (s0, s1), span, share, e)
     x, y = float(mid.x), float(mid.y)
     side_nets = _side_nets(rc, split, (ia, ib))
     return _gap_record(
@@ -1029,10 +1124,13 @@ def _finding(
     )
 
 
+_RETURN_PATHS = {"other": "other plane", "coplanar": "coplanar"}
+
+
 def _severity(ch, e, share, settings):
     """The ladder's word on one crossing: its reflection times the share it interrupts; its
     resonance counts only where the return goes round the gap (not through the other plane)."""
-    resonance = e["f_low"] if e["return_plane"] != "other" else None
+    resonance = e["f_low"] if e["return_plane"] == "round" else None
     knee = settings.knee_GHz_for(ch.net)
     return severity.gap_crossing(e["refl"] * min(1.0, share), resonance, knee, settings)
 
@@ -1076,9 +1174,7 @@ def _gap_record(
         added_inductance_nH=e["est"],
         added_inductance_range_nH=[e["lo"], e["hi"]],
         inductance_method=e["method"],
-        return_path="other plane"
-        if e["return_plane"] == "other"
-        else ("split" if split else "detour"),
+        return_path=_RETURN_PATHS.get(e["return_plane"]) or ("split" if split else "detour"),
         rise_time_ns=settings.rise_ns_for(ch.net),
         gap_id=stable_id("gap", ref.layer, *(f"{v:.2f}" for v in gap_bounds)),
         gap_enclosed=enclosed,

@@ -3,6 +3,7 @@ or off it at a track end (CVEL asks the trace to stay at least 1 h from the edge
 A track crossing a gap between plane islands is a gap crossing, not an edge run."""
 
 import dataclasses
+import math
 from collections import defaultdict
 
 import numpy as np
@@ -13,7 +14,7 @@ from returngap.analysis import severity
 from returngap.analysis.gaps import coords_along_lines
 from returngap.analysis.references import line_z0
 from returngap.checks.common import finding
-from returngap.geometry.shapes import disjoint_union
+from returngap.geometry.shapes import disjoint_union, near_clusters
 
 __all__ = ["edge_runs"]
 
@@ -34,7 +35,70 @@ def edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of):
     findings = []
     for ci in sorted(sampled):
         findings += _runs(board, chains[ci], *sampled[ci], hs)
-    return findings
+    return _joined(findings, hs)
+
+
+JOIN_MM = 0.05  # run ends this close are one run cut at a width change (the chains' joint)
+
+
+def _joined(findings, settings):
+    """Runs of one net, layer and plane, of one class, that meet end to end (a track cut into two
+    chains where its width changes) as one run: lengths and inductances added, the worst point
+    kept."""
+    groups = {}
+    for k, f in enumerate(findings):
+        groups.setdefault((f["net"], f["layer"], f["reference_layer"], f["off_plane"]), []).append(
+            k
+        )
+    out = []
+    for idx in groups.values():
+        ends = np.array([findings[k]["run_ends_mm"] for k in idx], dtype=float).reshape(-1, 2)
+        labels = near_clusters(ends, JOIN_MM)
+        run_of = _join_labels(labels.reshape(-1, 2))
+        for members in run_of.values():
+            out.append(_merge([findings[idx[m]] for m in members], settings))
+    return out
+
+
+def _join_labels(end_labels):
+    """Runs (rows of two end labels) joined where they share an end label: {root: [rows]}."""
+    parent = list(range(len(end_labels)))
+    first = {}
+    for i, (a, b) in enumerate(end_labels.tolist()):
+        for e in (a, b):
+            j = first.setdefault(e, i)
+            ri, rj = _root(parent, i), _root(parent, j)
+            parent[max(ri, rj)] = min(ri, rj)
+    out = {}
+    for i in range(len(end_labels)):
+        out.setdefault(_root(parent, i), []).append(i)
+    return out
+
+
+def _root(parent, i):
+    while parent[i] != i:
+        i = parent[i]
+    return i
+
+
+def _merge(runs, settings):
+    if len(runs) == 1:
+        return runs[0]
+    worst = max(runs, key=lambda f: f["beyond_edge_fraction"])
+    added = sum(f["added_inductance_nH"] for f in runs)
+    refl = physics.series_inductance_reflection(added, worst["z0_ohm"], worst["rise_time_ns"])
+    far = max(
+        ((p, q) for f in runs for g in runs for p in f["run_ends_mm"] for q in g["run_ends_mm"]),
+        key=lambda pq: math.dist(*pq),
+    )
+    return dataclasses.replace(
+        worst,
+        severity=severity.by_effect(refl, settings.reflection_budget),
+        run_length_mm=sum(f["run_length_mm"] for f in runs),
+        added_inductance_nH=added,
+        reflection_fraction=refl,
+        run_ends_mm=[list(far[0]), list(far[1])],
+    )
 
 
 def _plane_edges(nets, ref_layer, edges):
@@ -50,7 +114,7 @@ def _sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges):
     {chain index: (plane net, ref, limit, distances along, points, on the plane, distance to the
     edge)}."""
     lines = np.array([chains[k].line for k in idx], dtype=object)
-    ref_nets = [plane_nets_of[k][ref.layer] for k in idx]
+    ref_nets = _adopted([chains[k] for k in idx], [plane_nets_of[k][ref.layer] for k in idx])
     keep = np.array([n is not None for n in ref_nets])
     if not keep.any():
         return {}
@@ -75,6 +139,23 @@ def _sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges):
     for j, t in enumerate(todo):
         a, b = ends[j], ends[j + 1]
         out[idx[t]] = (ref_nets[t], ref, limit, dists[j], xy[a:b], inside[a:b], d[a:b])
+    return out
+
+
+def _adopted(chs, ref_nets):
+    """The plane net of each chain; a chain with no plane copper under it at all takes the net of
+    a chain of its track it joins end to end (a width change): its run off the plane continues
+    the other's, where alone it would not be looked at."""
+    by_end = {}
+    for ch, n in zip(chs, ref_nets):
+        if n is not None:
+            for p in (ch.line.coords[0], ch.line.coords[-1]):
+                by_end.setdefault((ch.net, round(p[0], 2), round(p[1], 2)), n)
+    out = list(ref_nets)
+    for k, ch in enumerate(chs):
+        if out[k] is None:
+            for p in (ch.line.coords[0], ch.line.coords[-1]):
+                out[k] = out[k] or by_end.get((ch.net, round(p[0], 2), round(p[1], 2)))
     return out
 
 
@@ -114,7 +195,8 @@ def _runs(board, ch, net, ref, limit, s, pts, inside, d, hs):
             continue
         k = a + int(np.argmin(d[a:b])) if c == NEAR else (b - 1 if a == 0 else a)
         signed = float(d[k]) if c == NEAR else -float(np.max(d[a:b]))
-        out.append(_run_finding(board, ch, net, ref, c, length, signed, pts[k], hs))
+        f = _run_finding(board, ch, net, ref, c, length, signed, pts[k], hs)
+        out.append(dataclasses.replace(f, run_ends_mm=[pts[a].tolist(), pts[b - 1].tolist()]))
     return out
 
 

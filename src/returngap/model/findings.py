@@ -162,6 +162,7 @@ class EdgeRun(Finding):
     reflection_fraction: float
     z0_ohm: float
     rise_time_ns: float
+    run_ends_mm: list = _opt()  # [[x, y], [x, y]]: where the run starts and ends
 
 
 @dataclass(kw_only=True)

@@ -27,6 +27,8 @@ class Settings:
     min_interrupted_fraction: float = 0.10  # smaller: not reported (common practice, no source)
     min_detour_mm: float = 1.0  # shorter detours (no split): not reported (same)
     min_gap_length_mm: float = 2.0  # single antipads beside a track: not reported (same)
+    # own-layer plane copper this close beside a track over a gap carries its return (coplanar)
+    coplanar_max_gap_mm: float = 0.3  # common practice, no source
     slot_aspect_ratio: float = 3.0  # elongated beyond this: a slot, else a void (same)
     plane_min_fraction: float = 0.20  # plane-net copper over this share of the board: a reference
     # a plane layer with signal tracks longer than this many board widths (sqrt of its area) is a

@@ -26,6 +26,7 @@ __all__ = [
     "line_inductance_nH_per_mm",
     "hsdd_slot_inductance_nH",
     "cps_inductance_nH_per_mm",
+    "cpw_inductance_nH_per_mm",
     "slot_stub_inductance_nH",
     "babinet_slot_inductance_nH",
     "slot_resonance_GHz",
@@ -227,6 +228,19 @@ def cps_inductance_nH_per_mm(gap_mm, strip_width_mm):
     k = gap_mm / (gap_mm + 2.0 * strip_width_mm)
     kp = math.sqrt(1.0 - k * k)
     return MU0_NH_PER_MM * ellipk(k) / ellipk(kp)
+
+
+def cpw_inductance_nH_per_mm(strip_mm, gap1_mm, gap2_mm=None):
+    """Inductance per length of a strip with coplanar ground beside it, no plane under it: the
+    coplanar waveguide in air, L' = (mu0/4) K(k')/K(k), k = w/(w + 2g) (Wen, IEEE T-MTT 17(12),
+    1969, conformal mapping; unequal gaps taken at their mean). With ground on one side only
+    (gap2 None) the one ground strip carries the whole return: twice the two-sided value, an upper
+    estimate (derived: the two halves in parallel, their mutual coupling neglected)."""
+    g = gap1_mm if gap2_mm is None else (gap1_mm + gap2_mm) / 2
+    k = strip_mm / (strip_mm + 2.0 * g)
+    kp = math.sqrt(1.0 - k * k)
+    two_sided = MU0_NH_PER_MM / 4.0 * ellipk(kp) / ellipk(k)
+    return two_sided if gap2_mm is not None else 2.0 * two_sided
 
 
 def slot_stub_inductance_nH(l1_mm, l2_mm, gap_mm, l2_open=False, strip_width_mm=None):

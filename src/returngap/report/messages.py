@@ -28,6 +28,11 @@ def _gap(f, s):
             "the other plane is whole under the track, so the return moves there for the "
             f"crossing ({det} in this plane is not taken)"
         )
+    if f["return_path"] == "coplanar":
+        det = (
+            "plane copper of its own layer runs beside the track over the gap and carries the "
+            f"return there ({det} in the plane is not taken)"
+        )
     lo, hi = f["added_inductance_range_nH"]
     rng = f" ({lo:.1f}-{hi:.1f})" if hi - lo > 0.05 else ""
     text = (
