@@ -118,3 +118,22 @@ def test_demo_board_is_what_the_generator_writes(tmp_path):
 def test_out_dir_gets_findings(tmp_path):
     run("check", DEMO, "--out", tmp_path / "o", "--fail-on", "never")
     assert json.loads((tmp_path / "o" / "findings.json").read_text())["findings"]
+
+
+def test_gaps_first_by_net_and_the_edge_rate(tmp_path):
+    # the demo's split in L3 is crossed by both RMII lines: one gap line naming both, before the
+    # per-finding table; --by-net adds the per-net table; the HTML has both tables and the rate
+    r = run("check", DEMO, "--stackup", DEMO / "stackup.toml", "--by-net", "--out", tmp_path / "o")
+    text = r.output
+    assert text.index("gaps crossed") < text.index("severity kind")
+    split_line = next(line for line in text.splitlines() if " split " in line and "net(s)" in line)
+    assert "2 net(s) cross (RMII_TXD0, RMII_TXD1)" in split_line
+    assert "worst nH" in text and "0.5 ns edges (1 GHz knee)" in text
+    html = (tmp_path / "o" / "report.html").read_text()
+    assert "<h2>Gaps crossed</h2>" in html and "<h2>By net</h2>" in html
+    assert "Edge rate: 0.5 ns" in html
+    rep = json.loads((tmp_path / "o" / "findings.json").read_text())
+    [group] = [g for g in rep["gaps"] if g["gap_type"] == "split"]
+    assert group["nets"] == ["RMII_TXD0", "RMII_TXD1"]
+    ids = {f["gap_id"] for f in rep["findings"] if f["net"].startswith("RMII")}
+    assert ids == {group["gap_id"]}

@@ -59,6 +59,53 @@ def _num(v, fmt):
     return "" if v is None else format(v, fmt)
 
 
+def _gap_section(report, e):
+    """Gaps first: one row per gap, the nets that cross it and the worst of them."""
+    gaps = report.get("gaps") or []
+    if not gaps:
+        return []
+    rows = [
+        "<h2>Gaps crossed</h2><table class='sortable' id='gaps'><thead><tr><th>severity</th>"
+        "<th>gap</th><th>size mm</th><th>plane</th><th>x mm</th><th>y mm</th><th>nets</th>"
+        "<th>worst nH</th></tr></thead><tbody>"
+    ]
+    for g in gaps:
+        size = f"{g['gap_length_mm']:.1f}" + (
+            f" &times; {g['gap_width_mm']:.2f}" if g["gap_width_mm"] else ""
+        )
+        nets = ", ".join(
+            f"<a href='#row-{e(c['id'])}'>{e(c['net'])}</a> ({c['added_inductance_nH']:.2f} nH)"
+            for c in g["crossings"]
+        )
+        rows.append(
+            f"<tr><td class='sev-{g['severity']}' data-v='{SEV_RANK[g['severity']]}'>"
+            f"{g['severity']}</td><td>{e(g['gap_type'])}</td><td>{size}</td>"
+            f"<td>{e(g['reference_layer'])} ({e(g['reference_net'] or '')})</td>"
+            f"<td class='n'>{g['x_mm']:.1f}</td><td class='n'>{g['y_mm']:.1f}</td>"
+            f"<td>{nets}</td><td class='n'>{g['worst_added_inductance_nH']:.2f}</td></tr>"
+        )
+    return rows + ["</tbody></table>"]
+
+
+def _net_section(report, e):
+    """Per net: its findings by severity and the worst added inductance."""
+    nets = report.get("by_net") or {}
+    if not nets:
+        return []
+    rows = [
+        "<h2>By net</h2><table class='sortable' id='by-net'><thead><tr><th>net</th>"
+        "<th>error</th><th>warning</th><th>info</th><th>worst nH</th><th>kinds</th></tr>"
+        "</thead><tbody>"
+    ]
+    for net, n in nets.items():
+        rows.append(
+            f"<tr><td>{e(net)}</td><td class='n'>{n['error']}</td><td class='n'>{n['warning']}"
+            f"</td><td class='n'>{n['info']}</td><td class='n'>{_num(n['worst_nH'], '.2f')}</td>"
+            f"<td>{e(', '.join(n['kinds']))}</td></tr>"
+        )
+    return rows + ["</tbody></table>"]
+
+
 def page(report, images, overview=None):
     """images: {finding id: png path}; overview: png path."""
     e = html.escape
@@ -82,6 +129,20 @@ def page(report, images, overview=None):
             + "".join(f"<li>{e(p)}</li>" for p in report.get("problems", []))
             + "</ul></div>"
         )
+    st = report.get("settings") or {}
+    classes = st.get("net_classes") or []
+    parts.append(
+        f"<p class='rate'>Edge rate: {st.get('rise_time_ns', 0):g} ns "
+        f"(knee {st.get('knee_frequency_GHz', 0):g} GHz) for every net"
+        + (
+            " but those of the net classes " + ", ".join(e(c.get("name", "")) for c in classes)
+            if classes
+            else ""
+        )
+        + f"; effects under {st.get('min_added_nH', 0):g} nH are "
+        + ("shown (--all)" if st.get("show_all") else "not reported")
+        + ".</p>"
+    )
     parts.append(
         "<h2>Board and stackup</h2><table><thead><tr><th>layer</th><th>side</th><th>file</th>"
         "<th>copper mm&sup2;</th><th>nets</th><th>identified by</th></tr></thead><tbody>"
@@ -113,6 +174,8 @@ def page(report, images, overview=None):
             + "".join(f"<li>{e(a)}</li>" for a in report["assumptions"])
             + "</ul>"
         )
+    parts += _gap_section(report, e)
+    parts += _net_section(report, e)
     parts.append(
         "<h2>Findings</h2><table class='sortable' "
         "id='findings'><thead><tr><th>#</th><th>severity</th>"
