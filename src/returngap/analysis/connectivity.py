@@ -36,11 +36,13 @@ __all__ = [
 ]
 
 GROUND_RE = re.compile(
-    r"^(?:[ADPSCH]?GND\w*|GND\w*|VSS\w*|0V|EARTH|CHASSIS|GROUND\w*|\w*_GND|\w*GND)$", re.I
+    r"^(?:[ADPSCH]?GND\w*|GND\w*|VSS\w*|0V|EARTH|CHASSIS|GROUND\w*|\w*_GND|\w*GND|"
+    r"RTN\w*|\w*_RTN|V?RETURN)$",  # a supply's return (RTN) is a ground of its own
+    re.I,
 )
 POWER_RE = re.compile(
     r"^(?:\+|-)?(?:V(?:CC|DD|EE|BUS|BAT|IN|IO|REF|CORE|SYS|PP|DDQ|TT)\w*|PWR\w*|POWER\w*|"
-    r"P?\d+V\d*\w*|\d+V|V\d+\w*|\d+\.\d+V\w*)$",
+    r"P?\d+V\d*\w*|\d+V|V\d+\w*|\d+\.\d+V\w*|V?POE\w*[+-]?)$",  # PoE rails: POE+, POE-
     re.I,
 )
 POUR_MIN_MM2 = 25.0  # an island this large is a pour, its net a supply (common practice, no source)
@@ -52,7 +54,9 @@ PLANE_AREA_FRACTION = (
 
 def leaf(name):
     """Hierarchical names (/sheet/VDD33, Board_0-GND) are classed by their last part."""
-    return re.split(r"[/\\]", name)[-1].split("-")[-1].strip()
+    last = re.split(r"[/\\]", name)[-1]
+    part = last.split("-")[-1].strip()
+    return part or last.strip()  # a trailing "-" (POE-, a negative rail) is part of the name
 
 
 class LayerNets:

@@ -2,8 +2,8 @@
 crossings of one gap given one gap id.
 
 - Noise floor: a gap crossing or edge run adding less than settings.min_added_nH, and a graze the
-  return does not detour round, is no finding unless settings.show_all (common practice, no
-  source).
+  return detours round by less than settings.min_detour_mm (as for crossings), is no finding
+  unless settings.show_all (common practice, no source).
 - Near-duplicates: findings of one kind on one net, layer and reference layer within DUPLICATE_MM
   of each other are one finding, the worst kept, with the count it absorbed.
 - Gaps: the crossings of one enclosed gap (a slot, a void) share its id; a gap open to the plane's
@@ -36,7 +36,10 @@ def below_floor(f, settings):
     added = f.get("added_inductance_nH")
     if added is not None and added < settings.min_added_nH:
         return True
-    return f["kind"] == "gap-crossing" and f["crossing"] == "graze" and not f["detour_mm"]
+    if f["kind"] != "gap-crossing" or f["return_path"] != "detour":
+        return False
+    # a graze the return barely bends round: the crossings' own detour threshold holds for it too
+    return f["crossing"] == "graze" and (f["detour_mm"] or 0.0) < settings.min_detour_mm
 
 
 def _rank(f):
