@@ -313,11 +313,11 @@ def _extent_across(void, mid, direction, reach):
 def _beside_side(edge, islands, side):
     """The copper found lies on the given side of the track's edge line (not across the track)."""
     probe = edge.offset_curve(side * 0.002)
+    near = shapely.geometrycollections(list(islands))  # the few nearest islands, not unioned
     return (
         bool(len(islands))
         and not probe.is_empty
-        and probe.distance(shapely.union_all(islands))
-        <= edge.distance(shapely.union_all(islands)) + 1e-6
+        and (probe.distance(near) <= edge.distance(near) + 1e-6)
     )
 
 
@@ -465,7 +465,7 @@ class _GapScan:
             n = int(min(100, max(3, edge.length / 0.1)))
             pts = shapely.points(coords_along(edge, np.linspace(0, edge.length, n)))
             (_, k), d = tree.query_nearest(pts, return_distance=True, all_matches=False)
-            if len(d) == n and d.max() <= limit and _beside_side(edge, islands[k], side):
+            if len(d) == n and d.max() <= limit and _beside_side(edge, islands[np.unique(k)], side):
                 gaps_found.append(float(d.max()))
         if not gaps_found:
             return None
