@@ -495,7 +495,8 @@ def build_nets(board, user_cfg=None, runner=SERIAL):
     with runner.threads(size) as pool:
         found = list(
             pool.map(
-                lambda li: _pours_and_planes(board, layers, per_layer, li), range(len(board.copper))
+                lambda li: _pours_and_planes(board, layers, per_layer, li, net_class),
+                range(len(board.copper)),
             )
         )
     big = set().union(*(b for b, _ in found))
@@ -640,26 +641,28 @@ def _layer_nets(board, per_layer, node_net, tied):
     return layers
 
 
-def _pours_and_planes(board, layers, per_layer, li):
+def _pours_and_planes(board, layers, per_layer, li, net_class):
     """Pour segments of one layer; the nets of its plane-sized islands and of its poured ones."""
     layer = board.copper[li]
     ln = layers[layer.name]
     _, _, seg_isl, _, _, pairs = per_layer[layer.name]
     ln.segment_fill = _fill_segments(layer, ln, seg_isl, pairs) | _pour_strokes(layer)
-    return tuple(
-        _nets_with_island(ln, limit)
-        for limit in (PLANE_AREA_FRACTION * (board.outline.area or 1.0), POUR_MIN_MM2)
+    signal = {n for n, c in net_class.items() if c == "signal"}  # only these can be re-classed
+    return (
+        _nets_with_island(ln, PLANE_AREA_FRACTION * (board.outline.area or 1.0)),
+        _nets_with_island(ln, POUR_MIN_MM2, signal),
     )
 
 
-def _nets_with_island(ln, limit):
+def _nets_with_island(ln, limit, among=None):
     """Nets of the islands of one layer at least `limit` mm2 large (an island's area lies between
     its largest piece's and its pieces' sum: only islands between the two are unioned)."""
     upper, lower = ln.piece_area_bounds()
     return {
         ln.island_net[i]
         for i in np.flatnonzero(upper >= limit)
-        if lower[i] >= limit or ln.island_area(int(i)) >= limit
+        if (among is None or ln.island_net[i] in among)
+        and (lower[i] >= limit or ln.island_area(int(i)) >= limit)
     }
 
 
