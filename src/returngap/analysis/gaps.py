@@ -1002,12 +1002,7 @@ def _coplanar_estimate(board, ch, ref, settings, over_mm, gaps_beside, e):
     (a coplanar line there): the rise from the line's L' to the coplanar waveguide's, over the
     crossed length."""
     t = board.stackup.copper_thickness_mm.get(ch.layer, 0.035)
-    if ref.other_h_mm is None:
-        z_air, e_air = physics.microstrip_z0_eeff(ch.width_mm, ref.h_mm, 1.0, t)
-        l_line = physics.line_inductance_nH_per_mm(z_air, e_air)
-    else:
-        b = ref.h_mm + ref.other_h_mm
-        l_line = physics.line_inductance_nH_per_mm(physics.stripline_z0(ch.width_mm, b, 1.0), 1.0)
+    l_line = physics.track_inductance_nH_per_mm(ch.width_mm, ref.h_mm, ref.other_h_mm, t)
     l_cpw = physics.cpw_inductance_nH_per_mm(ch.width_mm, *gaps_beside)
     est = max(0.0, l_cpw - l_line) * over_mm
     refl = physics.series_inductance_reflection(est, e["z0"], settings.rise_ns_for(ch.net))

@@ -244,8 +244,7 @@ def _added_inductance_nH(board, ch, ref, c, length, signed):
     edge over the run's length; a stripline's other plane carries its own share unchanged."""
     alone = ref if ref.other_h_mm is None else dataclasses.replace(ref, other_h_mm=None)
     t = board.stackup.copper_thickness_mm.get(ch.layer, 0.035)
-    z_air, e_air = physics.microstrip_z0_eeff(ch.width_mm, ref.h_mm, 1.0, t)
-    l_line = physics.line_inductance_nH_per_mm(z_air, e_air)
+    l_line = physics.track_inductance_nH_per_mm(ch.width_mm, ref.h_mm, None, t)
     if c == OFF:
         per_mm = physics.off_plane_inductance_nH_per_mm(alone.h_mm, -signed, l_line)
     else:

@@ -33,6 +33,7 @@ __all__ = [
     "knee_frequency_GHz",
     "rise_time_for_knee_ns",
     "series_inductance_reflection",
+    "track_inductance_nH_per_mm",
     "one_plane_missing_inductance_nH",
     "wavelength_mm",
     "via_pair_inductance_nH",
@@ -305,6 +306,16 @@ def series_inductance_reflection(inductance_nH, z0_ohm, rise_time_ns):
     return float(-math.expm1(-x) / x)
 
 
+def track_inductance_nH_per_mm(width_mm, h_mm, other_h_mm=None, t_mm=0.0):
+    """L' of a track over one plane (microstrip, Hammerstad & Jensen 1980) or between two
+    (centred stripline of spacing h + other_h, Cohn 1954), taken in air: L' = Z0*sqrt(eeff)/c does
+    not depend on the dielectric."""
+    if other_h_mm is None:
+        z, e = microstrip_z0_eeff(width_mm, h_mm, 1.0, t_mm)
+        return line_inductance_nH_per_mm(z, e)
+    return line_inductance_nH_per_mm(stripline_z0(width_mm, h_mm + other_h_mm, 1.0), 1.0)
+
+
 def one_plane_missing_inductance_nH(width_mm, h_cut_mm, h_kept_mm, t_mm, length_mm):
     """Series inductance added where one plane of a stripline is cut under the track and the other
     is whole: over that length the track is a microstrip over the whole plane (under a dielectric
@@ -313,9 +324,8 @@ def one_plane_missing_inductance_nH(width_mm, h_cut_mm, h_kept_mm, t_mm, length_
     taken in air. Hammerstad & Jensen 1980 (microstrip), Cohn 1954 (centred stripline); derived."""
     if length_mm <= 0:
         return 0.0
-    z_ms, e_ms = microstrip_z0_eeff(width_mm, h_kept_mm, 1.0, t_mm)
-    l_ms = line_inductance_nH_per_mm(z_ms, e_ms)
-    l_sl = line_inductance_nH_per_mm(stripline_z0(width_mm, h_cut_mm + h_kept_mm, 1.0), 1.0)
+    l_ms = track_inductance_nH_per_mm(width_mm, h_kept_mm, None, t_mm)
+    l_sl = track_inductance_nH_per_mm(width_mm, h_cut_mm, h_kept_mm)
     return max(0.0, l_ms - l_sl) * length_mm
 
 
