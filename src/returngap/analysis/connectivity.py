@@ -15,7 +15,12 @@ import networkx as nx
 import numpy as np
 import shapely
 
-from returngap.geometry.shapes import disjoint_union, intersects_pairs, touch_components
+from returngap.geometry.shapes import (
+    disjoint_union,
+    intersects_pairs,
+    outline_pieces,
+    touch_components,
+)
 from returngap.model.runner import SERIAL
 
 __all__ = [
@@ -316,19 +321,19 @@ def _pour_strokes(layer):
     s = layer.segments
     if not len(s) or not layer.regions:
         return np.zeros(len(s), dtype=bool)
-    edges = shapely.boundary(np.array([r[0] for r in layer.regions], dtype=object))
-    lines = shapely.linestrings(s[:, :4].reshape(-1, 2, 2))
-    seg, reg = shapely.STRtree(edges).query(
-        lines, predicate="dwithin", distance=POUR_STROKE_HAIR_MM
-    )
-    out = np.zeros(len(s), dtype=bool)
-    if not len(seg):
-        return out
-    ends = s[seg, :4].reshape(-1, 2, 2)
-    on_edge = np.ones(len(seg), dtype=bool)
+    pieces, edge_region = outline_pieces([r[0] for r in layer.regions])
+    edge_tree = shapely.STRtree(pieces)
+    ends = s[:, :4].reshape(-1, 2, 2)
+    n_reg = len(layer.regions)
+    on_edge = None  # (stroke, region) keys whose three points all lie on that region's edge
     for xy in (ends[:, 0], ends[:, 1], ends.mean(axis=1)):
-        on_edge &= shapely.distance(shapely.points(xy), edges[reg]) <= POUR_STROKE_HAIR_MM
-    out[seg[on_edge]] = True
+        pt, e = edge_tree.query(
+            shapely.points(xy), predicate="dwithin", distance=POUR_STROKE_HAIR_MM
+        )
+        keys = np.unique(pt.astype(np.int64) * n_reg + edge_region[e])
+        on_edge = keys if on_edge is None else np.intersect1d(on_edge, keys, assume_unique=True)
+    out = np.zeros(len(s), dtype=bool)
+    out[on_edge // n_reg] = True
     return out
 
 

@@ -24,6 +24,7 @@ from returngap.analysis import severity
 from returngap.analysis.references import footprint_halfwidth, footprint_polygon, line_z0
 from returngap.geometry.cuts import cut_intervals, ring_edges
 from returngap.geometry.gridpath import CELLS, Lattice, lattice_way
+from returngap.geometry.shapes import outline_pieces
 from returngap.model.findings import UNSET, GapCrossing
 from returngap.model.runner import SERIAL
 
@@ -310,12 +311,12 @@ def _extent_across(void, mid, direction, reach):
     return max(0.0, -lo), max(0.0, hi), tuple(m + lo * u), tuple(m + hi * u)
 
 
-def _beside_side(edge, islands, side):
+def _beside_side(edge, pieces, side):
     """The copper found lies on the given side of the track's edge line (not across the track)."""
     probe = edge.offset_curve(side * 0.002)
-    near = shapely.geometrycollections(list(islands))  # the few nearest islands, not unioned
+    near = shapely.geometrycollections(list(pieces))  # the few nearest outline pieces
     return (
-        bool(len(islands))
+        bool(len(pieces))
         and not probe.is_empty
         and (probe.distance(near) <= edge.distance(near) + 1e-6)
     )
@@ -453,7 +454,7 @@ class _GapScan:
         of its own layer alongside the whole stretch s_from..s_to, each at most
         settings.coplanar_max_gap_mm; None where no such copper runs beside it."""
         limit = self.settings.coplanar_max_gap_mm
-        tree, islands = self._own_plane(ch.layer)
+        tree, pieces = self._own_plane(ch.layer)
         if tree is None or s_to <= s_from:
             return None
         piece = shapely.ops.substring(ch.line, max(0.0, s_from), min(ch.line.length, s_to))
@@ -465,20 +466,19 @@ class _GapScan:
             n = int(min(100, max(3, edge.length / 0.1)))
             pts = shapely.points(coords_along(edge, np.linspace(0, edge.length, n)))
             (_, k), d = tree.query_nearest(pts, return_distance=True, all_matches=False)
-            if len(d) == n and d.max() <= limit and _beside_side(edge, islands[np.unique(k)], side):
+            if len(d) == n and d.max() <= limit and _beside_side(edge, pieces[np.unique(k)], side):
                 gaps_found.append(float(d.max()))
         if not gaps_found:
             return None
         return gaps_found[0], (gaps_found[1] if len(gaps_found) > 1 else None)
 
     def _own_plane(self, layer):
-        """(tree, islands) of the plane copper of a signal layer, built once."""
+        """(tree, outline pieces) of the plane copper of a signal layer, built once. The track's
+        edge lies outside that copper, so the nearest outline piece is the nearest copper."""
         if layer not in self._own:
-            islands = np.array(
-                [p for _, p in self.nets.layers[layer].islands_of(self.nets.plane_nets)],
-                dtype=object,
-            )
-            self._own[layer] = (shapely.STRtree(islands) if len(islands) else None, islands)
+            islands = [p for _, p in self.nets.layers[layer].islands_of(self.nets.plane_nets)]
+            pieces = outline_pieces(islands)[0] if islands else np.zeros(0, dtype=object)
+            self._own[layer] = (shapely.STRtree(pieces) if len(pieces) else None, pieces)
         return self._own[layer]
 
     def _near_voids(self, rc, ch, hw, line=None):

@@ -33,6 +33,7 @@ __all__ = [
     "merge_pieces",
     "disjoint_union",
     "place_all",
+    "outline_pieces",
 ]
 
 DEFAULT_CHORD_TOL_MM = 0.001
@@ -295,3 +296,15 @@ def near_clusters(xy, reach):
         if ri != rj:
             parent[max(ri, rj)] = min(ri, rj)
     return np.array([root(i) for i in range(len(pts))], dtype=int)
+
+
+def outline_pieces(polygons):
+    """The outlines of `polygons` cut into their straight pieces, and each piece's polygon: a
+    distance to a whole pour tests every vertex of its outline, a piece's only its two, so a
+    tree of pieces answers "how near is copper" at the cost of the few pieces nearby."""
+    rings = shapely.boundary(np.asarray(polygons, dtype=object))
+    parts, part_owner = shapely.get_parts(rings, return_index=True)
+    xy, vert_part = shapely.get_coordinates(parts, return_index=True)
+    same = vert_part[1:] == vert_part[:-1]
+    pieces = shapely.linestrings(np.stack([xy[:-1][same], xy[1:][same]], axis=1))
+    return pieces, part_owner[vert_part[:-1][same]]
