@@ -161,6 +161,14 @@ def layers(ctx, board, stackup_file, as_json):
     help="Also report effects below the noise floor (under 0.1 nH added, grazes without a detour).",
 )
 @click.option("--by-net", is_flag=True, help="Print a per-net summary after the findings.")
+@click.option(
+    "--solve",
+    "field_solves",
+    type=click.IntRange(min=0),
+    default=0,
+    show_default=True,
+    help="Field-solve the N gap crossings nearest the reflection budget (a few seconds each).",
+)
 @click.pass_context
 def check(
     ctx,
@@ -181,6 +189,7 @@ def check(
     allow_incomplete,
     show_all,
     by_net,
+    field_solves,
 ):
     """Find where return current must detour around slots, splits and voids."""
     from returngap.model.settings import Settings
@@ -191,7 +200,12 @@ def check(
         raise click.UsageError("give --rise-time or --max-freq, not both")
     if new_only and not baseline_file:
         raise click.UsageError("--new-only needs --baseline")
-    settings = Settings(nets=tuple(net_globs), allow_incomplete=allow_incomplete, show_all=show_all)
+    settings = Settings(
+        nets=tuple(net_globs),
+        allow_incomplete=allow_incomplete,
+        show_all=show_all,
+        field_solves=field_solves,
+    )
     if rise_ns:
         settings.rise_time_ns = rise_ns
     if max_ghz:
@@ -236,6 +250,29 @@ def check(
         return 1 if counted else 0
 
     sys.exit(_run(ctx, go))
+
+
+@main.command()
+@click.argument("report_file", type=click.Path(exists=True, dir_okay=False))
+@click.option("--id", "finding_id", required=True, help="The finding's id in the report.")
+@click.option(
+    "--board",
+    "board_files",
+    multiple=True,
+    type=click.Path(),
+    help="The board, where it has moved since the report was written (repeatable).",
+)
+@click.option("--json", "as_json", is_flag=True, help="Print the solved finding as JSON.")
+@click.pass_context
+def solve(ctx, report_file, finding_id, board_files, as_json):
+    """Field-solve one gap crossing of a saved findings report (re-reads its board)."""
+    from returngap.run import solveone
+
+    def go():
+        finding = solveone.solve_from_report(report_file, finding_id, list(board_files))
+        click.echo(report.to_json(finding) if as_json else report.solve_text(finding))
+
+    _run(ctx, go)
 
 
 @main.command()

@@ -123,6 +123,7 @@ class GapCrossing(Finding):
     # a closed slot: the share of the return round each end (checks/return_split.py)
     return_split: dict = _opt()
     merged: int = _opt()  # near-duplicate crossings folded into this one
+    field_solve: dict = _opt()  # the local field solve's numbers, where one was run
 
 
 @dataclass(kw_only=True)

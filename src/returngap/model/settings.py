@@ -47,6 +47,8 @@ class Settings:
     show_all: bool = False
     # the completeness gate
     allow_incomplete: bool = False  # state the gate's problems instead of refusing the board
+    # the local field solve (analysis/fieldsolve.py) of this many crossings nearest the budget
+    field_solves: int = 0
 
     @property
     def rise_ns(self):

@@ -18,6 +18,7 @@ __all__ = [
     "board_summary",
     "layers_report",
     "sort_findings",
+    "said",
     "gap_groups",
     "net_summary",
     "findings_report",
@@ -149,7 +150,7 @@ def sort_findings(findings):
     )
 
 
-def _said(finding, settings):
+def said(finding, settings):
     """A finding's fields with its sentence last (composed before any rounding)."""
     fields = dict(finding.as_dict())
     fields["message"] = messages.message(fields, settings)
@@ -158,7 +159,7 @@ def _said(finding, settings):
 
 def findings_report(result):
     board = result.board
-    findings = sort_findings([clean(_said(f, result.settings)) for f in result.findings])
+    findings = sort_findings([clean(said(f, result.settings)) for f in result.findings])
     counts = {
         s: sum(1 for f in findings if f["severity"] == s) for s in ("error", "warning", "info")
     }
@@ -184,6 +185,7 @@ def findings_report(result):
         "disclaimer": DISCLAIMER,
         "board": board_summary(board, result.nets),
         "settings": clean(result.settings.as_dict()),
+        "inputs": result.inputs or {},
         "references": refs,
         "assumptions": list(board.assumptions),
         "problems": [str(p) for p in result.problems],

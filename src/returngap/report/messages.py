@@ -52,7 +52,18 @@ def _gap(f, s):
         )
     if f.get("merged"):
         text += f" ({f['merged']} more crossing(s) within 0.5 mm folded in)"
-    return text
+    return text + _solve_said(f.get("field_solve"))
+
+
+def _solve_said(fs):
+    if not fs:
+        return ""
+    if fs.get("added_inductance_nH") is None:
+        return f"; field solve: {fs.get('note', 'no result')}"
+    return (
+        f"; inductance from a local field solve ({fs['grid_cells']} cells, "
+        f"{fs['seconds']:.1f} s; the closed form said {fs['closed_form_nH']:.2f} nH)"
+    )
 
 
 def _reference_change(f, s):

@@ -8,6 +8,7 @@ __all__ = [
     "summary_line",
     "notes_block",
     "layers_text",
+    "solve_text",
 ]
 
 
@@ -170,3 +171,23 @@ def layers_text(rep):
         out.append("incomplete board data (check refuses it without --allow-incomplete):")
         out += [f"  - {p}" for p in rep["problems"]]
     return "\n".join(out)
+
+
+def solve_text(f):
+    """`returngap solve`: the solved finding in a few lines."""
+    fs = f.get("field_solve") or {}
+    lines = [f"{f['id']}  {f['severity']}  {f['net']} {f['layer']} over {f['reference_layer']}"]
+    if fs.get("added_inductance_nH") is None:
+        lines.append(f"not solved: {fs.get('note', '')}")
+    else:
+        lines.append(
+            f"added inductance {fs['added_inductance_nH']:.2f} nH by field solve "
+            f"(closed form {fs['closed_form_nH']:.2f} nH); reflection "
+            f"{100 * f['reflection_fraction']:.1f} % at {f['rise_time_ns']:g} ns"
+        )
+        lines.append(
+            f"grid {fs['grid_cells']} cells, {fs['unknowns']} unknowns, "
+            f"window {fs['window_mm'][0]:.1f} x {fs['window_mm'][1]:.1f} mm, {fs['seconds']:.1f} s"
+        )
+    lines.append(f["message"])
+    return "\n".join(lines)

@@ -4,7 +4,15 @@ import dataclasses
 from dataclasses import dataclass
 
 from returngap import report
-from returngap.analysis import completeness, connectivity, gaps, grouping, references, stackup
+from returngap.analysis import (
+    completeness,
+    connectivity,
+    fieldsolve,
+    gaps,
+    grouping,
+    references,
+    stackup,
+)
 from returngap.checks import (
     edge_run,
     floating,
@@ -31,6 +39,7 @@ class CheckResult:
     settings: object
     status: str = completeness.COMPLETE
     problems: list = ()
+    inputs: dict = None  # what was read: {"sources": [...], "stackup_file": ...}
 
 
 def read_board(sources, stackup_file=None, scratch=None, workers=0):
@@ -94,7 +103,12 @@ def run_check(sources, stackup_file=None, settings=None, scratch=None, workers=0
     problems = board.problems + completeness.analysis_problems(board, planes, chains, settings)
     status = completeness.enforce(board, problems, settings.allow_incomplete)
     findings = _findings(board, nets, refs, chains, settings, runner)
-    return CheckResult(board, nets, refs, planes, chains, findings, settings, status, problems)
+    if settings.field_solves:
+        findings = fieldsolve.solve_nearest(board, nets, chains, findings, settings)
+    inputs = {"sources": [str(s) for s in sources], "stackup_file": stackup_file}
+    return CheckResult(
+        board, nets, refs, planes, chains, findings, settings, status, problems, inputs
+    )
 
 
 def _findings(board, nets, refs, chains, settings, runner):
