@@ -14,7 +14,11 @@ CORPUS = ROOT.parent / "shared" / "corpus"
 sys.path.insert(0, str(HERE))
 
 REL, ABS = 1e-6, 1e-6  # float tolerance: any real change of a number is far larger
-VOLATILE = {"source", "tool_version", "inputs"}  # paths and versions differ between machines and releases
+VOLATILE = {
+    "source",
+    "tool_version",
+    "inputs",
+}  # paths and versions differ between machines and releases
 
 
 def _synthetic(build):

@@ -105,7 +105,11 @@ def run_check(sources, stackup_file=None, settings=None, scratch=None, workers=0
     findings = _findings(board, nets, refs, chains, settings, runner)
     if settings.field_solves:
         findings = fieldsolve.solve_nearest(board, nets, chains, findings, settings)
-    inputs = {"sources": [str(s) for s in sources], "stackup_file": stackup_file}
+    given = sources if isinstance(sources, (list, tuple)) else [sources]
+    inputs = {
+        "sources": [str(s) for s in given],
+        "stackup_file": None if stackup_file is None else str(stackup_file),
+    }
     return CheckResult(
         board, nets, refs, planes, chains, findings, settings, status, problems, inputs
     )
