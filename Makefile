@@ -3,7 +3,7 @@ PYTHON ?= $(shell for p in python3.12 $$(ls -d /root/.pyenv/versions/3.12*/bin/p
 VENV := .venv
 BIN := $(VENV)/bin
 
-.PHONY: venv demo test bench corpus fuzz golden clean
+.PHONY: venv demo test bench calibrate corpus fuzz golden clean
 
 $(BIN)/returngap: pyproject.toml
 	@test -n "$(PYTHON)" || { echo "error: Python 3.12 or newer not found (set PYTHON=...)"; exit 2; }
@@ -34,6 +34,9 @@ fuzz: venv
 
 bench: venv
 	$(BIN)/python benchmarks/run.py
+
+calibrate: venv  # rewrites testdata/slot-calibration.csv: the field-solve sweep the closed form is fitted to
+	$(BIN)/python benchmarks/calibrate_slot.py
 
 clean:
 	rm -rf $(VENV) out

@@ -57,7 +57,7 @@ def test_fail_on_never_and_warning(tmp_path):
     assert (
         run("check", DEMO, "--nets", "SD_*", "--fail-on", "warning").exit_code == 0
     )  # an info only
-    assert run("check", DEMO, "--nets", "SPI_*", "--fail-on", "warning").exit_code == 1
+    assert run("check", DEMO, "--nets", "RMII_*", "--fail-on", "warning").exit_code == 1
 
 
 def test_rise_time_and_max_freq_are_exclusive():
