@@ -440,7 +440,9 @@ class _GapScan:
         s_from, s_to = max(0.0, s_from), min(ch.line.length, s_to)
         n = int(min(200, max(5, (s_to - s_from) / 0.1)))
         pts = shapely.points(coords_along(ch.line, np.linspace(s_from, s_to, n)))
-        pt, k = rc.void_tree.query(pts, predicate="intersects")
+        pt, k = rc.void_tree.query(pts)  # boxes, then the prepared voids (the tree's own test
+        hit = shapely.intersects(rc.void_geoms[k], pts[pt])  # would walk a large void's edges)
+        pt, k = pt[hit], k[hit]
         if not len(pt):
             return True
         limit = self.settings.min_gap_length_mm
@@ -979,7 +981,16 @@ def _gap_estimate(board, ch, ref, settings, slot_len, width, ends, split=False):
 
 def _other_returns(board, ch, ref, settings, ways, ev, crossed, span, share, e):
     """The estimate where the return need not go round the gap: the other plane of a stripline
-    whole under the crossing, or plane copper of the track's own layer beside it (coplanar)."""
+    whole under the crossing, or plane copper of the track's own layer beside it (coplanar). The
+    return takes the way of least inductance (the ways are in parallel), so another way is taken
+    only where it adds less; below the noise floor already, no other way is looked for."""
+    if e["est"] < settings.min_added_nH and not settings.show_all:
+        return e
+    alt = _other_way(board, ch, ref, settings, ways, ev, crossed, span, share, e)
+    return alt if alt is not None and alt["est"] < e["est"] else e
+
+
+def _other_way(board, ch, ref, settings, ways, ev, crossed, span, share, e):
     whole, beside = ways if ways is not None else (None, None)
     over = (crossed[1] - crossed[0]) if ev == "cross" else (span[1] - span[0]) * min(1.0, share)
     if whole is not None and whole(span[0], span[1]):
@@ -993,7 +1004,7 @@ def _other_returns(board, ch, ref, settings, ways, ev, crossed, span, share, e):
     )
     if gaps_beside is not None:
         return _coplanar_estimate(board, ch, ref, settings, over, gaps_beside, e)
-    return e
+    return None
 
 
 def _coplanar_estimate(board, ch, ref, settings, over_mm, gaps_beside, e):
