@@ -1,6 +1,11 @@
-"""Sweep of the field solve over rectangular slots (D 5-50 mm, s 0.2-2 mm, h 0.1-1.6 mm, centred
-and off-centre crossings) against the slot-stub closed form: the data the closed form's
-calibration and range come from. Writes testdata/slot-calibration.csv (make calibrate)."""
+"""Sweeps of the field solve over rectangular slots against the slot-stub closed form: the data
+the closed form's calibration and range come from (make calibrate).
+
+- testdata/slot-calibration.csv: one plane; D 5-50 mm, s 0.2-2 mm, h 0.1-1.6 mm (w = 1.9 h),
+  crossed at the middle and at a fifth of the length.
+- testdata/slot-calibration-below.csv: the same slot with a whole plane 0.2-1.6 mm under the
+  slotted one (joined to nothing in the window), against the one-plane solve.
+"""
 
 import csv
 import itertools
@@ -11,11 +16,10 @@ from pathlib import Path
 from returngap import physics
 from returngap.physics import peec
 
-OUT = Path(__file__).resolve().parent.parent / "testdata" / "slot-calibration.csv"
+TESTDATA = Path(__file__).resolve().parent.parent / "testdata"
 
 
-def main():
-    rows = []
+def one_plane():
     for d, s, h, pos in itertools.product(
         (5, 10, 24, 50), (0.2, 0.5, 1.0, 2.0), (0.1, 0.2, 0.5, 1.6), (0.5, 0.2)
     ):
@@ -26,25 +30,65 @@ def main():
         t = time.perf_counter()
         solved, cells, _ = peec.rect_slot_added_inductance(d, s, h, w, offset_mm=d / 2 - l1)
         stub = physics.slot_stub_inductance_nH(l1, d - l1, s, strip_width_mm=d / 2)
-        rows.append(
-            dict(
-                D=d,
-                s=s,
-                h=h,
-                w=w,
-                l1=l1,
-                solved_nH=round(solved, 4),
-                stub_nH=round(stub, 4),
-                cells=cells,
-                seconds=round(time.perf_counter() - t, 1),
-            )
+        yield dict(
+            D=d,
+            s=s,
+            h=h,
+            w=w,
+            l1=l1,
+            solved_nH=round(solved, 4),
+            stub_nH=round(stub, 4),
+            cells=cells,
+            seconds=round(time.perf_counter() - t, 1),
         )
-        print(rows[-1], file=sys.stderr, flush=True)
-    with OUT.open("w", newline="") as fh:
+
+
+def plane_below():
+    for d, s, h, below, pos in itertools.product(
+        (5, 10, 24, 50), (0.2, 1.0), (0.1, 0.2, 0.5), (0.2, 0.5, 1.0, 1.6), (0.5, 0.2)
+    ):
+        if s > d / 4 or (pos != 0.5 and s != 1.0):
+            continue
+        w = round(1.9 * h, 3)
+        l1 = pos * d
+        t = time.perf_counter()
+        one, cells, _ = peec.rect_slot_added_inductance(d, s, h, w, offset_mm=d / 2 - l1)
+        two, _, _ = peec.rect_slot_added_inductance(
+            d, s, h, w, offset_mm=d / 2 - l1, below_mm=below
+        )
+        yield dict(
+            D=d,
+            s=s,
+            h=h,
+            w=w,
+            l1=l1,
+            below=below,
+            one_plane_nH=round(one, 4),
+            solved_nH=round(two, 4),
+            cells=cells,
+            seconds=round(time.perf_counter() - t, 1),
+        )
+
+
+def write(rows, name):
+    rows = list(rows)
+    with (TESTDATA / name).open("w", newline="") as fh:
         wr = csv.DictWriter(fh, fieldnames=list(rows[0]))
         wr.writeheader()
         wr.writerows(rows)
 
 
+def main(which=("one", "below")):
+    def logged(rows):
+        for r in rows:
+            print(r, file=sys.stderr, flush=True)
+            yield r
+
+    if "one" in which:
+        write(logged(one_plane()), "slot-calibration.csv")
+    if "below" in which:
+        write(logged(plane_below()), "slot-calibration-below.csv")
+
+
 if __name__ == "__main__":
-    main()
+    main(sys.argv[1:] or ("one", "below"))

@@ -55,6 +55,9 @@ class CrossingSolve:
     seconds: float
     window_mm: list  # [width along the track, height across it]
     note: str = ""
+    second_plane: str | None = None  # the other sheet solved with it (a layer name)
+    # a closed slot: the share of the solved return that goes round the end nearer the crossing
+    hf_share_near: float | None = None
 
 
 def _tangent_at(chains, net, layer, x, y):
@@ -136,64 +139,127 @@ def _mask(geom, xs, ys):
     return shapely.contains_xy(geom, gx, gy)
 
 
-def solve_crossing(board, nets, chains, finding):
-    """The field solve of one gap-crossing finding (a mapping with the GapCrossing fields)."""
+def second_plane(board, planes, finding):
+    """(layer, z_mm, role) of the second sheet of a crossing's solve, or None: a stripline's
+    other plane (above the trace, sharing the return), else the nearest plane layer beyond the
+    reference, away from the track (closed currents only, as it is joined to the reference
+    plane only through stitching vias outside the model)."""
+    names = [c.name for c in board.copper]
+    ref, h = finding["reference_layer"], finding["height_mm"]
+    if finding["line_type"] == "stripline":
+        others = [n for n in names if n not in (ref, finding["layer"]) and planes.get(n)]
+        i = names.index(finding["layer"])
+        side = [n for n in others if (names.index(n) - i) * (names.index(ref) - i) < 0]
+        if side:
+            other = min(side, key=lambda n: abs(names.index(n) - i))
+            return other, h + board.stackup.height_mm(finding["layer"], other), "shared"
+        return None
+    step = 1 if names.index(ref) > names.index(finding["layer"]) else -1
+    k = names.index(ref) + step
+    while 0 <= k < len(names):
+        if planes.get(names[k]):
+            return names[k], -board.stackup.height_mm(ref, names[k]), "eddy"
+        k += step
+    return None
+
+
+@dataclass
+class _Window:
+    """The solve's frame: the crossing at the origin, the track along +x."""
+
+    x: float
+    y: float
+    angle: float
+    box: tuple
+
+    def local(self, geom):
+        return _to_local(geom, self.x, self.y, self.angle)
+
+    def clip(self, geom):
+        """geom's part in the window, in local coordinates."""
+        back = shapely.affinity.rotate(shapely.box(*self.box), self.angle, origin=(0, 0))
+        return self.local(geom.intersection(shapely.affinity.translate(back, self.x, self.y)))
+
+
+def solve_crossing(board, nets, chains, finding, planes=None):
+    """The field solve of one gap-crossing finding (a mapping with the GapCrossing fields);
+    planes: {layer: carries a plane} for the second sheet (none without it)."""
     t0 = time.perf_counter()
     x, y = finding["x_mm"], finding["y_mm"]
     ux, uy = _tangent_at(chains, finding["net"], finding["layer"], x, y)
-    angle = math.degrees(math.atan2(uy, ux))
-    ref_layer = finding["reference_layer"]
-    plane = nets.layers[ref_layer].union_of(nets.plane_nets)
+    plane = nets.layers[finding["reference_layer"]].union_of(nets.plane_nets)
     d = max(finding["gap_length_mm"], 1.0)
     margin = min(WINDOW_MARGIN * d, MAX_MARGIN_MM)
-    gap = _gap_polygon(plane, board.outline, x, y, d + margin)
-    gap_local = _to_local(gap, x, y, angle)
+    win = _Window(x, y, math.degrees(math.atan2(uy, ux)), ())
+    gap_local = win.local(_gap_polygon(plane, board.outline, x, y, d + margin))
     gx0, gy0, gx1, gy1 = gap_local.bounds
-    box = (
-        min(gx0, 0.0) - margin,
-        min(gy0, 0.0) - margin,
-        max(gx1, 0.0) + margin,
-        max(gy1, 0.0) + margin,
-    )
-    window = shapely.box(*box)
-    # the window in board coordinates, so only the copper near it is turned
-    back = shapely.affinity.translate(shapely.affinity.rotate(window, angle, origin=(0, 0)), x, y)
-    plane_local = _to_local(plane.intersection(back), x, y, angle)
-    box = _along_copper(box, plane_local.union(gap_local))
+    win.box = (min(gx0, 0.0) - margin, min(gy0, 0.0) - margin)
+    win.box += (max(gx1, 0.0) + margin, max(gy1, 0.0) + margin)
+    plane_local = win.clip(plane)
+    win.box = _along_copper(win.box, plane_local.union(gap_local))
     w, h = finding["trace_width_mm"], finding["height_mm"]
-    xs, ys, coarse = _grid(gap_local, w, h, box)
+    xs, ys, coarse = _grid(gap_local, w, h, win.box)
     copper = _mask(plane_local, xs, ys)
     filled = copper | _mask(gap_local, xs, ys)
-    return _solve(xs, ys, copper, filled, w, h, box, coarse, t0)
+    extra = second_plane(board, planes or {}, finding)
+    sheets = []
+    if extra is not None:
+        other = win.clip(nets.layers[extra[0]].union_of(nets.plane_nets))
+        sheets = [peec.Sheet(_mask(other, xs, ys), extra[1], extra[2])]
+    result = _solve(xs, ys, copper, filled, sheets, (w, h), coarse)
+    result.window_mm = [win.box[2] - win.box[0], win.box[3] - win.box[1]]
+    if result.hf_share_near is not None:  # the near end: the one nearer the crossing
+        low_is_near = -gap_local.bounds[1] <= gap_local.bounds[3]
+        result.hf_share_near = result.hf_share_near if low_is_near else 1 - result.hf_share_near
+    result.second_plane = extra[0] if extra else None
+    result.seconds = time.perf_counter() - t0
+    return result
 
 
-def _solve(xs, ys, copper, filled, w, h, box, coarse, t0):
+def _solve(xs, ys, copper, filled, sheets, trace, coarse):
+    w, h = trace
     note = f"grid coarsened {coarse:.2f}x to fit {MAX_CELLS} cells" if coarse > 1 else ""
     op = peec.PlaneOperator(xs, ys)
     strips = peec.trace_strips(xs[0], xs[-1], w)
     mt = op.trace_mutual(strips, h)
     lt = peec.strip_matrix(strips, h)
-    ref = peec.loop_inductance(op, filled, strips, h, lt, mt)
+    ref = peec.loop_inductance(op, [peec.Sheet(filled)] + sheets, strips, h, lt, mt)
     try:
-        gap = peec.loop_inductance(op, copper, strips, h, lt, mt)
+        gap = peec.loop_inductance(op, [peec.Sheet(copper)] + sheets, strips, h, lt, mt)
         dl, loop = gap.loop_nH - ref.loop_nH, gap.loop_nH
+        share_low = _share_round_low_end(xs, ys, copper, gap.psi)
     except peec.NoReturnPath:
         dl, loop, note = None, None, "no return path in the window: the gap splits it"
+        share_low = None
     return CrossingSolve(
         added_inductance_nH=dl,
         loop_with_gap_nH=loop,
         loop_filled_nH=ref.loop_nH,
         grid_cells=int(copper.size),
         unknowns=int(ref.unknowns),
-        seconds=time.perf_counter() - t0,
-        window_mm=[box[2] - box[0], box[3] - box[1]],
+        seconds=0.0,
+        window_mm=[],
         note=note,
+        hf_share_near=share_low,  # the caller turns it to the near end's
     )
+
+
+def _share_round_low_end(xs, ys, copper, psi):
+    """The share of the return passing the gap's -y end: the stream value is one number all over
+    a gap, so what flows between it and the window's bottom edge goes round that end."""
+    i = int(np.clip(np.searchsorted(xs, 0.0) - 1, 0, len(xs) - 2))
+    j = int(np.clip(np.searchsorted(ys, 0.0) - 1, 0, len(ys) - 2))
+    if copper[i, j]:
+        return None  # the crossing point is on copper: no gap here to split round
+    ny = len(ys) - 1
+    bottom, top, inside = psi[i * (ny + 1)], psi[i * (ny + 1) + ny], psi[i * (ny + 1) + j]
+    total = top - bottom
+    return float((inside - bottom) / total) if abs(total) > 1e-12 else None
 
 
 def as_fields(solve):
     """The solve as the finding's `field_solve` mapping (units in the names)."""
-    return {k: v for k, v in dataclasses.asdict(solve).items() if v != ""}
+    return {k: v for k, v in dataclasses.asdict(solve).items() if v not in ("", None)}
 
 
 def nearest_budget(findings, settings, n):
@@ -225,8 +291,12 @@ def with_solve(finding, solve, settings):
     refl = physics.series_inductance_reflection(est, finding["z0_ohm"], finding["rise_time_ns"])
     knee = settings.knee_GHz_for(finding["net"])
     lowest = min(finding["resonance_range_GHz"])
+    split = finding.get("return_split")
+    if split and solve.hf_share_near is not None:  # the solved currents replace the two strips
+        split = {**split, "hf_share_near": solve.hf_share_near, "hf_method": "field-solve"}
     return dataclasses.replace(
         finding,
+        return_split=split if split else finding.return_split,
         added_inductance_nH=est,
         added_inductance_range_nH=[SOLVE_LOW * est, SOLVE_HIGH * est],
         inductance_method="field-solve",
@@ -238,16 +308,20 @@ def with_solve(finding, solve, settings):
     )
 
 
-def solve_nearest(board, nets, chains, findings, settings):
+def solve_nearest(board, nets, chains, findings, settings, planes=None):
     """The findings, the settings.field_solves crossings nearest the budget solved."""
     chosen = {id(f) for f in nearest_budget(findings, settings, settings.field_solves)}
-    return [solve_one(board, nets, chains, f, settings) if id(f) in chosen else f for f in findings]
+    return [
+        solve_one(board, nets, chains, f, settings, planes) if id(f) in chosen else f
+        for f in findings
+    ]
 
 
-def solve_one(board, nets, chains, finding, settings):
+def solve_one(board, nets, chains, finding, settings, planes=None):
     """The finding solved; where it cannot be, the closed form kept and the reason said."""
     try:
-        return with_solve(finding, solve_crossing(board, nets, chains, finding), settings)
+        solved = solve_crossing(board, nets, chains, finding, planes)
+        return with_solve(finding, solved, settings)
     except (LookupError, peec.NoReturnPath) as e:  # the closed form stays, the reason is said
         note = {"note": f"not solved: {e}", "closed_form_nH": finding["added_inductance_nH"]}
         return dataclasses.replace(finding, field_solve=note)

@@ -36,6 +36,7 @@ __all__ = [
     "window_nodes",
     "rect_slot_added_inductance",
     "NoReturnPath",
+    "Sheet",
     "PlaneOperator",
 ]
 
@@ -160,13 +161,14 @@ def _fill_block(rows, cols, z=0.0):
     return out
 
 
-def _partial_matrix(tapes):
-    """Dense partial-inductance matrix (nH) of parallel tapes in one plane, filled by blocks."""
+def _partial_matrix(tapes, z=0.0):
+    """Dense partial-inductance matrix (nH) of parallel tapes of one grid, in one plane or in two
+    planes z apart (the same grid in both), filled by blocks."""
     n = len(tapes[0])
     m = np.empty((n, n))
     for s in range(0, n, BLOCK_ROWS):  # the upper triangle by blocks, mirrored (M is symmetric)
         e = s + BLOCK_ROWS
-        block = _fill_block(tuple(v[s:e] for v in tapes), tuple(v[s:] for v in tapes))
+        block = _fill_block(tuple(v[s:e] for v in tapes), tuple(v[s:] for v in tapes), z)
         m[s:e, s:] = block
         m[s:, s:e] = block.T
     return m
@@ -183,6 +185,31 @@ class PlaneOperator:
         self.lxx = _partial_matrix(self.xb)
         # a y-directed cell is an x-directed one with the axes swapped
         self.lyy = _partial_matrix((self.yb[2], self.yb[3], self.yb[0], self.yb[1]))
+        self._between = {}
+        self._vertex = {}
+        self.dx, self.dy, self.xe, self.ye = _incidence(*self.grid.shape)
+
+    def coupling(self, z_mm):
+        """(x-x, y-y) partial inductances between the cells of two sheets z_mm apart (0: one
+        sheet with itself), each pair of sheets' matrices built once."""
+        if z_mm == 0.0:
+            return self.lxx, self.lyy
+        if z_mm not in self._between:
+            xb, yb = self.xb, self.yb
+            self._between[z_mm] = (
+                _partial_matrix(xb, z_mm),
+                _partial_matrix((yb[2], yb[3], yb[0], yb[1]), z_mm),
+            )
+        return self._between[z_mm]
+
+    def vertex_matrix(self, z_mm):
+        """K = Dx.T Lxx Dx + Dy.T Lyy Dy: the energy form over vertex stream values of two
+        sheets z_mm apart (0: one sheet), built once per distance."""
+        if z_mm not in self._vertex:
+            lxx, lyy = self.coupling(z_mm)
+            dx, dy = self.dx.tocsc(), self.dy.tocsc()
+            self._vertex[z_mm] = _sandwich(dx, lxx) + _sandwich(dy, lyy)
+        return self._vertex[z_mm]
 
     def trace_mutual(self, strips, height_mm):
         """Mutual inductance (nH) of each x-branch with each trace sub-strip (x0, x1, y0, y1)."""
@@ -236,72 +263,162 @@ class SolveResult:
 
     loop_nH: float
     trace_shares: np.ndarray
-    x_currents: np.ndarray  # per x-branch (A, for 1 A in the loop; the return is negative)
+    x_currents: np.ndarray  # per x-branch of the first sheet (A, for 1 A; the return is < 0)
     y_currents: np.ndarray
     unknowns: int
+    psi: np.ndarray = None  # the first sheet's stream value per vertex (i * (ny + 1) + j)
 
 
 class NoReturnPath(ValueError):
     """The copper in the window joins neither side to the other: no return path in it."""
 
 
-def loop_inductance(op, copper, strips, height_mm, lt=None, mt=None):
-    """Loop inductance (nH) of the trace strips over the grid's copper mask, per unit current,
-    without the two end connections (they are the same for any mask and cancel in a
-    difference). The return flows in -x in the plane, the trace current in +x."""
+@dataclass
+class Sheet:
+    """One conducting sheet on the operator's grid: its copper, its height relative to the first
+    sheet (negative: below it) and its part in the loop: "return" (the reference plane: the
+    trace's return enters and leaves it at the window's ends), "shared" (the other plane of a
+    stripline: joined to the same ends, its share of the return solved) or "eddy" (a plane
+    joined to nothing in the window: only closed currents, induced)."""
+
+    copper: np.ndarray
+    z_mm: float = 0.0
+    role: str = "return"
+
+
+def loop_inductance(op, sheets, strips, height_mm, lt=None, mt=None):
+    """Loop inductance (nH) of the trace strips (height_mm above the first sheet) over the
+    sheets, per unit current, without the two end connections (they are the same for any mask
+    and cancel in a difference). The trace current flows in +x, the return in -x. `sheets`: a
+    list of Sheet, or one copper mask (a single return sheet)."""
+    if isinstance(sheets, np.ndarray):
+        sheets = [Sheet(sheets)]
     nx, ny = op.grid.shape
-    dx, dy, xe, ye = _incidence(nx, ny)
+    maps = _stream_maps(sheets, nx, ny, op.xe, op.ye)
+    lt = strip_matrix(strips, height_mm) if lt is None else lt
+    mts = [
+        mt if (mt is not None and sh.z_mm == 0.0) else op.trace_mutual(strips, height_mm - sh.z_mm)
+        for sh in sheets
+    ]
+    return _minimise(op, sheets, maps, mts, lt)
+
+
+def _labels(copper, nx, ny, xe, ye, eddy):
+    """Vertex groups of one sheet: the two vertices of a branch with no copper on one side are
+    one group; the bottom edge is one group, the top edge another (all four edges one, for a
+    sheet joined to nothing)."""
     bx, by = _blocked(copper)
     n_vert = (nx + 1) * (ny + 1)
-    ties = np.concatenate([np.stack(xe)[:, bx], np.stack(ye)[:, by]], axis=1)
     bottom = np.arange(nx + 1) * (ny + 1)
     top = bottom + ny
-    chain = np.concatenate(
-        [np.stack([bottom[:-1], bottom[1:]]), np.stack([top[:-1], top[1:]])], axis=1
-    )
-    edges = np.concatenate([ties, chain], axis=1)
+    rim = [bottom, top]
+    if eddy:
+        rim = [
+            np.concatenate(
+                [bottom, top[::-1], np.arange(ny + 1), nx * (ny + 1) + np.arange(ny + 1)]
+            )
+        ]
+    chains = [np.stack([r[:-1], r[1:]]) for r in rim]
+    edges = np.concatenate([np.stack(xe)[:, bx], np.stack(ye)[:, by], *chains], axis=1)
     g = scipy.sparse.coo_matrix((np.ones(edges.shape[1]), edges), shape=(n_vert, n_vert))
-    _, label = scipy.sparse.csgraph.connected_components(g, directed=False)
-    lb, lt_ = label[bottom[0]], label[top[0]]
-    if lb == lt_:
+    return scipy.sparse.csgraph.connected_components(g, directed=False)[1], bottom[0], top[0]
+
+
+def _stream_maps(sheets, nx, ny, xe, ye):
+    """Per sheet (P, psi0): its vertex stream values are P @ unknowns + psi0. The return
+    sheet's top edge is at -1 (the whole return crossing any line across the window); with a
+    shared sheet, a share g moves to it: its top at -g, the return sheet's at -1 + g."""
+    labs = [_labels(sh.copper, nx, ny, xe, ye, sh.role == "eddy") for sh in sheets]
+    open_ = [
+        sh.role != "eddy" and lab[lab_b] != lab[lab_t]
+        for sh, (lab, lab_b, lab_t) in zip(sheets, labs)
+    ]
+    if not any(open_):
         raise NoReturnPath("no copper joins the window's two ends")
-    psi0 = np.where(label == lt_, -1.0, 0.0)
-    free = np.unique(label[(label != lb) & (label != lt_)])
-    col = np.full(label.max() + 1, -1)
-    col[free] = np.arange(len(free))
-    rows = np.nonzero(col[label] >= 0)[0]
-    p = scipy.sparse.csr_matrix(
-        (np.ones(len(rows)), (rows, col[label[rows]])), shape=(n_vert, len(free))
+    carriers = [k for k, o in enumerate(open_) if o]
+    ncol = 0
+    cols = []
+    for lab, lab_b, lab_t in labs:
+        free = np.unique(lab[(lab != lab[lab_b]) & (lab != lab[lab_t])])
+        col = np.full(lab.max() + 1, -1)
+        col[free] = ncol + np.arange(len(free))
+        ncol += len(free)
+        cols.append(col)
+    share_col = ncol if len(carriers) > 1 else None
+    ncol += share_col is not None
+    maps = []
+    for k, (lab, _, lab_t) in enumerate(labs):
+        rows = np.nonzero(cols[k][lab] >= 0)[0]
+        entries = [(rows, cols[k][lab[rows]], np.ones(len(rows)))]
+        top = np.nonzero(lab == lab[lab_t])[0]
+        psi0 = np.zeros(len(lab))
+        if k == carriers[0]:
+            psi0[top] = -1.0
+        if share_col is not None and k in carriers:
+            sign = 1.0 if k == carriers[0] else -1.0
+            entries.append((top, np.full(len(top), share_col), np.full(len(top), sign)))
+        r, c, v = (np.concatenate(e) for e in zip(*entries))
+        maps.append((scipy.sparse.csr_matrix((v, (r, c)), shape=(len(lab), ncol)), psi0))
+    return maps
+
+
+def _sandwich(p, k, q=None):
+    """p.T @ k @ q for sparse p, q and a dense symmetric k (q defaults to p), by two sparse
+    products (k = k.T spares a transposed copy)."""
+    q = p if q is None else q
+    left = np.ascontiguousarray((p.T @ k).T)  # k @ p, columns by rows: k symmetric
+    return np.asarray(q.T @ left).T if q is not p else np.asarray(p.T @ left)
+
+
+def _minimise(op, sheets, maps, mts, lt):
+    """Least magnetic energy over the sheets' stream values, in vertex space: the vertex
+    matrices K = D.T L D of the grid (one per distance between sheets, kept by the operator)
+    carry every partial inductance; a mask only merges vertices (maps)."""
+    n = len(sheets)
+    kk = {
+        (i, j): op.vertex_matrix(abs(sheets[i].z_mm - sheets[j].z_mm))
+        for i in range(n)
+        for j in range(n)
+    }
+    ps = [p.tocsc() for p, _ in maps]
+    psi0 = [v for _, v in maps]
+    mv = [op.dx.T @ m for m in mts]  # trace mutual per vertex value
+    a = sum(
+        _sandwich(ps[i], kk[i, j], ps[j]) if i != j else _sandwich(ps[i], kk[i, i])
+        for i in range(n)
+        for j in range(n)
     )
-    return _minimise(op, dx, dy, p, psi0, strips, height_mm, lt, mt)
-
-
-def _minimise(op, dx, dy, p, psi0, strips, height_mm, lt, mt):
-    bx, by = (dx @ p).tocsc(), (dy @ p).tocsc()
-    ix0, iy0 = dx @ psi0, dy @ psi0
-    a = (bx.T @ (bx.T @ op.lxx).T).T + (by.T @ (by.T @ op.lyy).T).T
-    mt = op.trace_mutual(strips, height_mm) if mt is None else mt
-    lt = strip_matrix(strips, height_mm) if lt is None else lt
-    b0 = bx.T @ (op.lxx @ ix0) + by.T @ (op.lyy @ iy0)
-    bm = bx.T @ mt
-    factor = scipy.linalg.cho_factor(a, lower=True, check_finite=False)
-    sol = scipy.linalg.cho_solve(factor, np.column_stack([b0, bm]), check_finite=False)
-    # plane currents as an affine function of the strip currents t: I = i0 + G t
-    i0x, i0y = ix0 - bx @ sol[:, 0], iy0 - by @ sol[:, 0]
-    gx, gy = -(bx @ sol[:, 1:]), -(by @ sol[:, 1:])
-    lgx, li0x = op.lxx @ gx, op.lxx @ i0x
-    q = gx.T @ lgx + (gy.T @ (op.lyy @ gy)) + gx.T @ mt + mt.T @ gx + lt
-    c = gx.T @ li0x + gy.T @ (op.lyy @ i0y) + mt.T @ i0x
-    e0 = 0.5 * (i0x @ li0x + i0y @ (op.lyy @ i0y))
+    k0 = [sum(kk[i, j] @ psi0[j] for j in range(n)) for i in range(n)]
+    b0 = sum(ps[i].T @ k0[i] for i in range(n))
+    bm = sum(ps[i].T @ mv[i] for i in range(n))
+    sol = _spd_solve(a, np.column_stack([b0, bm]))
+    # stream values as an affine function of the strip currents t: psi = v0 + V t
+    v0 = [psi0[i] - ps[i] @ sol[:, 0] for i in range(n)]
+    vt = [-(ps[i] @ sol[:, 1:]) for i in range(n)]
+    kv0 = [sum(kk[i, j] @ v0[j] for j in range(n)) for i in range(n)]
+    kvt = [sum(kk[i, j] @ vt[j] for j in range(n)) for i in range(n)]
+    q = lt + sum(vt[i].T @ kvt[i] + vt[i].T @ mv[i] + mv[i].T @ vt[i] for i in range(n))
+    c = sum(vt[i].T @ kv0[i] + mv[i].T @ v0[i] for i in range(n))
+    e0 = 0.5 * sum(v0[i] @ kv0[i] for i in range(n))
     t = _shares(q, c)
     energy = 0.5 * t @ q @ t + c @ t + e0
+    psi = v0[0] + vt[0] @ t
     return SolveResult(
         loop_nH=float(2.0 * energy),
         trace_shares=t,
-        x_currents=i0x + gx @ t,
-        y_currents=i0y + gy @ t,
+        x_currents=op.dx @ psi,
+        y_currents=op.dy @ psi,
         unknowns=a.shape[0],
+        psi=psi,
     )
+
+
+def _spd_solve(a, rhs):
+    """a x = rhs for a symmetric positive definite a: Cholesky, then two triangular solves
+    (scipy's cho_solve copies and checks more than its work for a few right-hand sides)."""
+    low = scipy.linalg.cho_factor(a, lower=True, overwrite_a=True, check_finite=False)[0]
+    y = scipy.linalg.solve_triangular(low, rhs, lower=True, check_finite=False)
+    return scipy.linalg.solve_triangular(low, y, lower=True, trans="T", check_finite=False)
 
 
 def _shares(q, c):
@@ -331,14 +448,18 @@ def trace_strips(x0, x1, width_mm, n=5, centre_y=0.0):
     return [(x0, x1, float(a), float(b)) for a, b in zip(edges[:-1], edges[1:])]
 
 
-def crossing_added_inductance(grid_xs, grid_ys, copper_gap, copper_filled, width_mm, height_mm):
-    """(ΔL nH, loop with the gap, loop filled, unknowns): one operator, two masks."""
+def crossing_added_inductance(
+    grid_xs, grid_ys, copper_gap, copper_filled, width_mm, height_mm, others=()
+):
+    """(ΔL nH, loop with the gap, loop filled, unknowns): one operator, two masks of the
+    reference sheet, the other sheets (Sheet) the same in both."""
     op = PlaneOperator(grid_xs, grid_ys)
     strips = trace_strips(grid_xs[0], grid_xs[-1], width_mm)
     mt = op.trace_mutual(strips, height_mm)
     lt = strip_matrix(strips, height_mm)
-    filled = loop_inductance(op, copper_filled, strips, height_mm, lt, mt)
-    gap = loop_inductance(op, copper_gap, strips, height_mm, lt, mt)
+    others = list(others)
+    filled = loop_inductance(op, [Sheet(copper_filled)] + others, strips, height_mm, lt, mt)
+    gap = loop_inductance(op, [Sheet(copper_gap)] + others, strips, height_mm, lt, mt)
     return gap.loop_nH - filled.loop_nH, gap, filled, gap.unknowns
 
 
@@ -349,11 +470,12 @@ def window_nodes(x_feats, y_feats, box, growth=0.3):
 
 
 def rect_slot_added_inductance(
-    length_mm, width_mm, height_mm, trace_mm, offset_mm=0.0, margin=1.5, fine=1.0
+    length_mm, width_mm, height_mm, trace_mm, offset_mm=0.0, margin=1.5, fine=1.0, below_mm=None
 ):
     """ΔL (nH) and grid of a trace crossing a rectangular slot in an unbounded plane at right
-    angles, `offset_mm` from the slot's middle: the analytic case the solver is checked and the
-    closed form calibrated on. Returns (ΔL, cells, unknowns)."""
+    angles, `offset_mm` from the slot's middle, with a whole plane `below_mm` under the slotted
+    one where given (joined to nothing in the window): the analytic case the solver is checked
+    and the closed form calibrated on. Returns (ΔL, cells, unknowns)."""
     d, s, h, w = length_mm, width_mm, height_mm, trace_mm
     lo, hi = -d / 2 - offset_mm, d / 2 - offset_mm
     fx, fy, fe = min(s, h) / 4 * fine, min(w, h) / 4 * fine, min(s, h) / 2 * fine
@@ -365,5 +487,6 @@ def rect_slot_added_inductance(
     )
     cx, cy = 0.5 * (xs[1:] + xs[:-1]), 0.5 * (ys[1:] + ys[:-1])
     gap = (np.abs(cx)[:, None] < s / 2) & ((cy > lo) & (cy < hi))[None, :]
-    dl, _, _, unknowns = crossing_added_inductance(xs, ys, ~gap, np.ones_like(gap), w, h)
+    extra = [] if below_mm is None else [Sheet(np.ones_like(gap), -below_mm, "eddy")]
+    dl, _, _, unknowns = crossing_added_inductance(xs, ys, ~gap, np.ones_like(gap), w, h, extra)
     return dl, gap.size, unknowns

@@ -104,7 +104,7 @@ def run_check(sources, stackup_file=None, settings=None, scratch=None, workers=0
     status = completeness.enforce(board, problems, settings.allow_incomplete)
     findings = _findings(board, nets, refs, chains, settings, runner)
     if settings.field_solves:
-        findings = fieldsolve.solve_nearest(board, nets, chains, findings, settings)
+        findings = fieldsolve.solve_nearest(board, nets, chains, findings, settings, planes)
     given = sources if isinstance(sources, (list, tuple)) else [sources]
     inputs = {
         "sources": [str(s) for s in given],

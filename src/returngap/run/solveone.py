@@ -45,5 +45,7 @@ def solve_from_report(report_file, finding_id, board=None):
         raise InputError(
             report_file, f"{finding_id}: only a gap crossing whose return goes round is solved"
         )
-    solved = fieldsolve.solve_one(result.board, result.nets, result.chains, f, settings)
+    solved = fieldsolve.solve_one(
+        result.board, result.nets, result.chains, f, settings, result.planes
+    )
     return report.clean(report.said(solved, settings))
