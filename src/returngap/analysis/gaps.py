@@ -1195,6 +1195,6 @@ def _gap_record(
         plane_share=ref.share,
         crossing=ev,
         detour_path_mm=[[round(a, 4), round(b, 4)] for a, b in path] if path else None,
-        slot_ends_mm=[l_closed, l_open] if enclosed and gap_type == "slot" else None,
+        slot_ends_mm=[l_closed, l_open] if gap_type == "slot" else None,
         side_nets=side_nets,
     )

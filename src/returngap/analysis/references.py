@@ -56,6 +56,9 @@ class Reference:
     plane_is_outer: bool
     plane_er_eff: float  # for slot resonance: er buried, (er+1)/2 on an outer layer
     plane_er_full: float  # the substrate's own er: the conservative (lowest-frequency) bound
+    # the next plane layer beyond this one, away from the track, and its distance from it
+    beyond_layer: str | None = None
+    beyond_mm: float | None = None
 
     @property
     def kind(self):
@@ -169,6 +172,16 @@ def _nearest_planes(names, i, planes, solid, st):
     ]
 
 
+def _beyond(names, i, ref, planes, st):
+    """(layer, distance) of the nearest plane layer past `ref`, seen from layer i; (None, None)."""
+    k = names.index(ref)
+    step = 1 if k > i else -1
+    for j in range(k + step, len(names) if step > 0 else -1, step):
+        if planes[names[j]]:
+            return names[j], st.height_mm(ref, names[j])
+    return None, None
+
+
 def find_references(board, nets, settings):
     """For each copper layer: the plane(s) its tracks return in, and which layers carry a plane."""
     planes = plane_layers(board, nets, settings)
@@ -196,6 +209,7 @@ def find_references(board, nets, settings):
                     outer,
                     (er_plane + 1) / 2 if outer else er_plane,
                     er_plane,
+                    *_beyond(names, i, r, planes, st),
                 )
             )
         out[name] = refs

@@ -19,7 +19,9 @@ def with_return_splits(board, findings, settings):
 
 def _with_split(board, f, settings):
     ends = f.get("slot_ends_mm")
-    if f["kind"] != "gap-crossing" or not ends or min(ends) <= 0 or f["return_path"] != "detour":
+    if f["kind"] != "gap-crossing" or not f["gap_enclosed"] or not ends or min(ends) <= 0:
+        return f
+    if f["return_path"] != "detour":
         return f
     near, far = sorted(ends)
     s = f["gap_width_mm"] or 0.0

@@ -124,6 +124,10 @@ class GapCrossing(Finding):
     return_split: dict = _opt()
     merged: int = _opt()  # near-duplicate crossings folded into this one
     field_solve: dict = _opt()  # the local field solve's numbers, where one was run
+    # the frequency view (analysis/frequency.py): the track's insertion loss over frequency
+    s21_first_dip_GHz: float | None = _opt()
+    s21_loss_at_knee_dB: float = _opt()
+    s21_loss_at_knee_no_gap_dB: float = _opt()
 
 
 @dataclass(kw_only=True)

@@ -49,6 +49,8 @@ class Settings:
     allow_incomplete: bool = False  # state the gate's problems instead of refusing the board
     # the local field solve (analysis/fieldsolve.py) of this many crossings nearest the budget
     field_solves: int = 0
+    # the frequency view (analysis/frequency.py) of gap crossings at or above this severity
+    frequency_view: str = "warning"  # error | warning | info | none
 
     @property
     def rise_ns(self):

@@ -1,6 +1,6 @@
 """The findings report as CSV: one row per finding, the same fields as the JSON."""
 
-__all__ = ["CSV_FIELDS", "to_csv"]
+__all__ = ["CSV_FIELDS", "to_csv", "s_params_csv"]
 
 
 CSV_FIELDS = [
@@ -46,3 +46,18 @@ def to_csv(report):
         row["status"] = f.get("status", "")
         w.writerow({k: ("" if row.get(k) is None else row.get(k)) for k in CSV_FIELDS})
     return buf.getvalue()
+
+
+def s_params_csv(with_gap, without):
+    """A crossing's curves (scikit-rf networks) as CSV: frequency, then S21 and S11 in dB with the
+    gap and without it."""
+    rows = ["f_GHz,s21_dB,s11_dB,s21_no_gap_dB,s11_no_gap_dB"]
+    for k, f in enumerate(with_gap.frequency.f):
+        vals = (
+            with_gap.s_db[k, 1, 0],
+            with_gap.s_db[k, 0, 0],
+            without.s_db[k, 1, 0],
+            without.s_db[k, 0, 0],
+        )
+        rows.append(f"{f / 1e9:.6g}," + ",".join(f"{v:.4f}" for v in vals))
+    return "\n".join(rows) + "\n"

@@ -59,6 +59,13 @@ def _num(v, fmt):
     return "" if v is None else format(v, fmt)
 
 
+def _knee_loss(f):
+    """'with (without)' the gap, dB, where the finding has a frequency view."""
+    if f.get("s21_loss_at_knee_dB") is None:
+        return "-"
+    return f"{f['s21_loss_at_knee_dB']:.1f} ({f['s21_loss_at_knee_no_gap_dB']:.1f})"
+
+
 def _gap_section(report, e):
     """Gaps first: one row per gap, the nets that cross it and the worst of them."""
     gaps = report.get("gaps") or []
@@ -181,7 +188,7 @@ def page(report, images, overview=None):
         "id='findings'><thead><tr><th>#</th><th>severity</th>"
         "<th>kind</th><th>gap</th><th>net</th><th>layer</th><th>ref</th><th>x mm</th><th>y mm</th>"
         "<th>detour mm</th><th>cut %</th><th>added nH</th><th>res "
-        "GHz</th><th>status</th></tr></thead><tbody>"
+        "GHz</th><th>S21 dip GHz</th><th>loss at knee dB</th><th>status</th></tr></thead><tbody>"
     )
     for i, f in enumerate(report["findings"], 1):
         status = "waived" if f.get("waiver") else f.get("status", "")
@@ -196,7 +203,9 @@ def page(report, images, overview=None):
             f"<td class='n'>{_num(f.get('detour_mm'), '.2f')}</td>"
             f"<td class='n'>{_num(_pct(f.get('interrupted_fraction')), '.0f')}</td>"
             f"<td class='n'>{_num(f.get('added_inductance_nH'), '.2f')}</td>"
-            f"<td class='n'>{_num(f.get('resonance_GHz'), '.2f')}</td><td>{e(status)}</td></tr>"
+            f"<td class='n'>{_num(f.get('resonance_GHz'), '.2f')}</td>"
+            f"<td class='n'>{_num(f.get('s21_first_dip_GHz'), '.2f')}</td>"
+            f"<td class='n'>{_knee_loss(f)}</td><td>{e(status)}</td></tr>"
         )
     parts.append("</tbody></table>")
     if report.get("resolved"):

@@ -52,7 +52,18 @@ def _gap(f, s):
         )
     if f.get("merged"):
         text += f" ({f['merged']} more crossing(s) within 0.5 mm folded in)"
-    return text + _solve_said(f.get("field_solve"))
+    return text + _solve_said(f.get("field_solve")) + _frequency_said(f)
+
+
+def _frequency_said(f):
+    if f.get("s21_loss_at_knee_dB") is None:
+        return ""
+    dip = f.get("s21_first_dip_GHz")
+    return (
+        f"; predicted insertion loss at the knee {f['s21_loss_at_knee_dB']:.1f} dB "
+        f"({f['s21_loss_at_knee_no_gap_dB']:.1f} dB over a solid plane)"
+        + (f", first dip near {dip:.2f} GHz" if dip else ", no dip in range")
+    )
 
 
 def _solve_said(fs):

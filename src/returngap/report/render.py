@@ -161,9 +161,10 @@ def overview_png(result, report, path):
     plt.close(fig)
 
 
-def finding_png(result, finding, number, path):
+def finding_png(result, finding, number, path, curve=None):
     """Zoomed view of one finding: plane, gap, track, return footprint, detour path and the
-    numbers."""
+    numbers; with a frequency view (curve: f GHz, S21 dB with and without the gap), its insertion
+    loss in a small plot in a corner."""
     ref_layer = finding.get("reference_layer") or finding["layer"]
     x, y = finding["x_mm"], finding["y_mm"]
     path_pts = finding.get("detour_path_mm") or []
@@ -231,6 +232,8 @@ def finding_png(result, finding, number, path):
     _scale_bar(ax, x0, x1, y0, y1)
     fig.text(0.01, 0.01, caption, fontsize=9, family="monospace", va="bottom")
     fig.tight_layout(rect=(0, 0.07, 1, 1))
+    if curve is not None:
+        _loss_inset(fig, finding, curve)
     ax.apply_aspect()  # the box the drawing will use: the finding's pixel without drawing twice
     px, py = ax.transData.transform((x, y))
     height = fig.get_size_inches()[1] * fig.dpi
@@ -239,6 +242,24 @@ def finding_png(result, finding, number, path):
     return float(px), float(
         height - py
     )  # where the finding sits in the picture, pixels from top-left
+
+
+def _loss_inset(fig, finding, curve):
+    """The track's S21 over frequency with and without the gap, top right, on a white card."""
+    f, s21, s21_clear = curve
+    ins = fig.add_axes((0.64, 0.60, 0.33, 0.25))
+    ins.set_facecolor("white")
+    ins.plot(f, s21_clear, color="#7a7a7a", lw=1.2, ls="--", label="solid plane")
+    ins.plot(f, s21, color=DETOUR, lw=1.6, label="with this gap")
+    dip = finding.get("s21_first_dip_GHz")
+    if dip:
+        ins.axvline(dip, color=MARK[finding["severity"]], lw=0.8, ls=":")
+    ins.set_xlabel("GHz", fontsize=7, labelpad=1)
+    ins.set_ylabel("S21 dB (estimate)", fontsize=7, labelpad=1)
+    ins.tick_params(labelsize=7, pad=1)
+    ins.set_ylim(max(-40.0, float(min(s21.min(), s21_clear.min())) - 1.0), 0.5)
+    ins.legend(fontsize=6, loc="lower left", frameon=True)
+    ins.grid(True, lw=0.3, alpha=0.5)
 
 
 def _caption(f):

@@ -6,6 +6,7 @@ import sys
 from pathlib import Path
 
 from returngap import report
+from returngap.analysis import frequency
 from returngap.report import htmlpage, render
 from returngap.run import parallel
 
@@ -33,9 +34,11 @@ def _progress(items, label, quiet):
 def write_outputs(result, rep, out_dir, fail_on, quiet=True, workers=0):
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
-    for old in out.glob("finding-*.png"):  # pictures of an earlier run would mislead
-        old.unlink()
+    for pattern in ("finding-*.png", "finding-*.s2p", "finding-*-s_params.csv"):
+        for old in out.glob(pattern):  # files of an earlier run would mislead
+            old.unlink()
     write_text(out / "findings.json", report.to_json(rep))
+    curves = _frequency_views(result, rep, out)
     write_text(out / "findings.csv", report.to_csv(rep))
     write_text(out / "junit.xml", report.to_junit(rep, fail_on))
     images = {f["id"]: out / f"finding-{f['id']}.png" for f in rep["findings"]}
@@ -48,7 +51,27 @@ def write_outputs(result, rep, out_dir, fail_on, quiet=True, workers=0):
             if f is None:
                 render.overview_png(result, rep, path)
             else:
-                render.finding_png(result, f, i, path)
+                render.finding_png(result, f, i, path, curves.get(f["id"]))
 
     parallel.fork_map(draw, n, n)
     write_text(out / "report.html", htmlpage.page(rep, images, out / "overview.png"))
+
+
+def _frequency_views(result, rep, out):
+    """Each finding with a frequency view: its curves (for its picture), a Touchstone file and a
+    CSV of them. {id: (f GHz, S21 dB with the gap, S21 dB without)}."""
+    curves = {}
+    for f in rep["findings"]:
+        if f.get("s21_loss_at_knee_dB") is None:
+            continue
+        with_gap, without, _ = frequency.crossing_curves(
+            result.board, result.refs, result.chains, f, result.settings
+        )
+        with_gap.write_touchstone(f"finding-{f['id']}", dir=str(out))
+        write_text(out / f"finding-{f['id']}-s_params.csv", report.s_params_csv(with_gap, without))
+        curves[f["id"]] = (
+            with_gap.frequency.f / 1e9,
+            with_gap.s_db[:, 1, 0],
+            without.s_db[:, 1, 0],
+        )
+    return curves

@@ -8,6 +8,7 @@ from returngap.analysis import (
     completeness,
     connectivity,
     fieldsolve,
+    frequency,
     gaps,
     grouping,
     references,
@@ -105,6 +106,7 @@ def run_check(sources, stackup_file=None, settings=None, scratch=None, workers=0
     findings = _findings(board, nets, refs, chains, settings, runner)
     if settings.field_solves:
         findings = fieldsolve.solve_nearest(board, nets, chains, findings, settings, planes)
+    findings = frequency.with_frequency_fields(board, refs, chains, findings, settings)
     given = sources if isinstance(sources, (list, tuple)) else [sources]
     inputs = {
         "sources": [str(s) for s in given],

@@ -1,0 +1,126 @@
+"""What a gap does to the signal over frequency: the insertion loss of the track across it.
+
+A circuit of one crossing, built with scikit-rf: the track as two line sections either side of
+the crossing (microstrip: scikit-rf's MLine, Hammerstad & Jensen with Kirschning & Jansen
+dispersion; stripline: a TEM line of Cohn's impedance), and the gap between them as a series
+element: two slotline stubs either side of the crossing point, shorted at a closed slot's ends,
+one open where a notch reaches the plane's edge (Knorr, "Slot-line transitions", IEEE T-MTT
+22(5), 1974). The stubs' impedance Zs is chosen so that the element's low-frequency limit is the
+added inductance the finding reports (closed form or field solve): Zs = L v / l_eff, v the slot's
+phase velocity (from the finding's plane permittivity), l_eff = l1 l2 / (l1 + l2). The slot's
+radiation is a loss on the stubs set so that a half-wave slot fed at its middle has the input
+resistance of a slot in a thin screen, η²/(4 · 73 Ω) ≈ 485 Ω (Babinet / Booker from the
+half-wave dipole's radiation resistance; Balanis, Antenna Theory). Quasi-static lines, one slot
+mode, no coupling to other structures: an estimate to guide a field solver or a measurement.
+"""
+
+import math
+import warnings
+
+import numpy as np
+import skrf
+from skrf.media import DefinedGammaZ0, MLine
+
+from returngap.physics import formulas
+
+__all__ = [
+    "SLOT_RADIATION_OHM",
+    "DIP_DEPTH_DB",
+    "frequencies",
+    "line_media",
+    "gap_impedance",
+    "series_network",
+    "crossing_networks",
+    "first_dip_GHz",
+    "loss_at_dB",
+]
+
+C_M_PER_S = 299_792_458.0
+SLOT_RADIATION_OHM = formulas.ETA0_OHM**2 / (4 * 73.1)  # Babinet with the half-wave dipole
+DIP_DEPTH_DB = 3.0  # a dip: at least half the power lost to the gap (our choice)
+FR4_TAND = 0.02  # FR4's loss tangent near 1 GHz (from memory)
+COPPER_RHO = 1.72e-8  # ohm m
+
+
+def frequencies(knee_GHz, points=601):
+    """10 MHz to the larger of 3x the knee frequency and 6 GHz."""
+    return skrf.Frequency(0.01, max(6.0, 3.0 * knee_GHz), points, unit="GHz")
+
+
+def line_media(freq, width_mm, h_mm, er, t_mm=0.035, other_h_mm=None):
+    """The track's line: microstrip over one plane, or stripline between two (50 ohm ports)."""
+    if other_h_mm is None:
+        with warnings.catch_warnings():  # thin copper against the skin depth: said by skrf
+            warnings.simplefilter("ignore")
+            return MLine(
+                frequency=freq,
+                z0_port=50,
+                w=width_mm * 1e-3,
+                h=h_mm * 1e-3,
+                t=t_mm * 1e-3,
+                ep_r=er,
+                tand=FR4_TAND,
+                rho=COPPER_RHO,
+                rough=0.0,
+            )
+    z0 = formulas.stripline_z0(width_mm, h_mm + other_h_mm, er)
+    beta = 2 * np.pi * freq.f * math.sqrt(er) / C_M_PER_S
+    alpha_d = beta * FR4_TAND / 2  # dielectric loss of a TEM line
+    return DefinedGammaZ0(frequency=freq, z0_port=50, z0=z0, gamma=alpha_d + 1j * beta)
+
+
+def gap_impedance(f_Hz, added_nH, l1_mm, l2_mm, slot_er, open_end=False):
+    """Series impedance (ohm) of the gap at each frequency: the stubs in parallel, lossy by the
+    slot's radiation, their low-frequency limit j ω added_nH."""
+    f = np.asarray(f_Hz, float)
+    total = l1_mm + l2_mm
+    l_eff = l1_mm if open_end else l1_mm * l2_mm / total
+    if added_nH <= 0 or l_eff <= 0:
+        return np.zeros(len(f), dtype=complex)
+    v = C_M_PER_S / math.sqrt(slot_er)
+    zs = added_nH * 1e-9 * v / (l_eff * 1e-3)
+    alpha = zs / (total * 1e-3 * SLOT_RADIATION_OHM)  # radiation as a loss per metre
+    gamma = alpha + 1j * 2 * np.pi * f / v
+    y = 1.0 / (zs * np.tanh(gamma * l1_mm * 1e-3))
+    if open_end:
+        y = y + np.tanh(gamma * l2_mm * 1e-3) / zs
+    else:
+        y = y + 1.0 / (zs * np.tanh(gamma * l2_mm * 1e-3))
+    return 1.0 / y
+
+
+def series_network(freq, z):
+    """A series impedance between two 50 ohm ports."""
+    z = np.asarray(z, complex)
+    s = np.zeros((len(z), 2, 2), dtype=complex)
+    s[:, 0, 0] = s[:, 1, 1] = z / (z + 100.0)
+    s[:, 0, 1] = s[:, 1, 0] = 100.0 / (z + 100.0)
+    return skrf.Network(frequency=freq, s=s, z0=50.0)
+
+
+def crossing_networks(freq, media, before_mm, after_mm, z_gap):
+    """(with the gap, without it): the two line sections cascaded through the gap element."""
+    a, b = media.line(before_mm, "mm"), media.line(after_mm, "mm")
+    return a ** series_network(freq, z_gap) ** b, a**b
+
+
+def _s21_db(net):
+    return 20 * np.log10(np.maximum(np.abs(net.s[:, 1, 0]), 1e-12))
+
+
+def first_dip_GHz(f_Hz, z_gap, z0_ohm):
+    """The lowest frequency where the gap element's own insertion loss, between two lines of
+    z0_ohm, has a local maximum at least DIP_DEPTH_DB deep (its resonance); None when there is
+    none in range (a lumped inductance has none). The element alone: the cascade's ripple from
+    the line's mismatch to the ports is no dip of the gap's."""
+    z = np.asarray(z_gap, complex)
+    loss = -20 * np.log10(np.abs(2 * z0_ohm / (2 * z0_ohm + z)))
+    f = np.asarray(f_Hz, float) / 1e9
+    peak = (loss[1:-1] >= loss[:-2]) & (loss[1:-1] >= loss[2:]) & (loss[1:-1] >= DIP_DEPTH_DB)
+    k = np.nonzero(peak)[0]
+    return float(f[k[0] + 1]) if len(k) else None
+
+
+def loss_at_dB(net, f_GHz):
+    """Insertion loss (dB, positive) at one frequency, interpolated on the curve."""
+    return float(-np.interp(f_GHz, net.frequency.f / 1e9, _s21_db(net)))
