@@ -161,13 +161,17 @@ def test_feed_track_through_the_plane_is_a_slot(tmp_path):
     assert f["gap_length_mm"] == pytest.approx(41.0, abs=0.1)
     assert f["detour_mm"] == pytest.approx(41.0, abs=1.0)
     # the field solve of the same crossing (physics/peec.py, validated on its own) lies in the
-    # closed form's range, and the reflection is near the budget: a warning or an error
+    # closed form's range
     from returngap.analysis import fieldsolve
 
-    solved = fieldsolve.solve_crossing(r.board, r.nets, r.chains, f).added_inductance_nH
+    solved = fieldsolve.solve_crossing(r.board, r.nets, r.chains, f, r.planes)
+    assert solved.second_plane == "L3"
+    solved = solved.added_inductance_nH
     lo, hi = f["added_inductance_range_nH"]
     assert lo <= solved <= hi
-    assert f["severity"] in ("warning", "error")
+    # with the L3 plane 1 mm below, a few nH: under half the 10 % budget at 0.5 ns (ladder)
+    assert f["reflection_fraction"] * f["interrupted_fraction"] < 0.05
+    assert f["severity"] == "info"
 
 
 def _crossing(x, y, net="CLK", nh=1.0, sev="warning", gap_id="aaaaaaaaaaaa", enclosed=True):

@@ -954,8 +954,15 @@ def _gap_estimate(board, ch, ref, settings, slot_len, width, ends, split=False):
     modelled, it keeps the older bound (geometric mean of the handbook formula over the whole
     gap and the stub model), the handbook figure as the range's top."""
     l_closed, l_open, open_one_end = ends
+    below = ref.beyond_mm if ref.other_h_mm is None else None  # a plane beyond confines it
     est, lo, hi = physics.slot_crossing_inductance_nH(
-        l_closed, l_open, max(width, 0.01), ch.width_mm, ref.h_mm, l2_open=open_one_end
+        l_closed,
+        l_open,
+        max(width, 0.01),
+        ch.width_mm,
+        ref.h_mm,
+        l2_open=open_one_end,
+        below_mm=below,
     )
     method = "calibrated slot-stub model"
     if split:
