@@ -191,3 +191,30 @@ def test_calibrated_slot_estimate_covers_its_sweep():
         d, s, h, w, l1, got = (float(r[k]) for k in ("D", "s", "h", "w", "l1", "solved_nH"))
         _, lo, hi = ph.slot_crossing_inductance_nH(l1, d - l1, s, w, h)
         assert lo <= got <= hi
+
+
+def test_calibrated_slot_estimate_with_a_plane_below_covers_its_sweep():
+    # consistency check: with a whole plane under the slotted one, the range covers every
+    # field solve of that sweep (testdata/slot-calibration-below.csv)
+    import csv
+
+    from conftest import TESTDATA
+
+    rows = list(csv.DictReader((TESTDATA / "slot-calibration-below.csv").open()))
+    assert len(rows) >= 50
+    for r in rows:
+        d, s, h, w, l1, below, got = (
+            float(r[k]) for k in ("D", "s", "h", "w", "l1", "below", "solved_nH")
+        )
+        _, lo, hi = ph.slot_crossing_inductance_nH(l1, d - l1, s, w, h, below_mm=below)
+        assert lo <= got <= hi
+
+
+def test_a_plane_below_lowers_the_estimate_as_the_reference_sheet_says():
+    # REFERENCE §12 (independent numerical solve, not a paper): a second solid plane 1.0 mm
+    # below lowers the slot's added inductance by 25-45 % (its 10 and 24 mm slots; a longer slot
+    # is confined more)
+    for d, s, h, w in [(10, 1, 0.2, 0.38), (24, 1, 0.2, 0.38)]:
+        one = ph.slot_crossing_inductance_nH(d / 2, d / 2, s, w, h)[0]
+        two = ph.slot_crossing_inductance_nH(d / 2, d / 2, s, w, h, below_mm=1.0)[0]
+        assert 0.20 <= 1 - two / one <= 0.55

@@ -271,8 +271,8 @@ SLOT_FIT = (0.249, 0.1435, 0.2158, 1.368)
 SLOT_FIT_RANGE = (0.67, 1.33)
 # a whole plane under the slotted one: 60 solves, D 5-50 mm, s 0.5 mm, h 0.1-0.5 mm, the plane
 # 0.2-1.6 mm below (benchmarks/calibrate_slot.py); a fit of ours, not a published source
-BELOW_FIT = (0.1336, 0.9205, 0.334)
-BELOW_FIT_RANGE = (0.85, 1.18)
+BELOW_FIT = (0.1426, 0.8752, 0.3361)
+BELOW_FIT_RANGE = (0.84, 1.25)
 
 
 def slot_crossing_inductance_nH(l1_mm, l2_mm, gap_mm, trace_mm, h_mm, l2_open=False, below_mm=None):
