@@ -217,11 +217,12 @@ def find_references(board, nets, settings):
 
 
 def line_z0(board, layer, width_mm, ref):
-    """Impedance of a track over its reference: Hammerstad-Jensen microstrip or Cohn stripline."""
+    """Impedance of a track over its reference: Hammerstad-Jensen microstrip or the offset
+    stripline (physics.offset_stripline_z0; Cohn's exact value when centred)."""
     t = board.stackup.copper_thickness_mm.get(layer, 0.035)
     if ref.other_h_mm is None:
         return physics.microstrip_z0_eeff(width_mm, ref.h_mm, ref.er, t)[0]
-    return physics.stripline_z0(width_mm, ref.h_mm + ref.other_h_mm, ref.er)
+    return physics.offset_stripline_z0(width_mm, ref.h_mm, ref.other_h_mm, ref.er)
 
 
 def footprint_halfwidth(width_mm, ref, fraction):

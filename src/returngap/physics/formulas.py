@@ -23,6 +23,7 @@ __all__ = [
     "ellipk_c",
     "ellipk",
     "stripline_z0",
+    "offset_stripline_z0",
     "line_inductance_nH_per_mm",
     "hsdd_slot_inductance_nH",
     "cps_inductance_nH_per_mm",
@@ -205,6 +206,17 @@ def stripline_z0(width_mm, b_mm, er):
     return 30.0 * math.pi / math.sqrt(er) * ellipk_c(math.tanh(x)) / ellipk_c(sech)
 
 
+def offset_stripline_z0(width_mm, h1_mm, h2_mm, er):
+    """Stripline off centre (heights h1, h2 to its two planes): the parallel combination of two
+    centred striplines of spacings 2*h1 and 2*h2, Z0 = 2 Za Zb / (Za + Zb) (Wadell, Transmission
+    Line Design Handbook, 1991, offset stripline; from memory). Equal heights give Cohn's exact
+    centred value; tests/test_physics.py checks it against a 2-D field solve of ours (within
+    10 %), where the centred formula with b = h1 + h2 reads 13-40 % high."""
+    za = stripline_z0(width_mm, 2.0 * h1_mm, er)
+    zb = stripline_z0(width_mm, 2.0 * h2_mm, er)
+    return 2.0 * za * zb / (za + zb)
+
+
 def line_inductance_nH_per_mm(z0_ohm, eeff):
     """Loop inductance per length of a TEM line: L' = Z0*sqrt(eeff)/c (definition of line
     parameters)."""
@@ -349,12 +361,12 @@ def series_inductance_reflection(inductance_nH, z0_ohm, rise_time_ns):
 
 def track_inductance_nH_per_mm(width_mm, h_mm, other_h_mm=None, t_mm=0.0):
     """L' of a track over one plane (microstrip, Hammerstad & Jensen 1980) or between two
-    (centred stripline of spacing h + other_h, Cohn 1954), taken in air: L' = Z0*sqrt(eeff)/c does
-    not depend on the dielectric."""
+    (stripline, offset_stripline_z0), taken in air: L' = Z0*sqrt(eeff)/c does not depend on the
+    dielectric."""
     if other_h_mm is None:
         z, e = microstrip_z0_eeff(width_mm, h_mm, 1.0, t_mm)
         return line_inductance_nH_per_mm(z, e)
-    return line_inductance_nH_per_mm(stripline_z0(width_mm, h_mm + other_h_mm, 1.0), 1.0)
+    return line_inductance_nH_per_mm(offset_stripline_z0(width_mm, h_mm, other_h_mm, 1.0), 1.0)
 
 
 def one_plane_missing_inductance_nH(width_mm, h_cut_mm, h_kept_mm, t_mm, length_mm):

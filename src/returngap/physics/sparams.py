@@ -1,17 +1,17 @@
 """What a gap does to the signal over frequency: the insertion loss of the track across it.
 
-A circuit of one crossing, built with scikit-rf: the track as two line sections either side of
-the crossing (microstrip: scikit-rf's MLine, Hammerstad & Jensen with Kirschning & Jansen
-dispersion; stripline: a TEM line of Cohn's impedance), and the gap between them as a series
-element: two slotline stubs either side of the crossing point, shorted at a closed slot's ends,
-one open where a notch reaches the plane's edge (Knorr, "Slot-line transitions", IEEE T-MTT
-22(5), 1974). The stubs' impedance Zs is chosen so that the element's low-frequency limit is the
-added inductance the finding reports (closed form or field solve): Zs = L v / l_eff, v the slot's
-phase velocity (from the finding's plane permittivity), l_eff = l1 l2 / (l1 + l2). The slot's
-radiation is a loss on the stubs set so that a half-wave slot fed at its middle has the input
-resistance of a slot in a thin screen, η²/(4 · 73 Ω) ≈ 485 Ω (Babinet / Booker from the
-half-wave dipole's radiation resistance; Balanis, Antenna Theory). Quasi-static lines, one slot
-mode, no coupling to other structures: an estimate to guide a field solver or a measurement.
+A circuit of one crossing, built with scikit-rf: the track as two line sections either side of the
+crossing (microstrip: scikit-rf's MLine, Hammerstad & Jensen with Kirschning & Jansen dispersion;
+stripline: a TEM line of the offset-stripline impedance), and the gap between them as a series
+element: two slotline stubs either side of the crossing point, shorted at a closed slot's ends, one
+open where a notch reaches the plane's edge (Knorr, "Slot-line transitions", IEEE T-MTT 22(5),
+1974). The stubs' impedance Zs is chosen so that the element's low-frequency limit is the added
+inductance the finding reports (closed form or field solve): Zs = L v / l_eff, v the slot's phase
+velocity (from the finding's plane permittivity), l_eff = l1 l2 / (l1 + l2). The slot's radiation
+is a loss on the stubs set so that a half-wave slot fed at its middle has the input resistance of a
+slot in a thin screen, η²/(4 · 73 Ω) ≈ 485 Ω (Babinet / Booker from the half-wave dipole's
+radiation resistance; Balanis, Antenna Theory). Quasi-static lines, one slot mode, no coupling to
+other structures: an estimate to guide a field solver or a measurement.
 """
 
 import math
@@ -63,7 +63,7 @@ def line_media(freq, width_mm, h_mm, er, t_mm=0.035, other_h_mm=None):
                 rho=COPPER_RHO,
                 rough=0.0,
             )
-    z0 = formulas.stripline_z0(width_mm, h_mm + other_h_mm, er)
+    z0 = formulas.offset_stripline_z0(width_mm, h_mm, other_h_mm, er)
     beta = 2 * np.pi * freq.f * math.sqrt(er) / C_M_PER_S
     alpha_d = beta * FR4_TAND / 2  # dielectric loss of a TEM line
     return DefinedGammaZ0(frequency=freq, z0_port=50, z0=z0, gamma=alpha_d + 1j * beta)
