@@ -82,14 +82,14 @@ def _mline_air_inductance_nH_per_mm(w, h, t):
 
 def test_stripline_with_one_plane_cut_uses_the_other_plane(tmp_path):
     # DQS (0.1 mm) between L2 (0.2 mm above, a 20 x 0.5 mm slot) and L4 (0.6 mm below, whole):
-    # the return moves to L4 for the 0.5 mm crossed; added L = (L'ms(h = 0.6) - L'sl(b = 0.8))
-    # * 0.5 mm, microstrip from scikit-rf (Hammerstad & Jensen 1980), stripline Cohn 1954
+    # the return moves to L4 for the 0.5 mm crossed; added L = (L'ms(h = 0.6) - L'sl) * 0.5 mm,
+    # microstrip from scikit-rf (Hammerstad & Jensen 1980), the offset stripline as the parallel
+    # combination of Cohn's centred lines of spacing 2*0.2 and 2*0.6 (Cohn 1954; Wadell 1991)
     r = run_check(stripline_board(tmp_path / "a", h1=0.2, h2=0.6), settings=Settings(show_all=True))
     [f] = crossings(r)
     assert f["return_path"] == "other plane" and f["reference_layer"] == "L2"
-    expect = (
-        _mline_air_inductance_nH_per_mm(0.1, 0.6, 0.035) - _cohn_air_inductance_nH_per_mm(0.1, 0.8)
-    ) * 0.5
+    la, lb = _cohn_air_inductance_nH_per_mm(0.1, 0.4), _cohn_air_inductance_nH_per_mm(0.1, 1.2)
+    expect = (_mline_air_inductance_nH_per_mm(0.1, 0.6, 0.035) - 2 * la * lb / (la + lb)) * 0.5
     assert f["added_inductance_nH"] == pytest.approx(expect, rel=0.03)
     assert f["severity"] == "info"
     # below the noise floor (0.1 nH) it is no finding at all by default
@@ -294,3 +294,41 @@ def test_coplanar_ground_beside_the_track_carries_the_return(tmp_path, sides):
         bare["return_path"] == "detour"
         and bare["added_inductance_nH"] > 5 * f["added_inductance_nH"]
     )
+
+
+def _two_net_split(folder, with_part):
+    """L2 split at x = 30 between GND (left) and P3V3 (right), L3 GND whole; CLK on L1 crosses
+    the split at (30, 20); with_part: a capacitor C7 on L1 across the split at (30, 30), each pad
+    on a via to its side's plane."""
+    from boards import H
+    from returngap.synth import SynthBoard, Via, rect
+
+    b = SynthBoard("s", 60, 40, n_layers=4, dielectrics=[(H, 4.3), (1.0, 4.3), (H, 4.3)])
+    b.planes += [(2, "GND", rect(0, 0, 29.75, 40)), (2, "P3V3", rect(30.25, 0, 60, 40))]
+    b.planes.append((3, "GND", rect(0, 0, 60, 40)))
+    b.tracks.append((1, "CLK", [(10, 20), (50, 20)], 0.2))
+    b.vias += [Via(5, 5, "GND"), Via(55, 35, "P3V3"), Via(5, 35, "GND")]
+    if with_part:
+        b.pads += [(1, 29.0, 30.0, 0.8, 0.9, "GND", ("C7", "1"))]
+        b.pads += [(1, 31.0, 30.0, 0.8, 0.9, "P3V3", ("C7", "2"))]
+        b.vias += [Via(29.0, 30.0, "GND"), Via(31.0, 30.0, "P3V3")]
+    b.write(folder)
+    return folder
+
+
+def test_a_split_crosses_through_its_nearest_bridging_part(tmp_path):
+    # the return of a track over a split between two plane nets goes to the part that bridges
+    # them and through it (geometry: C7 is 10 mm from the crossing); without the part the data
+    # says no part bridges them
+    bridged = [f for f in run_check(_two_net_split(tmp_path / "a", True)).findings]
+    [f] = [f for f in bridged if f["kind"] == "gap-crossing" and f["net"] == "CLK"]
+    assert f["gap_type"] == "split" and f["bridge_part"] == "C7"
+    assert f["bridge_distance_mm"] == pytest.approx(10.0, abs=0.1)
+    assert 1.0 < f["added_inductance_nH"] < 10.0  # a part's loop and a 10 mm way to it
+    from returngap.report import core
+
+    assert "through C7" in core.said(f, Settings())["message"]
+    lone = [f for f in run_check(_two_net_split(tmp_path / "b", False)).findings]
+    [g] = [g for g in lone if g["kind"] == "gap-crossing" and g["net"] == "CLK"]
+    assert g["bridge_part"] is None and g["parts_known"] is False  # no .P attributes at all
+    assert "no part information" in core.said(g, Settings())["message"]

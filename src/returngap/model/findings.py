@@ -124,6 +124,10 @@ class GapCrossing(Finding):
     return_split: dict = _opt()
     merged: int = _opt()  # near-duplicate crossings folded into this one
     field_solve: dict = _opt()  # the local field solve's numbers, where one was run
+    # a split between two plane nets: the nearest part bridging them (None: none in the data)
+    bridge_part: str | None = _opt()
+    bridge_distance_mm: float = _opt()
+    parts_known: bool = _opt()  # whether the data tells parts at all
     # the frequency view (analysis/frequency.py): the track's insertion loss over frequency
     s21_first_dip_GHz: float | None = _opt()
     s21_loss_at_knee_dB: float = _opt()

@@ -23,6 +23,7 @@ def _gap(f, s):
     if f.get("side_nets"):
         a, b = f["side_nets"]
         det += f" ({a} on one side, {b} on the other)"
+        det += _bridge_said(f, a, b)
     if f["return_path"] == "other plane":
         det = (
             "the other plane is whole under the track, so the return moves there for the "
@@ -64,6 +65,19 @@ def _frequency_said(f):
         f"({f['s21_loss_at_knee_no_gap_dB']:.1f} dB over a solid plane)"
         + (f", first dip near {dip:.2f} GHz" if dip else ", no dip in range")
     )
+
+
+def _bridge_said(f, a, b):
+    if f.get("bridge_part"):
+        return (
+            f"; the return crosses through {f['bridge_part']}, "
+            f"{f['bridge_distance_mm']:.1f} mm away"
+        )
+    if "parts_known" not in f:
+        return ""
+    if f["parts_known"]:
+        return f"; no part in the data bridges {a} and {b}"
+    return "; the data has no part information to find a bridge"
 
 
 def _solve_said(fs):

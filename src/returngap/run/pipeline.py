@@ -20,6 +20,7 @@ from returngap.checks import (
     net_conflict,
     reference_change,
     return_split,
+    split_bridge,
     stitching,
 )
 from returngap.io import config, load
@@ -141,6 +142,7 @@ def _findings(board, nets, refs, chains, settings, runner):
     findings = combine(done[len(checks) + len(areas) :])
     findings += sum(done[: len(checks)], [])
     findings = return_split.with_return_splits(board, findings, settings)
+    findings = split_bridge.with_split_bridges(board, nets, refs, findings, settings)
     findings = grouping.refine(findings, settings)
     findings += net_conflict.net_conflicts(nets)
     return findings
