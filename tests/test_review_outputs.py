@@ -62,8 +62,8 @@ def test_pictures_drawn_in_two_processes_match_one(tmp_path, monkeypatch):
     assert pools, "the two-process path did not run"
     one = sorted(p.name for p in (tmp_path / "one").iterdir())
     viewed = sum(1 for f in rep["findings"] if f.get("s21_loss_at_knee_dB") is not None)
-    # pictures, overview, JSON, CSV, JUnit, HTML; a Touchstone and a CSV per frequency view
-    assert len(one) == len(rep["findings"]) + 5 + 2 * viewed
+    # pictures, overview, JSON, CSV, JUnit, SARIF, HTML; a Touchstone and a CSV per frequency view
+    assert len(one) == len(rep["findings"]) + 6 + 2 * viewed
     assert one == sorted(p.name for p in (tmp_path / "two").iterdir())
     for name in one:
         assert (tmp_path / "one" / name).read_bytes() == (tmp_path / "two" / name).read_bytes(), (

@@ -39,6 +39,10 @@ def _run(ctx, fn):
         if debug:
             traceback.print_exc()
         sys.exit(2)
+    except BrokenPipeError:  # `| head` closed the pipe: stop quietly, as other tools do
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        sys.exit(0)
     except (KeyboardInterrupt, SystemExit):
         raise
     except MemoryError:
@@ -57,6 +61,26 @@ def _run(ctx, fn):
         sys.exit(2)
 
 
+_DEFAULT_RISE_NS = 0.5  # model/settings.py's default, said in --help without importing it
+
+
+def _debug_option(command):
+    """--debug after the subcommand too (`check X --debug`), as before it."""
+
+    def flag(ctx, _param, value):
+        if value:
+            ctx.ensure_object(dict)["debug"] = True
+            logging.basicConfig(level=logging.DEBUG, format="returngap: debug: %(message)s")
+
+    return click.option(
+        "--debug",
+        is_flag=True,
+        expose_value=False,
+        callback=flag,
+        help="Show a traceback on errors.",
+    )(command)
+
+
 def _edge_rate(command):
     """The signal's edge: --rise-time or --max-freq (check and audit alike)."""
     command = click.option(
@@ -69,7 +93,8 @@ def _edge_rate(command):
         "--rise-time",
         "rise_ns",
         type=click.FloatRange(min=1e-4, max=1e3),
-        help="10-90 % rise time, ns.",
+        help=f"10-90 % rise time, ns (default {_DEFAULT_RISE_NS:g} ns: a "
+        f"{0.5 / _DEFAULT_RISE_NS:g} GHz knee).",
     )(command)
 
 
@@ -98,6 +123,7 @@ def main(ctx, debug):
     "--stackup", "stackup_file", type=click.Path(), help="Stackup / layer-mapping TOML file."
 )
 @click.option("--json", "as_json", is_flag=True, help="Print the layer report as JSON.")
+@_debug_option
 @click.pass_context
 def layers(ctx, board, stackup_file, as_json):
     """Show the recognised layers, drills, stackup, ignored files and assumptions."""
@@ -120,7 +146,10 @@ def layers(ctx, board, stackup_file, as_json):
     "--nets", "net_globs", multiple=True, help="Only nets matching this glob (repeatable)."
 )
 @click.option(
-    "--json", "json_file", type=click.Path(), help="Write the findings report (JSON) here."
+    "--json",
+    "json_file",
+    type=click.Path(allow_dash=True),
+    help="Write the findings report (JSON) here; - for standard output.",
 )
 @click.option(
     "--out", "out_dir", type=click.Path(), help="Write all reports and pictures into this folder."
@@ -169,6 +198,7 @@ def layers(ctx, board, stackup_file, as_json):
     show_default=True,
     help="Field-solve the N gap crossings nearest the reflection budget (a few seconds each).",
 )
+@_debug_option
 @click.pass_context
 def check(
     ctx,
@@ -211,6 +241,9 @@ def check(
     if max_ghz:
         settings.max_freq_GHz = max_ghz
 
+    if out_dir and Path(out_dir).exists() and not Path(out_dir).is_dir():
+        raise click.UsageError(f"--out {out_dir}: a file of that name exists (give a folder)")
+
     def go():
         waivers = review.load_waivers(waiver_file) if waiver_file else []
         baseline = review.load_baseline(baseline_file) if baseline_file else None
@@ -219,26 +252,16 @@ def check(
         if waiver_file:
             review.apply_waivers(rep, waivers)
         if baseline is not None:
+            review.refuse_other_board(rep, baseline, baseline_file)
             review.compare(rep, baseline, baseline_tolerance)
-        if json_file:
+        to_stdout = json_file == "-"  # the JSON alone on standard output, the rest on stderr
+        if to_stdout:
+            click.echo(report.to_json(rep), nl=False)
+        elif json_file:
             outputs.write_text(json_file, report.to_json(rep))
         if out_dir:
             outputs.write_outputs(result, rep, out_dir, fail_on, quiet)
-        if not quiet:
-            gaps = report.gaps_block(rep, limit)
-            if gaps:
-                click.echo(gaps + "\n")
-            click.echo(report.findings_table(rep, limit))
-            if by_net:
-                click.echo("\n" + report.by_net_table(rep, limit))
-            for w in (rep.get("waivers") or {}).get("stale", []):
-                click.echo(
-                    f"stale waiver #{w['waiver']} ({w.get('by')}): matches no finding", err=True
-                )
-        block = report.notes_block(rep, quiet)
-        if block:
-            click.echo(block)
-        click.echo(report.summary_line(rep))
+        _print_text(rep, quiet, limit, by_net, bool(json_file or out_dir), to_stdout)
         bad = report.FAIL_LEVELS[fail_on]
         counted = [
             f
@@ -252,6 +275,28 @@ def check(
     sys.exit(_run(ctx, go))
 
 
+def _print_text(rep, quiet, limit, by_net, json_written, to_stderr):
+    """The terminal's part of `check`: gaps, the table, the notes and the summary line."""
+
+    def say(text):
+        click.echo(text, err=to_stderr)
+
+    if not quiet:
+        gaps = report.gaps_block(rep, limit)
+        if gaps:
+            say(gaps + "\n")
+        width = shutil.get_terminal_size((140, 40)).columns
+        say(report.findings_table(rep, limit, width=width, json_written=json_written))
+        if by_net:
+            say("\n" + report.by_net_table(rep, limit))
+    for w in (rep.get("waivers") or {}).get("stale", []):  # with --quiet too
+        click.echo(f"stale waiver #{w['waiver']} ({w.get('by')}): matches no finding", err=True)
+    block = report.notes_block(rep, quiet)
+    if block:
+        say(block)
+    say(report.summary_line(rep))
+
+
 @main.command()
 @click.argument("report_file", type=click.Path(exists=True, dir_okay=False))
 @click.option("--id", "finding_id", required=True, help="The finding's id in the report.")
@@ -263,6 +308,7 @@ def check(
     help="The board, where it has moved since the report was written (repeatable).",
 )
 @click.option("--json", "as_json", is_flag=True, help="Print the solved finding as JSON.")
+@_debug_option
 @click.pass_context
 def solve(ctx, report_file, finding_id, board_files, as_json):
     """Field-solve one gap crossing of a saved findings report (re-reads its board)."""
@@ -319,6 +365,7 @@ def solve(ctx, report_file, finding_id, board_files, as_json):
     "--scheduler", help="Address of a Dask distributed scheduler (optional extra 'dask')."
 )
 @click.option("--quiet", "-q", is_flag=True, help="Print only the summary line.")
+@_debug_option
 @click.pass_context
 def audit(
     ctx,

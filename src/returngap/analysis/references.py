@@ -242,6 +242,33 @@ def wanted(net, settings):
     return not settings.nets or any(fnmatch.fnmatchcase(low, g.lower()) for g in settings.nets)
 
 
+def only_wanted(findings, settings):
+    """With --nets, every kind's findings of the nets asked for (any case): a stitching-spacing
+    finding, which is of a plane, stays (it was found next to the wanted tracks); a net conflict
+    stays when either of its two labels is wanted."""
+    if not settings.nets:
+        return findings
+
+    def keep(f):
+        if f["kind"] == "stitching-spacing":
+            return True
+        names = f.get("conflicting_nets") or [f["net"]]
+        return any(wanted(n, settings) for n in names)
+
+    return [f for f in findings if keep(f)]
+
+
+def unmatched_globs(nets, settings):
+    """The --nets globs that match no routed signal net (said, as a likely typing slip)."""
+    routed = {
+        n.lower()
+        for ln in nets.layers.values()
+        for n in set(ln.segment_net)
+        if n and nets.is_signal(n)
+    }
+    return [g for g in settings.nets if not any(fnmatch.fnmatchcase(n, g.lower()) for n in routed)]
+
+
 def chains(board, nets, refs, settings):
     """Signal-track centre lines merged per (layer, net, width), with a footprint per reference."""
     out = []

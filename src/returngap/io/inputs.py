@@ -209,6 +209,16 @@ def why_not(path):
     return "not Gerber, Excellon, job file or IPC-D-356"
 
 
+def _refuse_repeats(sources):
+    """The same folder or file named twice is a slip of the command line, said as such."""
+    seen = {}
+    for s in sources:
+        key = s.resolve()
+        if key in seen:
+            raise InputError(s, f"given twice (as {seen[key]} and {s}): name each input once")
+        seen[key] = s
+
+
 class BoardFiles:
     """The fabrication files of one board, and what was ignored; owns any temporary folder."""
 
@@ -222,6 +232,7 @@ class BoardFiles:
         ]
         if not sources:
             raise InputError("<board>", "no input given")
+        _refuse_repeats(sources)
         if len(sources) == 1 and sources[0].is_dir():
             self.name = sources[0].resolve().name
             self.source = str(sources[0])
@@ -242,14 +253,17 @@ class BoardFiles:
             self.name = sources[0].resolve().parent.name
             self.source = ", ".join(str(s) for s in sources)
             for s in sources:
+                if s.is_dir():
+                    raise InputError(s, "a folder among several inputs: give one folder, or files")
                 if not s.is_file():
                     raise InputError(s, "no such file")
                 self._consider(s, s.name)
         if not self.fab:
             self.close()
-            if len(self.ignored) == 1:
-                raise InputError(self.ignored[0]["file"], self.ignored[0]["reason"])
-            raise InputError(self.source, "no Gerber or Excellon files found")
+            ignored = "; ".join(f"{i['file']} ({i['reason']})" for i in self.ignored[:5])
+            more = f" and {len(self.ignored) - 5} more" if len(self.ignored) > 5 else ""
+            why = f"; ignored: {ignored}{more}" if self.ignored else ""
+            raise InputError(self.source, f"no fabrication data found (Gerber, Excellon){why}")
 
     def _scan_dir(self, root):
         for dirpath, dirnames, filenames in os.walk(root, followlinks=False):

@@ -5,4 +5,5 @@ from returngap.report.core import *  # noqa: F403
 from returngap.report.core import DISCLAIMER, FAIL_LEVELS, SEVERITY_ORDER  # noqa: F401
 from returngap.report.csvout import *  # noqa: F403
 from returngap.report.junit import *  # noqa: F403
+from returngap.report.sarif import *  # noqa: F403
 from returngap.report.text import *  # noqa: F403

@@ -5,6 +5,12 @@ from returngap.report.core import FAIL_LEVELS
 __all__ = ["to_junit"]
 
 
+def _line(f):
+    """One finding in a test case's text; a waived one says so and who waived it."""
+    waived = f" (waived by {f['waiver'].get('by')})" if f.get("waiver") else ""
+    return f"[{f['severity']}{waived}] {f['id']} {f['message']}"
+
+
 def to_junit(report, fail_on="error"):
     """JUnit XML: one test case per check kind and net; failures carry the finding messages."""
     from xml.sax.saxutils import escape, quoteattr
@@ -27,13 +33,13 @@ def to_junit(report, fail_on="error"):
             msg = quoteattr(
                 f"{len(failing)} finding(s): " + "; ".join(f["message"] for f in failing)[:2000]
             )
-            text = escape("\n".join(f"[{f['severity']}] {f['id']} {f['message']}" for f in fs))
+            text = escape("\n".join(_line(f) for f in fs))
             body.append(
                 f"  <testcase name={name} classname={cls}>"
                 f'<failure message={msg} type="{kind}">{text}</failure></testcase>'
             )
         else:
-            out = escape("\n".join(f"[{f['severity']}] {f['id']} {f['message']}" for f in fs))
+            out = escape("\n".join(_line(f) for f in fs))
             body.append(
                 f"  <testcase name={name} classname={cls}>"
                 + (f"<system-out>{out}</system-out>" if fs else "")

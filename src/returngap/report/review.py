@@ -8,7 +8,14 @@ import math
 from returngap.errors import InputError
 from returngap.io.config import read_toml
 
-__all__ = ["WAIVER_KEYS", "load_waivers", "apply_waivers", "load_baseline", "compare"]
+__all__ = [
+    "WAIVER_KEYS",
+    "load_waivers",
+    "apply_waivers",
+    "load_baseline",
+    "refuse_other_board",
+    "compare",
+]
 
 WAIVER_KEYS = {
     "id",
@@ -29,6 +36,9 @@ def load_waivers(path):
     """[[waiver]] tables: an id, or a match on kind / net (glob) / layers / location; who, why
     and when."""
     data = read_toml(path)
+    extra = sorted(set(data) - {"waiver"})
+    if extra:
+        raise InputError(path, f"unknown table(s) {', '.join(extra)} (only [[waiver]] is read)")
     items = data.get("waiver", [])
     if not isinstance(items, list):
         raise InputError(path, "waivers must be [[waiver]] tables")
@@ -44,8 +54,10 @@ def load_waivers(path):
                 raise InputError(
                     path, f"waiver #{i}: '{key}' is required (who accepted it, and why)"
                 )
-        if not any(k in w for k in ("id", "net", "near_mm")):
-            raise InputError(path, f"waiver #{i}: give an id, or a net and/or near_mm to match on")
+        if not any(k in w for k in ("id", "kind", "net", "near_mm")):
+            raise InputError(
+                path, f"waiver #{i}: give an id, or a kind, net and/or near_mm to match on"
+            )
         if "near_mm" in w and (not isinstance(w["near_mm"], list) or len(w["near_mm"]) != 2):
             raise InputError(path, f"waiver #{i}: near_mm must be [x, y]")
         w = dict(w)
@@ -105,6 +117,28 @@ def load_baseline(path):
     if not isinstance(data, dict) or data.get("format") != "returngap-findings":
         raise InputError(path, "not a returngap findings report")
     return data
+
+
+OUTLINE_CHANGE_LIMIT = 0.10  # a revision moves its outline less than this share (our choice)
+
+
+def refuse_other_board(report, baseline, path):
+    """A baseline from another board (other copper layers, or an outline of another size) would
+    mark everything new or resolved: refused, with what differs."""
+    now, then = report["board"], baseline.get("board") or {}
+    layers_now = [c["name"] for c in now.get("copper_layers", [])]
+    layers_then = [c["name"] for c in then.get("copper_layers", [])]
+    if layers_then and layers_now != layers_then:
+        raise InputError(
+            path,
+            f"baseline is of another board: copper layers {', '.join(layers_then)} there, "
+            f"{', '.join(layers_now)} here",
+        )
+    a, b = now.get("outline_area_mm2") or 0.0, then.get("outline_area_mm2") or 0.0
+    if a and b and abs(a - b) > OUTLINE_CHANGE_LIMIT * max(a, b):
+        raise InputError(
+            path, f"baseline is of another board: outline {b:.0f} mm2 there, {a:.0f} mm2 here"
+        )
 
 
 def compare(report, baseline, tolerance_mm=2.0):

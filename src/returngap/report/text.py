@@ -25,27 +25,82 @@ def _unestimated(f):
     return f["kind"] == "reference-change" and f.get("parts_known") is False
 
 
-def findings_table(report, limit=None):
+def _cut(text, width):
+    """Text in at most `width` characters; a longer one keeps its start and its end round an
+    ellipsis, so two long names that differ at the end (CLK_P / CLK_N) never look the same."""
+    text = str(text)
+    if len(text) <= width:
+        return text
+    tail = (width - 1) // 2
+    return text[: width - 1 - tail] + "\u2026" + text[len(text) - tail :]
+
+
+def _status(f):
+    """Waived, or the baseline's word (new / unchanged), for the table's last column."""
+    if f.get("waiver"):
+        return "waived"
+    return f.get("status") or ""
+
+
+def _columns(net_w):
+    """The table's columns: (header, width, right-aligned, value of a finding, drop order: 0 never,
+    else the larger the sooner on a narrow terminal)."""
+    pct = _percent
+    return [
+        ("#", 3, True, None, 0),
+        ("severity", 8, False, _marked, 0),
+        ("kind", 17, False, lambda f: f["kind"], 0),
+        ("gap", 6, False, lambda f: f.get("gap_type") or "-", 4),
+        ("net", net_w, False, lambda f: _cut(f["net"], net_w), 0),
+        ("layer", 5, False, lambda f: f["layer"], 0),
+        ("reference", 12, False, _reference, 0),
+        ("x mm", 8, True, lambda f: f"{f['x_mm']:.2f}", 1),
+        ("y mm", 8, True, lambda f: f"{f['y_mm']:.2f}", 1),
+        ("detour mm", 9, True, lambda f: _fmt(f.get("detour_mm"), ".2f"), 5),
+        ("return cut %", 12, True, lambda f: _fmt(pct(f.get("interrupted_fraction")), ".0f"), 3),
+        ("added nH", 8, True, lambda f: _fmt(f.get("added_inductance_nH"), ".2f"), 0),
+        ("resonance GHz", 13, True, lambda f: _fmt(f.get("resonance_GHz"), ".2f"), 2),
+        ("status", 9, False, _status, 6),
+    ]
+
+
+def _reference(f):
+    return _cut(f"{f.get('reference_layer') or '-'} {f.get('reference_net') or ''}".strip(), 12)
+
+
+def _fit(columns, rows, width):
+    """Drop the optional columns, the highest drop order first, until the table fits `width`;
+    the status column goes when no row has a status."""
+    if not any(_status(f) for f in rows):
+        columns = [c for c in columns if c[0] != "status"]
+    while sum(c[1] + 1 for c in columns) > width and any(c[4] for c in columns):
+        worst = max(c[4] for c in columns)
+        columns = [c for c in columns if c[4] != worst]
+    return columns
+
+
+def findings_table(report, limit=None, width=None, json_written=True):
     """The findings, worst first; reference changes the data cannot estimate (no part data) are
-    one line at the end, not a row each."""
+    one line at the end, not a row each. The table fits `width` (the terminal's): the net column
+    takes 16-40 characters, and the least needed columns go on a narrow terminal."""
     shown = [f for f in report["findings"] if not _unestimated(f)]
     rows = shown[:limit] if limit else shown
-    head = (
-        f"{'#':>3} {'severity':8} {'kind':17} {'gap':6} {'net':18} {'layer':5} {'ref':5} "
-        f"{'x mm':>8} {'y mm':>8} {'detour mm':>9} {'cut %':>5} {'added nH':>8} {'res GHz':>7}"
-    )
+    width = width or 140
+    fixed = sum(c[1] + 1 for c in _columns(0) if c[0] != "net")
+    columns = _fit(_columns(max(16, min(40, width - fixed - 1))), rows, width)
+
+    def line(cells):
+        return " ".join(
+            f"{v:>{w}}" if right else f"{v:{w}}" for v, (_, w, right, _, _) in zip(cells, columns)
+        ).rstrip()
+
+    head = line([c[0] for c in columns])
     lines = [head, "-" * len(head)]
     for i, f in enumerate(rows, 1):
-        lines.append(
-            f"{i:>3} {f['severity']:8} {f['kind']:17} {(f.get('gap_type') or '-')[:6]:6} "
-            f"{f['net'][:18]:18} {f['layer']:5} {f.get('reference_layer') or '-':5} "
-            f"{f['x_mm']:8.2f} {f['y_mm']:8.2f} {_fmt(f.get('detour_mm'), '9.2f'):>9} "
-            f"{_fmt(_percent(f.get('interrupted_fraction')), '5.0f'):>5} "
-            f"{_fmt(f.get('added_inductance_nH'), '8.2f'):>8} "
-            f"{_fmt(f.get('resonance_GHz'), '7.2f'):>7}"
-        )
+        lines.append(line([str(i) if get is None else get(f) for _, _, _, get, _ in columns]))
     if limit and len(shown) > limit:
-        lines.append(f"... {len(shown) - limit} more in the JSON report")
+        where = "in the JSON report" if json_written else "(--json FILE or --limit for all)"
+        lines.append(f"... {len(shown) - limit} more {where}")
     quiet = [f for f in report["findings"] if _unestimated(f)]
     if quiet:
         pairs = sorted({f"{f['reference_net']}/{f['other_reference_net']}" for f in quiet})
@@ -55,6 +110,11 @@ def findings_table(report, limit=None):
             "information (an IPC-D-356 netlist gives it), so their loops are not estimated"
         )
     return "\n".join(lines)
+
+
+def _marked(f):
+    """The severity in words, upper case for an error (seen without colour, in a log)."""
+    return f["severity"].upper() if f["severity"] == "error" else f["severity"]
 
 
 def gaps_block(report, limit=None):
@@ -100,10 +160,24 @@ def summary_line(report):
     status = "INCOMPLETE board data (partial answer): " if s.get("status") == "incomplete" else ""
     return (
         f"returngap: {report['board']['name']}: {status}{s['findings']} finding(s) "
-        f"({s['error']} error, {s['warning']} warning, {s['info']} info) on "
+        f"({s['error']} error, {s['warning']} warning, {s['info']} info{_apart(report)}) on "
         f"{s['tracks_checked']} track(s) at {_edge_rate(report)}; "
         f"estimates only, see disclaimer"
     )
+
+
+def _apart(report):
+    """Waived findings and the baseline's word, counted apart in the summary line."""
+    found = report["findings"]
+    out = ""
+    waived = sum(1 for f in found if f.get("waiver"))
+    if waived:
+        out += f"; {waived} waived"
+    if any(f.get("status") for f in found) or report.get("resolved") is not None:
+        new = sum(1 for f in found if f.get("status") == "new")
+        same = sum(1 for f in found if f.get("status") == "unchanged")
+        out += f"; {new} new, {same} unchanged, {len(report.get('resolved') or [])} resolved"
+    return out
 
 
 def _edge_rate(report):

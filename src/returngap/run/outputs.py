@@ -41,6 +41,7 @@ def write_outputs(result, rep, out_dir, fail_on, quiet=True, workers=0):
     curves = _frequency_views(result, rep, out)
     write_text(out / "findings.csv", report.to_csv(rep))
     write_text(out / "junit.xml", report.to_junit(rep, fail_on))
+    write_text(out / "findings.sarif", report.to_json(report.to_sarif(rep)))
     images = {f["id"]: out / f"finding-{f['id']}.png" for f in rep["findings"]}
     todo = [(out / "overview.png", None, None)]
     todo += [(images[f["id"]], f, i) for i, f in enumerate(rep["findings"], 1)]

@@ -108,6 +108,9 @@ def run_check(sources, stackup_file=None, settings=None, scratch=None, workers=0
     if settings.field_solves:
         findings = fieldsolve.solve_nearest(board, nets, chains, findings, settings, planes)
     findings = frequency.with_frequency_fields(board, refs, chains, findings, settings)
+    findings = references.only_wanted(findings, settings)
+    for glob in references.unmatched_globs(nets, settings):
+        board.assume(f"--nets {glob}: matches no routed signal net")
     given = sources if isinstance(sources, (list, tuple)) else [sources]
     inputs = {
         "sources": [str(s) for s in given],
