@@ -62,8 +62,10 @@ def test_pictures_drawn_in_two_processes_match_one(tmp_path, monkeypatch):
     assert pools, "the two-process path did not run"
     one = sorted(p.name for p in (tmp_path / "one").iterdir())
     viewed = sum(1 for f in rep["findings"] if f.get("s21_loss_at_knee_dB") is not None)
-    # pictures, overview, JSON, CSV, JUnit, SARIF, HTML; a Touchstone and a CSV per frequency view
-    assert len(one) == len(rep["findings"]) + 6 + 2 * viewed
+    pictured = len(outputs._pictured(rep["findings"], "warning"))
+    planes = len({f["reference_layer"] for f in rep["findings"] if f.get("reference_layer")})
+    # pictures, overviews, JSON, CSV, JUnit, SARIF, HTML; a Touchstone and a CSV per frequency view
+    assert len(one) == pictured + 1 + planes + 5 + 2 * viewed
     assert one == sorted(p.name for p in (tmp_path / "two").iterdir())
     for name in one:
         assert (tmp_path / "one" / name).read_bytes() == (tmp_path / "two" / name).read_bytes(), (
@@ -128,8 +130,11 @@ def test_junit_reads_back_with_a_junit_library(tmp_path):
 
 def test_html_is_self_contained(demo_out):
     page = (demo_out / "report.html").read_text()
-    assert page.count("data:image/png;base64,") == 1 + len(
-        json.loads((demo_out / "findings.json").read_text())["findings"]
+    pictures = list(demo_out.glob("finding-*.png")) + list(demo_out.glob("overview*.png"))
+    assert page.count("data:image/png;base64,") == len(pictures)
+    rep = json.loads((demo_out / "findings.json").read_text())
+    assert len(list(demo_out.glob("finding-*.png"))) == sum(
+        1 for f in rep["findings"] if f["severity"] != "info"
     )
     assert "src='http" not in page and 'src="http' not in page and "<link" not in page
     assert "id='findings'" in page and "estimates" in page.lower()

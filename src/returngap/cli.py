@@ -191,6 +191,13 @@ def layers(ctx, board, stackup_file, as_json):
 )
 @click.option("--by-net", is_flag=True, help="Print a per-net summary after the findings.")
 @click.option(
+    "--pictures",
+    type=click.Choice(["error", "warning", "info", "none"]),
+    default="warning",
+    show_default=True,
+    help="With --out: pictures for findings at or above this severity (the HTML lists the rest).",
+)
+@click.option(
     "--solve",
     "field_solves",
     type=click.IntRange(min=0),
@@ -219,6 +226,7 @@ def check(
     allow_incomplete,
     show_all,
     by_net,
+    pictures,
     field_solves,
 ):
     """Find where return current must detour around slots, splits and voids."""
@@ -260,7 +268,7 @@ def check(
         elif json_file:
             outputs.write_text(json_file, report.to_json(rep))
         if out_dir:
-            outputs.write_outputs(result, rep, out_dir, fail_on, quiet)
+            outputs.write_outputs(result, rep, out_dir, fail_on, quiet, pictures=pictures)
         _print_text(rep, quiet, limit, by_net, bool(json_file or out_dir), to_stdout)
         bad = report.FAIL_LEVELS[fail_on]
         counted = [
@@ -319,6 +327,40 @@ def solve(ctx, report_file, finding_id, board_files, as_json):
         click.echo(report.to_json(finding) if as_json else report.solve_text(finding))
 
     _run(ctx, go)
+
+
+@main.command()
+@click.argument("report_file", type=click.Path(exists=True, dir_okay=False))
+@click.option("--id", "finding_id", help="Draw this finding of the report.")
+@click.option("--area", help="Draw this box of the board instead: x1,y1,x2,y2 (mm).")
+@click.option("--layer", help="With --area: the plane layer to draw (e.g. L2).")
+@click.option("--board", "board_files", multiple=True, type=click.Path(), help="See solve.")
+@click.option("--png", "png_file", type=click.Path(), required=True, help="Write the picture here.")
+@_debug_option
+@click.pass_context
+def show(ctx, report_file, finding_id, area, layer, board_files, png_file):
+    """Draw one picture from a saved report and its board: a finding, or an area of a plane."""
+    from returngap.run import solveone
+
+    if bool(finding_id) == bool(area):
+        raise click.UsageError("give --id ID or --area x1,y1,x2,y2 (with --layer)")
+    if area and not layer:
+        raise click.UsageError("--area needs --layer")
+
+    def go():
+        box = _parse_area(area) if area else None
+        solveone.draw_from_report(report_file, png_file, finding_id, box, layer, list(board_files))
+        click.echo(f"returngap: wrote {png_file}")
+
+    _run(ctx, go)
+
+
+def _parse_area(text):
+    try:
+        x1, y1, x2, y2 = (float(v) for v in text.split(","))
+    except ValueError:
+        raise click.UsageError(f"--area {text}: give four numbers, x1,y1,x2,y2 (mm)") from None
+    return min(x1, x2), min(y1, y2), max(x1, x2), max(y1, y2)
 
 
 @main.command()

@@ -113,8 +113,9 @@ def _net_section(report, e):
     return rows + ["</tbody></table>"]
 
 
-def page(report, images, overview=None):
-    """images: {finding id: png path}; overview: png path."""
+def page(report, images, overview=None, overviews=()):
+    """images: {finding id: png path} (the findings without one are listed in the table only);
+    overview: png path; overviews: one png per reference plane with findings."""
     e = html.escape
     b = report["board"]
     s = report["summary"]
@@ -233,6 +234,17 @@ def page(report, images, overview=None):
             f"<figure><img alt='board overview' src='{_img(overview)}'><figcaption>Board "
             "overview, findings "
             "numbered as in the table.</figcaption></figure>"
+        )
+    for p in overviews:
+        parts.append(
+            f"<figure><img alt='{e(p.stem)}' src='{_img(p)}'><figcaption>{e(p.stem)}: the "
+            "findings over this plane only.</figcaption></figure>"
+        )
+    unpictured = [f for f in report["findings"] if f["id"] not in images]
+    if unpictured:
+        parts.append(
+            f"<p>{len(unpictured)} finding(s) below the picture level have no picture; the "
+            "table lists them (returngap show REPORT --id ID draws one).</p>"
         )
     for i, f in enumerate(report["findings"], 1):
         if f["id"] in images:

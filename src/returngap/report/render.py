@@ -24,9 +24,12 @@ __all__ = [
     "GAP",
     "DETOUR",
     "MARK",
+    "SHAPE",
     "WIDTH_PX",
+    "legend_entries",
     "overview_png",
     "finding_png",
+    "area_png",
 ]
 
 PLANE = "#c9d6e3"  # reference-plane copper
@@ -37,6 +40,7 @@ FOOTPRINT = "#56b4e980"  # translucent sky blue
 GAP = "#d55e00"  # vermilion: the gap the track crosses
 DETOUR = "#009e73"  # bluish green: the detour path
 MARK = {"error": "#d55e00", "warning": "#e69f00", "info": "#0072b2"}
+SHAPE = {"error": "X", "warning": "^", "info": "o"}  # severity by shape too, not colour alone
 WIDTH_PX = 1200
 
 
@@ -89,13 +93,25 @@ def _figure(x0, y0, x1, y1, caption_lines=0):
     ax.set_xlim(x0, x1)
     ax.set_ylim(y0, y1)
     ax.set_aspect("equal", adjustable="box")
-    ax.set_xlabel("x (mm)")
-    ax.set_ylabel("y (mm)")
-    ax.tick_params(labelsize=8)
+    ax.set_xlabel("x (mm)", fontsize=12)
+    ax.set_ylabel("y (mm)", fontsize=12)
+    ax.tick_params(labelsize=11)  # readable where the HTML shows the picture 800 px wide
     return fig, ax
 
 
+_PLANES = {}  # (result, layer, net) -> (plane, other): a layer's union built once per run
+
+
 def _plane_geoms(result, layer, net=None):
+    key = (id(result), layer, net)
+    if key not in _PLANES:
+        if len(_PLANES) > 16:  # another run's entries
+            _PLANES.clear()
+        _PLANES[key] = _plane_union(result, layer, net)
+    return _PLANES[key]
+
+
+def _plane_union(result, layer, net=None):
     ln = result.nets.layers[layer]
     ref, other = [], []
     for i, p in ln.islands_of(result.nets.plane_nets):
@@ -106,59 +122,139 @@ def _plane_geoms(result, layer, net=None):
     ) if other else shapely.Polygon()
 
 
-def overview_png(result, report, path):
-    """The whole board: the reference plane with most findings, every checked track, findings
-    numbered."""
+def overview_png(result, report, path, layer=None):
+    """The whole board: a reference plane's copper (`layer`, else the one with most findings),
+    every checked track, and the findings over that plane (all of them without `layer`), numbered
+    as in the table; only errors and warnings get a number, the rest a small mark."""
     board = result.board
     x0, y0, x1, y1 = board.outline.bounds
     pad = 0.03 * max(x1 - x0, y1 - y0)
     x0, y0, x1, y1 = x0 - pad, y0 - pad, x1 + pad, y1 + pad
-    findings = report["findings"]
-    layers = [f["reference_layer"] for f in findings if f.get("reference_layer")]
-    base = (
+    numbered = list(enumerate(report["findings"], 1))
+    layers = [f["reference_layer"] for _, f in numbered if f.get("reference_layer")]
+    base = layer or (
         max(set(layers), key=layers.count)
         if layers
-        else next(
-            (name for name, is_plane in result.planes.items() if is_plane), board.copper[0].name
-        )
+        else next((n for n, is_plane in result.planes.items() if is_plane), board.copper[0].name)
     )
+    if layer:
+        numbered = [(i, f) for i, f in numbered if f.get("reference_layer") == layer]
     fig, ax = _figure(x0, y0, x1, y1)
     _fill(ax, board.outline, "white", edge="#444444", lw=0.8, z=0)
-    plane, other = _plane_geoms(result, base)
+    plane, _ = _plane_geoms(result, base)
     _fill(ax, plane, PLANE, PLANE_EDGE, 0.3, z=1)
     for ch in result.chains:
         c = np.asarray(ch.line.coords)
         ax.plot(c[:, 0], c[:, 1], color=TRACK, lw=0.5, alpha=0.6, zorder=3)
-    for i, f in enumerate(findings, 1):
-        col = MARK[f["severity"]]
-        ax.plot(f["x_mm"], f["y_mm"], "o", ms=9, mfc="none", mec=col, mew=2.0, zorder=10)
-        ax.annotate(
-            str(i),
-            (f["x_mm"], f["y_mm"]),
-            xytext=(6, 6),
-            textcoords="offset points",
-            fontsize=8,
-            color=col,
-            fontweight="bold",
-            zorder=11,
-        )
-    s = report["summary"]
+    unlabelled = sum(1 for _, f in numbered if f["severity"] == "info")
+    counts = {s: sum(1 for _, f in numbered if f["severity"] == s) for s in MARK}
     ax.set_title(
-        f"{report['board']['name']}: plane copper of {base}, {s['tracks_checked']} checked tracks, "
-        f"{s['findings']} findings ({s['error']} error, {s['warning']} warning, {s['info']} info)",
-        fontsize=10,
+        f"{report['board']['name']}: plane copper of {base}, {len(numbered)} finding(s) over it "
+        f"({counts['error']} error, {counts['warning']} warning, {counts['info']} info)",
+        fontsize=13,
     )
+    _overview_legend(ax, base, unlabelled)
     _scale_bar(ax, x0, x1, y0, y1)
-    fig.text(
-        0.01,
-        0.005,
-        "Estimates for review only; see the report's disclaimer.",
-        fontsize=7,
-        color="#555555",
-    )
+    fig.text(0.01, 0.005, "Estimates for review; see the report's assumptions.", fontsize=9)
     fig.tight_layout()
+    _mark_findings(ax, numbered)  # after the layout: the numbers are placed in final pixels
     fig.savefig(path, dpi=100)
     plt.close(fig)
+
+
+_OFFSETS = [  # label places round a mark, in points: three rings of eight, nearest first
+    (round(r * math.cos(a)), round(r * math.sin(a)))
+    for r in (14, 28, 42, 56)
+    for a in [k * math.pi / 4 + math.pi / 8 for k in range(8)]
+]
+
+
+def _mark_findings(ax, numbered):
+    """Each finding's mark by severity shape; numbers for errors and warnings, each put at the
+    nearest place clear of the marks and numbers already there (in pixels), with a leader line.
+    Returns how many went unnumbered."""
+    unlabelled = 0
+    to_px = ax.transData.transform
+    scale = ax.figure.dpi / 72.0  # offsets are in points
+    placed = [tuple(to_px((f["x_mm"], f["y_mm"]))) for _, f in numbered]  # the marks themselves
+    for i, f in sorted(numbered, key=lambda t: ORDER_RANK[t[1]["severity"]]):
+        sev, xy = f["severity"], (f["x_mm"], f["y_mm"])
+        big = sev != "info"
+        ax.plot(
+            *xy,
+            SHAPE[sev],
+            ms=10 if big else 5,
+            mfc="none",
+            mec=MARK[sev],
+            mew=2.0 if big else 1.0,
+            zorder=10,
+        )
+        if not big:
+            unlabelled += 1
+            continue
+        px = to_px(xy)
+        best = _free_place(px, placed, scale)
+        placed.append((px[0] + scale * best[0], px[1] + scale * best[1]))
+        ax.annotate(
+            str(i),
+            xy,
+            xytext=best,
+            textcoords="offset points",
+            fontsize=10,
+            color=MARK[sev],
+            fontweight="bold",
+            zorder=11,
+            arrowprops={"arrowstyle": "-", "color": MARK[sev], "lw": 0.6},
+        )
+    return unlabelled
+
+
+ORDER_RANK = {"error": 0, "warning": 1, "info": 2}
+LABEL_GAP_PX = 24  # a number this near another is taken as overlapping it
+
+
+def _free_place(px, placed, scale=1.0):
+    """The nearest offset (points; `scale` pixels per point) whose label keeps LABEL_GAP_PX from
+    every mark and label placed; else the one farthest from them."""
+
+    def room(o):
+        at = (px[0] + scale * o[0], px[1] + scale * o[1])
+        return min([math.dist(at, q) for q in placed] + [1e9])
+
+    for o in _OFFSETS:
+        if room(o) >= LABEL_GAP_PX:
+            return o
+    return max(_OFFSETS, key=room)
+
+
+def _overview_legend(ax, base, unlabelled):
+    from matplotlib.lines import Line2D
+    from matplotlib.patches import Patch
+
+    handles = [
+        Patch(facecolor=PLANE, edgecolor=PLANE_EDGE, label=f"plane copper on {base}"),
+        Line2D([], [], color=TRACK, lw=1, label="checked tracks"),
+    ]
+    for sev in ("error", "warning", "info"):
+        note = (
+            " (numbered as in the table)"
+            if sev != "info"
+            else (f" ({unlabelled} unnumbered; see the table)" if unlabelled else "")
+        )
+        handles.append(
+            Line2D(
+                [],
+                [],
+                color=MARK[sev],
+                ls="none",
+                marker=SHAPE[sev],
+                ms=9,
+                mfc="none",
+                mew=2,
+                label=f"{sev}{note}",
+            )
+        )
+    ax.legend(handles=handles, loc="upper right", fontsize=10, framealpha=0.92)
 
 
 def finding_png(result, finding, number, path, curve=None):
@@ -195,7 +291,7 @@ def finding_png(result, finding, number, path, curve=None):
     gaps = window.intersection(result.board.outline).difference(plane.union(other))
     for g in shapely.get_parts(gaps):
         if g.distance(shapely.Point(x, y)) < 1e-3 + 0.5 * half:
-            _fill(ax, g, GAP + "55", GAP, 1.2, z=2)
+            _fill(ax, g, GAP + "55", GAP, 1.6, z=5)  # above the footprint: the crossing shows
     for ch in result.chains:
         if ch.net != finding["net"] or ch.layer != finding["layer"]:
             continue
@@ -216,21 +312,24 @@ def finding_png(result, finding, number, path, curve=None):
     if path_pts:
         p = np.asarray(path_pts)
         ax.plot(p[:, 0], p[:, 1], color=DETOUR, lw=2.2, ls="--", zorder=6, label="return path")
-    ax.plot(x, y, "o", ms=14, mfc="none", mec=MARK[finding["severity"]], mew=2.5, zorder=7)
-    ax.plot(x, y, "o", ms=5, mfc=MARK[finding["severity"]], mec="none", zorder=8)
+    sev = finding["severity"]
+    ax.plot(x, y, SHAPE[sev], ms=16, mfc="none", mec=MARK[sev], mew=2.5, zorder=7)
+    ax.plot(x, y, "o", ms=4, mfc=MARK[sev], mec="none", zorder=8)
+    _legend(ax, finding, bool(path_pts))
     what = (
         f"{finding['gap_type']} ({finding['kind']})" if finding.get("gap_type") else finding["kind"]
     )
     over = (
         f" over {finding['reference_net']} on {ref_layer}" if finding.get("reference_net") else ""
     )
+    bottom = finding["layer"] == result.board.copper[-1].name and len(result.board.copper) > 1
     ax.set_title(
         f"#{number} {finding['severity'].upper()}  {finding['net']} on "
-        f"{finding['layer']}{over}: {what}",
-        fontsize=10,
+        f"{finding['layer']}{over}: {what}" + ("  (bottom layer, seen from top)" if bottom else ""),
+        fontsize=13,
     )
     _scale_bar(ax, x0, x1, y0, y1)
-    fig.text(0.01, 0.01, caption, fontsize=9, family="monospace", va="bottom")
+    fig.text(0.01, 0.01, caption, fontsize=11, family="monospace", va="bottom")
     fig.tight_layout(rect=(0, 0.07, 1, 1))
     if curve is not None:
         _loss_inset(fig, finding, curve)
@@ -242,6 +341,95 @@ def finding_png(result, finding, number, path, curve=None):
     return float(px), float(
         height - py
     )  # where the finding sits in the picture, pixels from top-left
+
+
+def area_png(result, report, box, layer, path):
+    """A box of one plane layer for a ticket: its plane copper (every plane net), the checked
+    tracks, and the report's findings over that plane in the box, numbered as in the report."""
+    x0, y0, x1, y1 = box
+    fig, ax = _figure(x0, y0, x1, y1)
+    window = shapely.box(x0, y0, x1, y1)
+    _fill(ax, window.intersection(result.board.outline), "white", edge="#444444", lw=0.8, z=0)
+    plane, _ = _plane_geoms(result, layer)
+    _fill(ax, plane.intersection(window), PLANE, PLANE_EDGE, 0.3, z=1)
+    for ch in result.chains:
+        if ch.line.intersects(window):
+            c = np.asarray(ch.line.coords)
+            ax.plot(c[:, 0], c[:, 1], color=TRACK, lw=1.0, zorder=3)
+    numbered = [
+        (i, f)
+        for i, f in enumerate(report["findings"], 1)
+        if f.get("reference_layer") == layer and x0 <= f["x_mm"] <= x1 and y0 <= f["y_mm"] <= y1
+    ]
+    unlabelled = sum(1 for _, f in numbered if f["severity"] == "info")
+    ax.set_title(
+        f"{report['board']['name']}: {layer} in ({x0:g}, {y0:g})-({x1:g}, {y1:g}) mm, "
+        f"{len(numbered)} finding(s) over it",
+        fontsize=13,
+    )
+    _overview_legend(ax, layer, unlabelled)
+    _scale_bar(ax, x0, x1, y0, y1)
+    fig.text(0.01, 0.005, "Estimates for review; see the report's assumptions.", fontsize=9)
+    fig.tight_layout()
+    _mark_findings(ax, numbered)
+    fig.savefig(path, dpi=100)
+    plt.close(fig)
+
+
+def legend_entries(finding, has_path):
+    """(label, style) of what a finding's picture shows, its severity by shape and word; style is
+    ("patch", face, edge) or ("line", colour, line style, marker)."""
+    ref = finding.get("reference_net") or "plane"
+    out = [
+        (
+            f"{ref} copper on {finding.get('reference_layer') or finding['layer']}",
+            ("patch", PLANE, PLANE_EDGE),
+        ),
+        (_other_label(finding), ("patch", OTHER_NET, PLANE_EDGE)),
+        ("gap (no copper)", ("patch", GAP + "55", GAP)),
+        ("no copper: clearances, holes, off the board", ("patch", "white", "#444444")),
+        ("return footprint (where 90 % of the return flows)", ("patch", FOOTPRINT, "none")),
+        (f"track {finding['net']} on {finding['layer']}", ("line", TRACK, "-", "")),
+    ]
+    if has_path:
+        out.append(("return path round the gap", ("line", DETOUR, "--", "")))
+    sev = finding["severity"]
+    out.append((f"{sev}: this finding", ("line", MARK[sev], "none", SHAPE[sev])))
+    return out
+
+
+def _other_label(finding):
+    """The other side of a split by name; else any other plane net's copper."""
+    sides = finding.get("side_nets") or []
+    ref = finding.get("reference_net")
+    others = [n for n in sides if n != ref]
+    return f"{others[0]} copper (the split's other side)" if others else "other plane net's copper"
+
+
+def _legend(ax, finding, has_path):
+    from matplotlib.lines import Line2D
+    from matplotlib.patches import Patch
+
+    handles = []
+    for label, style in legend_entries(finding, has_path):
+        if style[0] == "patch":
+            handles.append(Patch(facecolor=style[1], edgecolor=style[2], label=label))
+        else:
+            handles.append(
+                Line2D(
+                    [],
+                    [],
+                    color=style[1],
+                    ls=style[2],
+                    marker=style[3] or None,
+                    ms=9,
+                    mfc="none",
+                    mew=2,
+                    lw=2,
+                    label=label,
+                )
+            )
+    ax.legend(handles=handles, loc="upper left", fontsize=10, framealpha=0.92)
 
 
 def _loss_inset(fig, finding, curve):
@@ -272,7 +460,7 @@ def _caption(f):
                 cur = ""
             cur += (" " if cur else "") + w
         lines.append(cur)
-        return "\n".join(lines[:2]) + f"   id {f['id']}   estimates, not measurements"
+        return "\n".join(lines[:2]) + f"   id {f['id']}   estimate, see the report's assumptions"
     det = "none in plane (split)" if f.get("detour_mm") is None else f"{f['detour_mm']:.2f} mm"
     lo, hi = f.get("added_inductance_range_nH") or (0, 0)
     res = f.get("resonance_GHz")
@@ -281,5 +469,5 @@ def _caption(f):
         f"resonance {res:.2f} GHz   return interrupted {100 * f['interrupted_fraction']:.0f} %\n"
         f"gap {f['gap_length_mm']:.2f} x {f['gap_width_mm']:.2f} mm at ({f['x_mm']:.2f}, "
         f"{f['y_mm']:.2f}) mm   "
-        f"id {f['id']}   estimates, not measurements"
+        f"id {f['id']}   estimate, see the report's assumptions"
     )
