@@ -93,11 +93,34 @@ def build(n_segments, seed=1):
     return b
 
 
+def many_findings(rows=20, cols=21):
+    """A board of many small findings (rows x cols, about 400): `rows` tracks on L1 over a whole
+    GND plane on L2, each crossing `cols` short slots (3 x 0.3 mm) cut under it one after another,
+    and L3 GND whole: each crossing adds a few tenths of a nH (info), as on a board full of small
+    antipad chains. What check --out must handle without drawing every one."""
+    pitch, step = 2.0, 4.0
+    width, height = 10 + cols * step, 10 + rows * pitch
+    b = SynthBoard(
+        "many", width, height, n_layers=4, dielectrics=[(0.2, 4.3), (1.0, 4.3), (0.2, 4.3)]
+    )
+    b.planes += [(2, "GND", rect(0, 0, width, height)), (3, "GND", rect(0, 0, width, height))]
+    for r in range(rows):
+        y = 5 + r * pitch + pitch / 2
+        b.tracks.append((1, f"D{r:02d}", [(2, y), (width - 2, y)], 0.15))
+        for c in range(cols):
+            x = 7 + c * step
+            b.cutouts.append((2, rect(x - 0.15, y - 1.5, x + 0.15, y + 1.5)))
+    b.vias += [Via(1, 1, "GND"), Via(width - 1, height - 1, "GND"), Via(1, height - 1, "GND")]
+    return b
+
+
 def main(argv):
     out = Path(argv[1])
     for n in map(int, argv[2:]):
         build(n).write(out / f"seg{n}", job_file=True)
         print(out / f"seg{n}")
+    many_findings().write(out / "many", job_file=True)
+    print(out / "many")
 
 
 if __name__ == "__main__":

@@ -82,6 +82,42 @@ print(dt, ref, cells, dl, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1
 """
 
 
+# `check --out` against `check` on one board, side by side: the reports and pictures (default
+# level, warning) on top of the analysis. Target: --out at most 2x check.
+OUT = """
+import sys, tempfile, time, warnings
+warnings.simplefilter("ignore")
+from returngap.run.pipeline import run_check
+from returngap.report import core as report
+from returngap.run import outputs
+t = time.perf_counter()
+r = run_check(sys.argv[1], sys.argv[2] if len(sys.argv) > 2 and sys.argv[2] else None)
+rep = report.findings_report(r)
+check = time.perf_counter() - t
+with tempfile.TemporaryDirectory() as out:
+    outputs.write_outputs(r, rep, out, "never")
+total = time.perf_counter() - t
+print(check, total, len(rep["findings"]))
+"""
+
+
+def out_lines(cases):
+    """check --out against check on the largest corpus board and a board of many findings."""
+    rows = []
+    for name, path, stack in cases:
+        runs = [[float(v) for v in run(OUT, path, stack or "")] for _ in range(3)]
+        ratio = statistics.median(r[1] / r[0] for r in runs)
+        check = statistics.median(r[0] for r in runs)
+        total = statistics.median(r[1] for r in runs)
+        ok = "met" if ratio <= 2.0 else "MISSED"
+        print(
+            f"{'check --out: ' + name:26} {int(runs[0][2]):>9} {check:>8.2f} {total:>8.2f} "
+            f"{ratio:>6.2f}   findings; --out / check, target <= 2: {ok}"
+        )
+        rows.append({"case": name, "check_s": check, "out_s": total, "ratio": ratio})
+    return rows
+
+
 def solver_line():
     runs = [[float(v) for v in run(SOLVE)] for _ in range(3)]
     dt = statistics.median(r[0] for r in runs)
@@ -157,6 +193,10 @@ def main():
             f"{r['findings']:>8} {len(pairs):>5}"
         )
     solver = solver_line()
+    out_cases = [("many findings (generated)", tmp / "many", None)]
+    if (CORPUS / "ulx3s-v3.1.1").exists():
+        out_cases.insert(0, ("ulx3s-v3.1.1", CORPUS / "ulx3s-v3.1.1", None))
+    out_rows = out_lines(out_cases)
     synth = [r for r in rows if r["case"].startswith("synthetic")]
     if len(synth) >= 2:
         xs = [math.log(r["segments"]) for r in synth]
@@ -173,7 +213,9 @@ def main():
     )
     (ROOT / "out").mkdir(exist_ok=True)
     (ROOT / "out" / "bench.json").write_text(
-        json.dumps({"rows": rows, "exponent": exponent, "solver": solver}, indent=1)
+        json.dumps(
+            {"rows": rows, "exponent": exponent, "solver": solver, "out": out_rows}, indent=1
+        )
     )
     shutil.rmtree(tmp, ignore_errors=True)
     print(f"bench: ratio_check_to_parse={median:.2f} exponent={exponent:.2f}")

@@ -36,9 +36,11 @@ def demo_out(tmp_path_factory):
 
 def test_pictures_exist_decode_and_are_ticket_sized(demo_out):
     rep = json.loads((demo_out / "findings.json").read_text())
-    pngs = [demo_out / "overview.png"] + [
-        demo_out / f"finding-{f['id']}.png" for f in rep["findings"]
-    ]
+    pngs = sorted(demo_out.glob("overview*.png")) + sorted(demo_out.glob("finding-*.png"))
+    # a picture for each error and warning (the default level), and the overviews
+    assert len(list(demo_out.glob("finding-*.png"))) == sum(
+        1 for f in rep["findings"] if f["severity"] != "info"
+    )
     for p in pngs:
         img = Image.open(p)
         img.load()
@@ -53,16 +55,16 @@ def test_pictures_drawn_in_two_processes_match_one(tmp_path, monkeypatch):
 
     result = run_check(DEMO, DEMO / "stackup.toml", workers=1)
     rep = report.findings_report(result)
-    outputs.write_outputs(result, rep, tmp_path / "one", "never", workers=1)
+    outputs.write_outputs(result, rep, tmp_path / "one", "never", workers=1, pictures="info")
     monkeypatch.setattr(parallel.threading, "active_count", lambda: 1)  # other tests' threads aside
     pools = []
     real_fork = parallel._fork
     monkeypatch.setattr(parallel, "_fork", lambda: pools.append(1) or real_fork())
-    outputs.write_outputs(result, rep, tmp_path / "two", "never", workers=2)
+    outputs.write_outputs(result, rep, tmp_path / "two", "never", workers=2, pictures="info")
     assert pools, "the two-process path did not run"
     one = sorted(p.name for p in (tmp_path / "one").iterdir())
     viewed = sum(1 for f in rep["findings"] if f.get("s21_loss_at_knee_dB") is not None)
-    pictured = len(outputs._pictured(rep["findings"], "warning"))
+    pictured = len(rep["findings"])  # every finding at the info level
     planes = len({f["reference_layer"] for f in rep["findings"] if f.get("reference_layer")})
     # pictures, overviews, JSON, CSV, JUnit, SARIF, HTML; a Touchstone and a CSV per frequency view
     assert len(one) == pictured + 1 + planes + 5 + 2 * viewed
