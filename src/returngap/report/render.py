@@ -60,8 +60,22 @@ def _path(geom):
 
 def _fill(ax, geom, face, edge="none", lw=0.0, z=1):
     p = _path(geom)
-    if p is not None:
-        ax.add_patch(PathPatch(p, facecolor=face, edgecolor=edge, linewidth=lw, zorder=z))
+    if p is not None:  # an artist, not a patch: the limits are set, so no data-limit walk
+        ax.add_artist(PathPatch(p, facecolor=face, edgecolor=edge, linewidth=lw, zorder=z))
+
+
+def _tracks(ax, chains, window=None, lw=0.5, alpha=0.6):
+    """The checked tracks as one collection (one artist, not one per track)."""
+    from matplotlib.collections import LineCollection
+
+    lines = [
+        np.asarray(ch.line.coords) for ch in chains if window is None or ch.line.intersects(window)
+    ]
+    if lines:
+        ax.add_collection(
+            LineCollection(lines, colors=TRACK, linewidths=lw, alpha=alpha, zorder=3),
+            autolim=False,
+        )
 
 
 def _scale_bar(ax, x0, x1, y0, y1):
@@ -100,6 +114,21 @@ def _figure(x0, y0, x1, y1, caption_lines=0):
 
 
 _PLANES = {}  # (result, layer, net) -> (plane, other): a layer's union built once per run
+
+
+def _layout(fig, caption_in=0.25):
+    """Fixed margins in inches (a tight layout measures every text: a third of a picture's time),
+    `caption_in` at the bottom for the caption under the axis labels."""
+    w, h = fig.get_size_inches()
+    fig.subplots_adjust(
+        left=0.75 / w, right=1 - 0.2 / w, top=1 - 0.45 / h, bottom=(0.55 + caption_in) / h
+    )
+
+
+def _save(fig, path):
+    """PNG at a light compression: the pictures are flat colours, so size barely grows, and
+    encoding is a good part of their time."""
+    fig.savefig(path, dpi=100, pil_kwargs={"compress_level": 3})
 
 
 def _plane_geoms(result, layer, net=None):
@@ -143,9 +172,7 @@ def overview_png(result, report, path, layer=None):
     _fill(ax, board.outline, "white", edge="#444444", lw=0.8, z=0)
     plane, _ = _plane_geoms(result, base)
     _fill(ax, plane, PLANE, PLANE_EDGE, 0.3, z=1)
-    for ch in result.chains:
-        c = np.asarray(ch.line.coords)
-        ax.plot(c[:, 0], c[:, 1], color=TRACK, lw=0.5, alpha=0.6, zorder=3)
+    _tracks(ax, result.chains)
     unlabelled = sum(1 for _, f in numbered if f["severity"] == "info")
     counts = {s: sum(1 for _, f in numbered if f["severity"] == s) for s in MARK}
     ax.set_title(
@@ -156,9 +183,9 @@ def overview_png(result, report, path, layer=None):
     _overview_legend(ax, base, unlabelled)
     _scale_bar(ax, x0, x1, y0, y1)
     fig.text(0.01, 0.005, "Estimates for review; see the report's assumptions.", fontsize=9)
-    fig.tight_layout()
+    _layout(fig)
     _mark_findings(ax, numbered)  # after the layout: the numbers are placed in final pixels
-    fig.savefig(path, dpi=100)
+    _save(fig, path)
     plt.close(fig)
 
 
@@ -170,28 +197,31 @@ _OFFSETS = [  # label places round a mark, in points: three rings of eight, near
 
 
 def _mark_findings(ax, numbered):
-    """Each finding's mark by severity shape; numbers for errors and warnings, each put at the
-    nearest place clear of the marks and numbers already there (in pixels), with a leader line.
-    Returns how many went unnumbered."""
-    unlabelled = 0
+    """Each finding's mark by severity shape (one artist per severity); numbers for errors and
+    warnings, each put at the nearest place clear of the marks and numbers already there (in
+    pixels), with a leader line. Returns how many went unnumbered."""
+    for sev in ("info", "warning", "error"):
+        xy = np.array([(f["x_mm"], f["y_mm"]) for _, f in numbered if f["severity"] == sev])
+        if len(xy):
+            big = sev != "info"
+            ax.plot(
+                xy[:, 0],
+                xy[:, 1],
+                ls="none",
+                marker=SHAPE[sev],
+                ms=10 if big else 5,
+                mfc="none",
+                mec=MARK[sev],
+                mew=2.0 if big else 1.0,
+                zorder=10,
+            )
     to_px = ax.transData.transform
     scale = ax.figure.dpi / 72.0  # offsets are in points
     placed = [tuple(to_px((f["x_mm"], f["y_mm"]))) for _, f in numbered]  # the marks themselves
     for i, f in sorted(numbered, key=lambda t: ORDER_RANK[t[1]["severity"]]):
-        sev, xy = f["severity"], (f["x_mm"], f["y_mm"])
-        big = sev != "info"
-        ax.plot(
-            *xy,
-            SHAPE[sev],
-            ms=10 if big else 5,
-            mfc="none",
-            mec=MARK[sev],
-            mew=2.0 if big else 1.0,
-            zorder=10,
-        )
-        if not big:
-            unlabelled += 1
+        if f["severity"] == "info":
             continue
+        xy = (f["x_mm"], f["y_mm"])
         px = to_px(xy)
         best = _free_place(px, placed, scale)
         placed.append((px[0] + scale * best[0], px[1] + scale * best[1]))
@@ -201,12 +231,12 @@ def _mark_findings(ax, numbered):
             xytext=best,
             textcoords="offset points",
             fontsize=10,
-            color=MARK[sev],
+            color=MARK[f["severity"]],
             fontweight="bold",
             zorder=11,
-            arrowprops={"arrowstyle": "-", "color": MARK[sev], "lw": 0.6},
+            arrowprops={"arrowstyle": "-", "color": MARK[f["severity"]], "lw": 0.6},
         )
-    return unlabelled
+    return sum(1 for _, f in numbered if f["severity"] == "info")
 
 
 ORDER_RANK = {"error": 0, "warning": 1, "info": 2}
@@ -330,13 +360,13 @@ def finding_png(result, finding, number, path, curve=None):
     )
     _scale_bar(ax, x0, x1, y0, y1)
     fig.text(0.01, 0.01, caption, fontsize=11, family="monospace", va="bottom")
-    fig.tight_layout(rect=(0, 0.07, 1, 1))
+    _layout(fig, caption_in=0.55)
     if curve is not None:
         _loss_inset(fig, finding, curve)
     ax.apply_aspect()  # the box the drawing will use: the finding's pixel without drawing twice
     px, py = ax.transData.transform((x, y))
     height = fig.get_size_inches()[1] * fig.dpi
-    fig.savefig(path, dpi=100)
+    _save(fig, path)
     plt.close(fig)
     return float(px), float(
         height - py
@@ -352,10 +382,7 @@ def area_png(result, report, box, layer, path):
     _fill(ax, window.intersection(result.board.outline), "white", edge="#444444", lw=0.8, z=0)
     plane, _ = _plane_geoms(result, layer)
     _fill(ax, plane.intersection(window), PLANE, PLANE_EDGE, 0.3, z=1)
-    for ch in result.chains:
-        if ch.line.intersects(window):
-            c = np.asarray(ch.line.coords)
-            ax.plot(c[:, 0], c[:, 1], color=TRACK, lw=1.0, zorder=3)
+    _tracks(ax, result.chains, window, lw=1.0, alpha=1.0)
     numbered = [
         (i, f)
         for i, f in enumerate(report["findings"], 1)
@@ -370,9 +397,9 @@ def area_png(result, report, box, layer, path):
     _overview_legend(ax, layer, unlabelled)
     _scale_bar(ax, x0, x1, y0, y1)
     fig.text(0.01, 0.005, "Estimates for review; see the report's assumptions.", fontsize=9)
-    fig.tight_layout()
+    _layout(fig)
     _mark_findings(ax, numbered)
-    fig.savefig(path, dpi=100)
+    _save(fig, path)
     plt.close(fig)
 
 
