@@ -179,3 +179,25 @@ def test_sarif_validates_against_the_published_schema(tmp_path):
     assert {r["level"] for r in results} <= {"error", "warning", "note"}
     jsonschema.validate(rep, report.schema())
     assert os.path.exists(out / "junit.xml")
+
+
+def test_progress_line_on_a_terminal_only():
+    # a pseudo-terminal for stderr: the stage line shows there, and never in a pipe
+    import pty
+
+    env = {k: v for k, v in os.environ.items() if k != "CI"}
+    env["RETURNGAP_PROGRESS_AFTER_S"] = "0"
+    args = [sys.executable, "-m", "returngap.cli", "check", str(DEMO), "--fail-on", "never"]
+    main_fd, child_fd = pty.openpty()
+    p = subprocess.run(args, stdout=subprocess.PIPE, stderr=child_fd, env=env, timeout=120)
+    os.close(child_fd)
+    seen = b""
+    try:
+        while chunk := os.read(main_fd, 65536):
+            seen += chunk
+    except OSError:
+        pass
+    os.close(main_fd)
+    assert p.returncode == 0 and b"returngap: gap scan and checks..." in seen
+    piped = subprocess.run(args, capture_output=True, text=True, env=env, timeout=120)
+    assert "gap scan and checks" not in piped.stderr

@@ -255,7 +255,9 @@ def check(
     def go():
         waivers = review.load_waivers(waiver_file) if waiver_file else []
         baseline = review.load_baseline(baseline_file) if baseline_file else None
-        result = pipeline.run_check(list(board), stackup_file, settings)
+        stage = _stage_line(quiet)
+        result = pipeline.run_check(list(board), stackup_file, settings, stage=stage)
+        stage("")
         rep = report.findings_report(result)
         if waiver_file:
             review.apply_waivers(rep, waivers)
@@ -281,6 +283,31 @@ def check(
         return 1 if counted else 0
 
     sys.exit(_run(ctx, go))
+
+
+def _stage_line(quiet):
+    """A one-line progress display on a terminal (stderr) once a board takes over a second; never
+    in pipes, CI or with --quiet. Called with "" to clear it."""
+    import time
+
+    start = time.monotonic()
+    after = float(os.environ.get("RETURNGAP_PROGRESS_AFTER_S", "1"))
+    live = not quiet and sys.stderr.isatty() and not os.environ.get("CI")
+    shown = [False]
+
+    def stage(name):
+        if not live:
+            return
+        if not name:
+            if shown[0]:
+                sys.stderr.write("\r\033[K")
+            return
+        if time.monotonic() - start >= after:
+            sys.stderr.write(f"\r\033[Kreturngap: {name}...")
+            sys.stderr.flush()
+            shown[0] = True
+
+    return stage
 
 
 def _print_text(rep, quiet, limit, by_net, json_written, to_stderr):

@@ -319,7 +319,7 @@ def finding_png(result, finding, number, path, curve=None):
     _fill(ax, other, OTHER_NET, PLANE_EDGE, 0.3, z=1)
     _fill(ax, plane, PLANE, PLANE_EDGE, 0.3, z=1)
     gaps = window.intersection(result.board.outline).difference(plane.union(other))
-    for g in shapely.get_parts(gaps):
+    for g in shapely.get_parts(gaps) if finding["kind"] in GAP_KINDS else []:
         if g.distance(shapely.Point(x, y)) < 1e-3 + 0.5 * half:
             _fill(ax, g, GAP + "55", GAP, 1.6, z=5)  # above the footprint: the crossing shows
     for ch in result.chains:
@@ -359,6 +359,7 @@ def finding_png(result, finding, number, path, curve=None):
         fontsize=13,
     )
     _scale_bar(ax, x0, x1, y0, y1)
+    _explain(ax, finding, path_pts)
     fig.text(0.01, 0.01, caption, fontsize=11, family="monospace", va="bottom")
     _layout(fig, caption_in=0.55)
     if curve is not None:
@@ -371,6 +372,53 @@ def finding_png(result, finding, number, path, curve=None):
     return float(px), float(
         height - py
     )  # where the finding sits in the picture, pixels from top-left
+
+
+def _explain(ax, f, path_pts):
+    """Words on the drawing where a kind needs them: where a layer change's return crosses (the
+    bridging part or stitching via, and how far), the share of a slot's return round its near
+    end, the two vias of a stitching gap."""
+    box = {"boxstyle": "round,pad=0.3", "fc": "white", "ec": DETOUR, "alpha": 0.9}
+    if f["kind"] == "reference-change" and path_pts and f.get("distance_mm") is not None:
+        (xa, ya), (xb, yb) = path_pts[0], path_pts[-1]
+        what = f.get("bridge_part") or f"{f.get('reference_net')} stitching via"
+        ax.annotate(
+            f"return crosses at {what}",
+            (xb, yb),
+            xytext=(10, -18),
+            textcoords="offset points",
+            fontsize=10,
+            bbox=box,
+            zorder=12,
+        )
+        ax.text(
+            (xa + xb) / 2,
+            (ya + yb) / 2,
+            f"{f['distance_mm']:.1f} mm",
+            fontsize=10,
+            ha="center",
+            va="bottom",
+            color=DETOUR,
+            fontweight="bold",
+            zorder=12,
+        )
+    split = f.get("return_split")
+    if split and path_pts:
+        far = max(path_pts, key=lambda q: math.dist(q, (f["x_mm"], f["y_mm"])))
+        way = split["branch_lengths_mm"]
+        ax.annotate(
+            f"near end: {split['hf_share_near']:.0%} of the return (high frequency)\n"
+            f"far end ({way[1]:.1f} mm way): {1 - split['hf_share_near']:.0%}",
+            far,
+            xytext=(12, 12),
+            textcoords="offset points",
+            fontsize=10,
+            bbox=box,
+            zorder=12,
+        )
+    if f["kind"] == "stitching-spacing" and path_pts:
+        for q in (path_pts[0], path_pts[-1]):
+            ax.plot(*q, "o", ms=12, mfc="none", mec=DETOUR, mew=2.0, zorder=12)
 
 
 def area_png(result, report, box, layer, path):
@@ -415,14 +463,30 @@ def legend_entries(finding, has_path):
         (_other_label(finding), ("patch", OTHER_NET, PLANE_EDGE)),
         ("gap (no copper)", ("patch", GAP + "55", GAP)),
         ("no copper: clearances, holes, off the board", ("patch", "white", "#444444")),
+    ]
+    if finding["kind"] not in GAP_KINDS:
+        out = [e for e in out if not e[0].startswith("gap ")]
+    out += [
         ("return footprint (where 90 % of the return flows)", ("patch", FOOTPRINT, "none")),
         (f"track {finding['net']} on {finding['layer']}", ("line", TRACK, "-", "")),
     ]
     if has_path:
-        out.append(("return path round the gap", ("line", DETOUR, "--", "")))
+        out.append((_path_label(finding), ("line", DETOUR, "--", "")))
     sev = finding["severity"]
     out.append((f"{sev}: this finding", ("line", MARK[sev], "none", SHAPE[sev])))
     return out
+
+
+GAP_KINDS = ("gap-crossing", "edge-run")  # the kinds whose gap is the point of the picture
+
+
+def _path_label(finding):
+    if finding["kind"] == "reference-change":
+        where = finding.get("bridge_part") or "the stitching via"
+        return f"the return's way to {where}, where it changes plane"
+    if finding["kind"] == "stitching-spacing":
+        return "the widest gap between neighbouring stitching vias"
+    return "return path round the gap"
 
 
 def _other_label(finding):

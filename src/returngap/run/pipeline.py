@@ -90,21 +90,26 @@ def with_file_thresholds(settings, thresholds):
     return dataclasses.replace(settings, **given) if given else settings
 
 
-def run_check(sources, stackup_file=None, settings=None, scratch=None, workers=0):
+def run_check(sources, stackup_file=None, settings=None, scratch=None, workers=0, stage=None):
     """One board through every stage. workers: processes (0: both cores where the work pays,
-    1: this process only)."""
+    1: this process only); stage: told the name of each stage as it starts (a progress line)."""
     settings = settings or Settings()
+    stage = stage or (lambda name: None)
     runner = parallel.Parallel(workers)
+    stage("reading layers")
     board, cfg = read_board(sources, stackup_file, scratch, workers)
     settings = with_file_thresholds(settings, cfg.get("thresholds", {}))
     if not settings.allow_incomplete:  # refuse before the expensive stages
         completeness.enforce(board, board.problems, False)
+    stage("nets and references")
     nets = connectivity.build_nets(board, cfg, runner)
     refs, planes = references.find_references(board, nets, settings)
     chains = references.chains(board, nets, refs, settings)
     problems = board.problems + completeness.analysis_problems(board, planes, chains, settings)
     status = completeness.enforce(board, problems, settings.allow_incomplete)
+    stage("gap scan and checks")
     findings = _findings(board, nets, refs, chains, settings, runner)
+    stage("field solves and frequency views")
     if settings.field_solves:
         findings = fieldsolve.solve_nearest(board, nets, chains, findings, settings, planes)
     findings = frequency.with_frequency_fields(board, refs, chains, findings, settings)
