@@ -315,7 +315,11 @@ def finding_png(result, finding, number, path, curve=None):
     window = shapely.box(x0, y0, x1, y1)
     _fill(ax, window.intersection(result.board.outline), "white", edge="#444444", lw=0.8, z=0)
     plane, other = _plane_geoms(result, ref_layer, finding.get("reference_net"))
-    plane, other = plane.intersection(window), other.intersection(window)
+    # clipped to the view first (a box clip is cheap), so the rest works on the view's copper only
+    plane, other = (
+        shapely.clip_by_rect(plane, x0, y0, x1, y1),
+        shapely.clip_by_rect(other, x0, y0, x1, y1),
+    )
     _fill(ax, other, OTHER_NET, PLANE_EDGE, 0.3, z=1)
     _fill(ax, plane, PLANE, PLANE_EDGE, 0.3, z=1)
     gaps = window.intersection(result.board.outline).difference(plane.union(other))

@@ -2,7 +2,6 @@
 independent, so a large report's are drawn in two forked processes (here, in run/)."""
 
 import os
-import sys
 from pathlib import Path
 
 from returngap import report
@@ -22,15 +21,6 @@ def write_text(path, text):
     os.replace(tmp, path)
 
 
-def _progress(items, label, quiet):
-    """A bar on a terminal; silent when piped, in CI or with --quiet."""
-    if quiet or not sys.stderr.isatty() or os.environ.get("CI"):
-        return items
-    from tqdm import tqdm
-
-    return tqdm(items, desc=label, unit="", leave=False, file=sys.stderr)
-
-
 PICTURE_LEVELS = ("error", "warning", "info", "none")
 
 
@@ -43,53 +33,57 @@ def _pictured(findings, level):
 
 
 def write_outputs(result, rep, out_dir, fail_on, quiet=True, workers=0, pictures="warning"):
-    """pictures: the least severity that gets a picture (the HTML lists the rest without one)."""
+    """pictures: the least severity that gets a picture (the HTML lists the rest without one).
+    Every file is a task of its own, the pictures first (the heaviest): both processes take
+    them from one queue, so the text reports are written while pictures are drawn."""
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     for pattern in ("finding-*.png", "overview*.png", "finding-*.s2p", "finding-*-s_params.csv"):
         for old in out.glob(pattern):  # files of an earlier run would mislead
             old.unlink()
-    write_text(out / "findings.json", report.to_json(rep))
-    curves = _frequency_views(result, rep, out)
-    write_text(out / "findings.csv", report.to_csv(rep))
-    write_text(out / "junit.xml", report.to_junit(rep, fail_on))
-    write_text(out / "findings.sarif", report.to_json(report.to_sarif(rep)))
     chosen = {f["id"] for f in _pictured(rep["findings"], pictures)}
     images = {f["id"]: out / f"finding-{f['id']}.png" for f in rep["findings"] if f["id"] in chosen}
     planes = sorted({f["reference_layer"] for f in rep["findings"] if f.get("reference_layer")})
     overviews = [out / f"overview-{layer}.png" for layer in planes]
-    todo = [(out / "overview.png", None, None)] + [
-        (p, None, lay) for p, lay in zip(overviews, planes)
+    jobs = [lambda: render.overview_png(result, rep, out / "overview.png")]
+    jobs += [
+        lambda p=p, lay=lay: render.overview_png(result, rep, p, layer=lay)
+        for p, lay in zip(overviews, planes)
     ]
-    todo += [(images[f["id"]], f, i) for i, f in enumerate(rep["findings"], 1) if f["id"] in chosen]
-    n = parallel.Parallel(workers).processes("pictures", len(todo))
-
-    def draw(k):  # every n-th picture
-        for path, f, i in _progress(todo[k::n], "pictures", quiet or k > 0):
-            if f is None:
-                render.overview_png(result, rep, path, layer=i)
-            else:
-                render.finding_png(result, f, i, path, curves.get(f["id"]))
-
-    parallel.fork_map(draw, n, n)
+    jobs += [
+        lambda f=f, i=i: render.finding_png(result, f, i, images[f["id"]], curve_of(result, f))
+        for i, f in enumerate(rep["findings"], 1)
+        if f["id"] in chosen
+    ]
+    jobs += _text_jobs(result, rep, out, fail_on)
+    n = parallel.Parallel(workers).processes("pictures", len(jobs))
+    parallel.fork_map(lambda k: jobs[k]() and None, len(jobs), n)
     page = htmlpage.page(rep, images, out / "overview.png", overviews)
     write_text(out / "report.html", page)
 
 
-def _frequency_views(result, rep, out):
-    """Each finding with a frequency view: its curves (for its picture), a Touchstone file and a
-    CSV of them. {id: (f GHz, S21 dB with the gap, S21 dB without)}."""
-    curves = {}
-    for f in rep["findings"]:
-        if f.get("s21_loss_at_knee_dB") is None:
-            continue
-        with_gap, without, _ = frequency.crossing_curves(
-            result.board, result.refs, result.chains, f, result.settings
-        )
-        with_gap.write_touchstone(f"finding-{f['id']}", dir=str(out))
-        write_text(out / f"finding-{f['id']}-s_params.csv", report.s_params_csv(with_gap, without))
-        curves[f["id"]] = _curve(with_gap, without)
-    return curves
+def _text_jobs(result, rep, out, fail_on):
+    """The reports as text, and each frequency view's Touchstone and CSV files."""
+    jobs = [
+        lambda: write_text(out / "findings.json", report.to_json(rep)),
+        lambda: write_text(out / "findings.csv", report.to_csv(rep)),
+        lambda: write_text(out / "junit.xml", report.to_junit(rep, fail_on)),
+        lambda: write_text(out / "findings.sarif", report.to_json(report.to_sarif(rep))),
+    ]
+    return jobs + [
+        lambda f=f: _frequency_files(result, f, out)
+        for f in rep["findings"]
+        if f.get("s21_loss_at_knee_dB") is not None
+    ]
+
+
+def _frequency_files(result, f, out):
+    """A finding's frequency view as a Touchstone file and a CSV of its curves."""
+    with_gap, without, _ = frequency.crossing_curves(
+        result.board, result.refs, result.chains, f, result.settings
+    )
+    with_gap.write_touchstone(f"finding-{f['id']}", dir=str(out))
+    write_text(out / f"finding-{f['id']}-s_params.csv", report.s_params_csv(with_gap, without))
 
 
 def _curve(with_gap, without):
