@@ -173,20 +173,13 @@ def overview_png(result, report, path, layer=None):
     plane, _ = _plane_geoms(result, base)
     _fill(ax, plane, PLANE, PLANE_EDGE, 0.3, z=1)
     _tracks(ax, result.chains)
-    unlabelled = sum(1 for _, f in numbered if f["severity"] == "info")
     counts = {s: sum(1 for _, f in numbered if f["severity"] == s) for s in MARK}
     ax.set_title(
         f"{report['board']['name']}: plane copper of {base}, {len(numbered)} finding(s) over it "
         f"({counts['error']} error, {counts['warning']} warning, {counts['info']} info)",
         fontsize=13,
     )
-    _overview_legend(ax, base, unlabelled)
-    _scale_bar(ax, x0, x1, y0, y1)
-    fig.text(0.01, 0.005, "Estimates for review; see the report's assumptions.", fontsize=9)
-    _layout(fig)
-    _mark_findings(ax, numbered)  # after the layout: the numbers are placed in final pixels
-    _save(fig, path)
-    plt.close(fig)
+    _finish_map(fig, ax, base, numbered, path)
 
 
 _OFFSETS = [  # label places round a mark, in points: three rings of eight, nearest first
@@ -194,6 +187,20 @@ _OFFSETS = [  # label places round a mark, in points: three rings of eight, near
     for r in (14, 28, 42, 56)
     for a in [k * math.pi / 4 + math.pi / 8 for k in range(8)]
 ]
+
+
+def _finish_map(fig, ax, layer, numbered, path):
+    """A plane map's legend, scale, footer and numbered marks (placed after the layout, in final
+    pixels), saved."""
+    unlabelled = sum(1 for _, f in numbered if f["severity"] == "info")
+    _overview_legend(ax, layer, unlabelled)
+    (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
+    _scale_bar(ax, x0, x1, y0, y1)
+    fig.text(0.01, 0.005, "Estimates for review; see the report's assumptions.", fontsize=9)
+    _layout(fig)
+    _mark_findings(ax, numbered)
+    _save(fig, path)
+    plt.close(fig)
 
 
 def _mark_findings(ax, numbered):
@@ -440,19 +447,12 @@ def area_png(result, report, box, layer, path):
         for i, f in enumerate(report["findings"], 1)
         if f.get("reference_layer") == layer and x0 <= f["x_mm"] <= x1 and y0 <= f["y_mm"] <= y1
     ]
-    unlabelled = sum(1 for _, f in numbered if f["severity"] == "info")
     ax.set_title(
         f"{report['board']['name']}: {layer} in ({x0:g}, {y0:g})-({x1:g}, {y1:g}) mm, "
         f"{len(numbered)} finding(s) over it",
         fontsize=13,
     )
-    _overview_legend(ax, layer, unlabelled)
-    _scale_bar(ax, x0, x1, y0, y1)
-    fig.text(0.01, 0.005, "Estimates for review; see the report's assumptions.", fontsize=9)
-    _layout(fig)
-    _mark_findings(ax, numbered)
-    _save(fig, path)
-    plt.close(fig)
+    _finish_map(fig, ax, layer, numbered, path)
 
 
 def legend_entries(finding, has_path):
