@@ -117,3 +117,19 @@ def test_demo_board_crossings_have_their_curves(tmp_path):
         net = skrf.Network(str(out / f"finding-{f['id']}.s2p"))
         assert net.nports == 2 and len(net.f) > 100
         assert (out / f"finding-{f['id']}-s_params.csv").read_text().startswith("f_GHz,")
+
+
+def test_a_floating_island_dips_near_its_patch_resonance(tmp_path):
+    # the island as a patch resonator coupled to the track: its dip lies just below the patch
+    # frequency the finding reports (Hammerstad's fringing after Balanis), within 15 %, and the
+    # island adds loss at the knee
+    from boards import hazard_board
+    from returngap.model.settings import Settings
+    from returngap.run.pipeline import run_check
+
+    r = run_check(
+        hazard_board(tmp_path, stitch_pitch=8.0), settings=Settings(frequency_view="info")
+    )
+    [f] = [f for f in r.findings if f["kind"] == "floating-copper"]
+    assert 0.85 * f["resonance_GHz"] <= f["s21_first_dip_GHz"] <= f["resonance_GHz"]
+    assert f["s21_loss_at_knee_dB"] > f["s21_loss_at_knee_no_gap_dB"]

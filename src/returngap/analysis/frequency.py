@@ -13,25 +13,34 @@ import dataclasses
 import shapely
 
 from returngap.analysis import severity
+from returngap.analysis.references import line_z0
 
 __all__ = ["crossing_curves", "with_frequency_fields", "VIEW_KINDS"]
 
-VIEW_KINDS = ("gap-crossing",)
+VIEW_KINDS = ("gap-crossing", "floating-copper")
+# a floating island couples to the track along its length at about half the distance within
+# which the check reports islands (our assumption: the finding keeps no exact gap)
+ISLAND_GAP_SHARE = 0.5
 
 
 def _reference(refs, finding):
-    return next(r for r in refs[finding["layer"]] if r.layer == finding["reference_layer"])
+    """The reference of the finding's track: the one named, else the nearest (an island's)."""
+    mine = refs[finding["layer"]]
+    named = [r for r in mine if r.layer == finding.get("reference_layer")]
+    return named[0] if named else min(mine, key=lambda r: r.h_mm)
 
 
 def _sections(chains, finding):
-    """(before, after) routed length (mm) of the finding's track either side of the crossing."""
+    """(before, after, width): routed length (mm) of the finding's track either side of the
+    crossing, and the track's width."""
     p = shapely.Point(finding["x_mm"], finding["y_mm"])
+    width = finding.get("trace_width_mm")
     cands = [c for c in chains if c.net == finding["net"] and c.layer == finding["layer"]]
     if not cands:
-        return 25.0, 25.0  # no track found: 50 mm of line (our choice)
+        return 25.0, 25.0, width or 0.2  # no track found: 50 mm of line (our choice)
     ch = min(cands, key=lambda c: c.line.distance(p))
     s = ch.line.project(p)
-    return max(1.0, s), max(1.0, ch.line.length - s)
+    return max(1.0, s), max(1.0, ch.line.length - s), width or ch.width_mm
 
 
 def _gap_element(finding, f_Hz):
@@ -57,19 +66,37 @@ def crossing_curves(board, refs, chains, finding, settings):
     ref = _reference(refs, finding)
     freq = sparams.frequencies(settings.knee_GHz_for(finding["net"]))
     t = board.stackup.copper_thickness_mm.get(finding["layer"], 0.035)
-    media = sparams.line_media(freq, finding["trace_width_mm"], ref.h_mm, ref.er, t, ref.other_h_mm)
-    before, after = _sections(chains, finding)
+    before, after, width = _sections(chains, finding)
+    z0 = line_z0(board, finding["layer"], width, ref)  # ports matched to the track
+    media = sparams.line_media(freq, width, ref.h_mm, ref.er, t, ref.other_h_mm, z0)
+    a, b = media.line(before, "mm"), media.line(after, "mm")
+    if finding["kind"] == "floating-copper":
+        y = sparams.island_admittance(
+            freq.f,
+            finding["resonance_GHz"],
+            finding["area_mm2"],
+            ref.h_mm,
+            ref.er,
+            finding["island_length_mm"],
+            ISLAND_GAP_SHARE * settings.floating_coupling_mm,
+        )
+        return a ** sparams.shunt_network(freq, y, z0) ** b, a**b, y
     z_gap = _gap_element(finding, freq.f)
-    return (*sparams.crossing_networks(freq, media, before, after, z_gap), z_gap)
+    return a ** sparams.series_network(freq, z_gap, z0) ** b, a**b, z_gap
 
 
 def _fields(board, refs, chains, finding, settings):
     from returngap.physics import sparams
 
-    with_gap, without, z_gap = crossing_curves(board, refs, chains, finding, settings)
+    with_gap, without, element = crossing_curves(board, refs, chains, finding, settings)
     knee = settings.knee_GHz_for(finding["net"])
+    f = with_gap.frequency.f
+    if finding["kind"] == "floating-copper":
+        dip = sparams.shunt_dip_GHz(f, element, abs(without.z0[0, 0]))  # the track's own Z0
+    else:
+        dip = sparams.first_dip_GHz(f, element, finding["z0_ohm"])
     return dict(
-        s21_first_dip_GHz=sparams.first_dip_GHz(with_gap.frequency.f, z_gap, finding["z0_ohm"]),
+        s21_first_dip_GHz=dip,
         s21_loss_at_knee_dB=sparams.loss_at_dB(with_gap, knee),
         s21_loss_at_knee_no_gap_dB=sparams.loss_at_dB(without, knee),
     )

@@ -186,6 +186,10 @@ class FloatingCopper(Finding):
     resonance_GHz: float
     stitching_vias_needed: int
     height_mm: float
+    # the frequency view (analysis/frequency.py): the track's loss with the island beside it
+    s21_first_dip_GHz: float | None = _opt()
+    s21_loss_at_knee_dB: float = _opt()
+    s21_loss_at_knee_no_gap_dB: float = _opt()
 
 
 @dataclass(kw_only=True)

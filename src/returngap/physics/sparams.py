@@ -30,8 +30,12 @@ __all__ = [
     "line_media",
     "gap_impedance",
     "series_network",
+    "island_admittance",
+    "shunt_network",
+    "PATCH_Q",
     "crossing_networks",
     "first_dip_GHz",
+    "shunt_dip_GHz",
     "loss_at_dB",
 ]
 
@@ -47,14 +51,15 @@ def frequencies(knee_GHz, points=601):
     return skrf.Frequency(0.01, max(6.0, 3.0 * knee_GHz), points, unit="GHz")
 
 
-def line_media(freq, width_mm, h_mm, er, t_mm=0.035, other_h_mm=None):
-    """The track's line: microstrip over one plane, or stripline between two (50 ohm ports)."""
+def line_media(freq, width_mm, h_mm, er, t_mm=0.035, other_h_mm=None, z0_port=50.0):
+    """The track's line: microstrip over one plane, or stripline between two; its ports at
+    z0_port (the track's own impedance for a loss free of the ports' mismatch)."""
     if other_h_mm is None:
         with warnings.catch_warnings():  # thin copper against the skin depth: said by skrf
             warnings.simplefilter("ignore")
             return MLine(
                 frequency=freq,
-                z0_port=50,
+                z0_port=z0_port,
                 w=width_mm * 1e-3,
                 h=h_mm * 1e-3,
                 t=t_mm * 1e-3,
@@ -66,7 +71,7 @@ def line_media(freq, width_mm, h_mm, er, t_mm=0.035, other_h_mm=None):
     z0 = formulas.offset_stripline_z0(width_mm, h_mm, other_h_mm, er)
     beta = 2 * np.pi * freq.f * math.sqrt(er) / C_M_PER_S
     alpha_d = beta * FR4_TAND / 2  # dielectric loss of a TEM line
-    return DefinedGammaZ0(frequency=freq, z0_port=50, z0=z0, gamma=alpha_d + 1j * beta)
+    return DefinedGammaZ0(frequency=freq, z0_port=z0_port, z0=z0, gamma=alpha_d + 1j * beta)
 
 
 def gap_impedance(f_Hz, added_nH, l1_mm, l2_mm, slot_er, open_end=False):
@@ -89,13 +94,56 @@ def gap_impedance(f_Hz, added_nH, l1_mm, l2_mm, slot_er, open_end=False):
     return 1.0 / y
 
 
-def series_network(freq, z):
-    """A series impedance between two 50 ohm ports."""
+PATCH_Q = 30.0  # a patch resonator's loaded Q on FR4, 20-70 (from memory)
+EPS0_PF_PER_MM = 8.8541878128e-3
+
+
+def island_admittance(f_Hz, f_res_GHz, area_mm2, h_mm, er, coupled_mm, gap_mm):
+    """Shunt admittance (S) a floating copper island puts across the line beside it: the island
+    as a patch resonator (its capacitance to the plane, parallel plate ε A / h; the inductance that
+    resonates with it at the patch frequency; a resistance for PATCH_Q) reached through the
+    coupling capacitance of `coupled_mm` of track edge at `gap_mm` from the island's edge
+    (coplanar strips in air over the substrate, Gupta et al. 1996, conformal mapping)."""
+    from returngap.physics.formulas import ellipk
+
+    w = 2 * np.pi * np.asarray(f_Hz, float)
+    c = EPS0_PF_PER_MM * er * area_mm2 / h_mm * 1e-12
+    w0 = 2 * np.pi * f_res_GHz * 1e9
+    l_tank = 1.0 / (w0 * w0 * c)
+    r = PATCH_Q / (w0 * c)
+    k = gap_mm / (gap_mm + 2.0)  # the track and island edges as strips of about 1 mm
+    kp = math.sqrt(1 - k * k)
+    cc = EPS0_PF_PER_MM * (er + 1) / 2 * ellipk(kp) / ellipk(k) * coupled_mm * 1e-12
+    y_tank = 1 / r + 1j * w * c + 1 / (1j * w * l_tank)
+    return 1.0 / (1 / (1j * w * cc) + 1 / y_tank)
+
+
+def shunt_network(freq, y, z0=50.0):
+    """A shunt admittance across two ports of z0."""
+    yz = np.asarray(y, complex) * z0
+    s = np.zeros((len(yz), 2, 2), dtype=complex)
+    s[:, 0, 0] = s[:, 1, 1] = -yz / (2 + yz)
+    s[:, 0, 1] = s[:, 1, 0] = 2 / (2 + yz)
+    return skrf.Network(frequency=freq, s=s, z0=z0)
+
+
+def shunt_dip_GHz(f_Hz, y, z0_ohm):
+    """The first resonance dip of a shunt element's own loss (as first_dip_GHz for a series one)."""
+    z = 1.0 / np.maximum(np.abs(np.asarray(y, complex)), 1e-18) * np.exp(-1j * np.angle(y))
+    loss = -20 * np.log10(np.abs(2 * z / (2 * z + z0_ohm)))
+    f = np.asarray(f_Hz, float) / 1e9
+    peak = (loss[1:-1] >= loss[:-2]) & (loss[1:-1] >= loss[2:]) & (loss[1:-1] >= DIP_DEPTH_DB)
+    k = np.nonzero(peak)[0]
+    return float(f[k[0] + 1]) if len(k) else None
+
+
+def series_network(freq, z, z0=50.0):
+    """A series impedance between two ports of z0."""
     z = np.asarray(z, complex)
     s = np.zeros((len(z), 2, 2), dtype=complex)
-    s[:, 0, 0] = s[:, 1, 1] = z / (z + 100.0)
-    s[:, 0, 1] = s[:, 1, 0] = 100.0 / (z + 100.0)
-    return skrf.Network(frequency=freq, s=s, z0=50.0)
+    s[:, 0, 0] = s[:, 1, 1] = z / (z + 2 * z0)
+    s[:, 0, 1] = s[:, 1, 0] = 2 * z0 / (z + 2 * z0)
+    return skrf.Network(frequency=freq, s=s, z0=z0)
 
 
 def crossing_networks(freq, media, before_mm, after_mm, z_gap):
