@@ -136,3 +136,28 @@ def test_show_draws_one_finding_or_one_area(tmp_path):
         main, ["show", str(out / "findings.json"), "--area", "1,2,3,4", "--png", area]
     )
     assert r.exit_code == 2 and "--area needs --layer" in r.output
+
+
+def test_an_island_and_a_run_are_drawn_whole(tmp_path, monkeypatch):
+    # a floating island's outline and an edge run's whole stretch, each with its legend entry
+    from boards import hazard_board
+
+    result = run_check(hazard_board(tmp_path / "b", stitch_pitch=8.0))
+    rep = report.findings_report(result)
+    for i, f in enumerate(rep["findings"], 1):
+        if f["kind"] not in ("floating-copper", "edge-run"):
+            continue
+        fig = _drawn(
+            monkeypatch, lambda f=f, i=i: render.finding_png(result, f, i, tmp_path / "p.png")
+        )
+        ax = fig.axes[0]
+        labels = [t.get_text() for t in ax.get_legend().get_texts()]
+        lo, hi = ax.get_xlim()
+        if f["kind"] == "floating-copper":
+            assert "the floating island (no connection)" in labels
+            assert not any(lb.startswith("return footprint") for lb in labels)
+            assert lo <= f["x_mm"] - 9 and hi >= f["x_mm"] + 9  # the whole 20 mm island in view
+        else:
+            assert "the run along or off the plane's edge" in labels
+            (xa, _), (xb, _) = f["run_ends_mm"]
+            assert lo <= min(xa, xb) and hi >= max(xa, xb)  # the whole run in view

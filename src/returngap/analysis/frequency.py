@@ -23,23 +23,29 @@ VIEW_KINDS = ("gap-crossing", "floating-copper")
 ISLAND_GAP_SHARE = 0.5
 
 
-def _reference(refs, finding):
-    """The reference of the finding's track: the one named, else the nearest (an island's)."""
-    mine = refs[finding["layer"]]
-    named = [r for r in mine if r.layer == finding.get("reference_layer")]
-    return named[0] if named else min(mine, key=lambda r: r.h_mm)
-
-
-def _sections(chains, finding):
-    """(before, after, width): routed length (mm) of the finding's track either side of the
-    crossing, and the track's width."""
+def _track(chains, finding):
+    """The finding's track: its net's chain nearest the point, on the finding's layer first (an
+    island on a plane layer couples to a track on a neighbouring one); None when none is found."""
     p = shapely.Point(finding["x_mm"], finding["y_mm"])
+    mine = [c for c in chains if c.net == finding["net"]]
+    same = [c for c in mine if c.layer == finding["layer"]]
+    return min(same or mine, key=lambda c: c.line.distance(p), default=None)
+
+
+def _reference(refs, layer, finding):
+    """The reference of the track's layer: the one the finding names, else the nearest."""
+    mine = refs.get(layer) or []
+    named = [r for r in mine if r.layer == finding.get("reference_layer")]
+    return named[0] if named else min(mine, key=lambda r: r.h_mm, default=None)
+
+
+def _sections(ch, finding):
+    """(before, after, width): routed length (mm) of the track either side of the finding's
+    point, and the track's width."""
     width = finding.get("trace_width_mm")
-    cands = [c for c in chains if c.net == finding["net"] and c.layer == finding["layer"]]
-    if not cands:
+    if ch is None:
         return 25.0, 25.0, width or 0.2  # no track found: 50 mm of line (our choice)
-    ch = min(cands, key=lambda c: c.line.distance(p))
-    s = ch.line.project(p)
+    s = ch.line.project(shapely.Point(finding["x_mm"], finding["y_mm"]))
     return max(1.0, s), max(1.0, ch.line.length - s), width or ch.width_mm
 
 
@@ -59,15 +65,19 @@ def _gap_element(finding, f_Hz):
 
 
 def crossing_curves(board, refs, chains, finding, settings):
-    """(with the gap, without it, the gap element's impedance): scikit-rf networks of the
-    crossing's track."""
+    """(with the gap, without it, the element's impedance or admittance): scikit-rf networks of
+    the finding's track; None where the track has no reference plane."""
     from returngap.physics import sparams
 
-    ref = _reference(refs, finding)
+    ch = _track(chains, finding)
+    layer = ch.layer if ch is not None else finding["layer"]
+    ref = _reference(refs, layer, finding)
+    if ref is None:
+        return None  # no reference plane under the track: no line to model
     freq = sparams.frequencies(settings.knee_GHz_for(finding["net"]))
-    t = board.stackup.copper_thickness_mm.get(finding["layer"], 0.035)
-    before, after, width = _sections(chains, finding)
-    z0 = line_z0(board, finding["layer"], width, ref)  # ports matched to the track
+    t = board.stackup.copper_thickness_mm.get(layer, 0.035)
+    before, after, width = _sections(ch, finding)
+    z0 = line_z0(board, layer, width, ref)  # ports matched to the track
     media = sparams.line_media(freq, width, ref.h_mm, ref.er, t, ref.other_h_mm, z0)
     a, b = media.line(before, "mm"), media.line(after, "mm")
     if finding["kind"] == "floating-copper":
@@ -88,7 +98,10 @@ def crossing_curves(board, refs, chains, finding, settings):
 def _fields(board, refs, chains, finding, settings):
     from returngap.physics import sparams
 
-    with_gap, without, element = crossing_curves(board, refs, chains, finding, settings)
+    curves = crossing_curves(board, refs, chains, finding, settings)
+    if curves is None:
+        return {}
+    with_gap, without, element = curves
     knee = settings.knee_GHz_for(finding["net"])
     f = with_gap.frequency.f
     if finding["kind"] == "floating-copper":

@@ -12,6 +12,7 @@ matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 import shapely  # noqa: E402
+import shapely.ops  # noqa: E402
 from matplotlib.patches import PathPatch  # noqa: E402
 from matplotlib.path import Path as MPath  # noqa: E402
 
@@ -306,8 +307,13 @@ def finding_png(result, finding, number, path, curve=None):
             path_pts = [[x, y], [finding[a], finding[b]]]
     if finding.get("from_via_mm"):
         path_pts = [finding["from_via_mm"], finding["to_via_mm"]]
-    pts = np.asarray(path_pts + [[x, y]], dtype=float)
-    r = 3.0 if path_pts else max(3.0, min(0.6 * (finding.get("gap_length_mm") or 0), 15.0))
+    island = _island(result, finding)
+    extra = list(finding.get("run_ends_mm") or [])
+    if island is not None:
+        ix0, iy0, ix1, iy1 = island.bounds
+        extra += [[ix0, iy0], [ix1, iy1]]
+    pts = np.asarray(path_pts + extra + [[x, y]], dtype=float)
+    r = 3.0 if path_pts or extra else max(3.0, min(0.6 * (finding.get("gap_length_mm") or 0), 15.0))
     x0, y0 = pts.min(axis=0) - r
     x1, y1 = pts.max(axis=0) + r
     if (y1 - y0) < 0.5 * (x1 - x0):  # keep the view from becoming a thin strip
@@ -350,6 +356,7 @@ def finding_png(result, finding, number, path, curve=None):
             zorder=4,
             solid_capstyle="round",
         )
+    _kind_extras(ax, result, finding, island, window)
     if path_pts:
         p = np.asarray(path_pts)
         ax.plot(p[:, 0], p[:, 1], color=DETOUR, lw=2.2, ls="--", zorder=6, label="return path")
@@ -372,7 +379,7 @@ def finding_png(result, finding, number, path, curve=None):
     _scale_bar(ax, x0, x1, y0, y1)
     _explain(ax, finding, path_pts)
     fig.text(0.01, 0.01, caption, fontsize=11, family="monospace", va="bottom")
-    _layout(fig, caption_in=0.55)
+    _layout(fig, caption_in=0.75)
     if curve is not None:
         _loss_inset(fig, finding, curve)
     ax.apply_aspect()  # the box the drawing will use: the finding's pixel without drawing twice
@@ -383,6 +390,49 @@ def finding_png(result, finding, number, path, curve=None):
     return float(px), float(
         height - py
     )  # where the finding sits in the picture, pixels from top-left
+
+
+RUN = "#e69f00"  # amber: an edge run's stretch of track, a floating island's outline
+
+
+def _island(result, finding):
+    """The floating island of a floating-copper finding (the copper round its point), or None."""
+    if finding["kind"] != "floating-copper":
+        return None
+    ln = result.nets.layers[finding["layer"]]
+    p = shapely.Point(finding["x_mm"], finding["y_mm"])
+    hits = [int(ln.piece_island[k]) for k in ln.tree.query(p, predicate="intersects")]
+    if not hits:
+        return None
+    return shapely.union_all(ln.island_polygons([hits[0]]))
+
+
+def _kind_extras(ax, result, f, island, window):
+    """What a kind needs drawn beyond the plane and the track: an edge run's whole stretch, a
+    floating island's outline and the other tracks near it."""
+    if island is not None:
+        _fill(ax, island, RUN + "40", RUN, 2.0, z=6)
+        others = [c for c in result.chains if c.net != f["net"] and c.layer == f["layer"]]
+        _tracks(ax, others, window, lw=1.0, alpha=0.8)
+    ends = f.get("run_ends_mm")
+    if ends:
+        line = min(
+            (c.line for c in result.chains if c.net == f["net"] and c.layer == f["layer"]),
+            key=lambda ln: ln.distance(shapely.Point(ends[0])),
+            default=None,
+        )
+        if line is not None:
+            a, b = sorted(line.project(shapely.Point(q)) for q in ends)
+            run = np.asarray(shapely.ops.substring(line, a, b).coords)
+            ax.plot(
+                run[:, 0],
+                run[:, 1],
+                color=RUN,
+                lw=14,
+                alpha=0.55,
+                zorder=3.5,
+                solid_capstyle="butt",
+            )
 
 
 def _explain(ax, f, path_pts):
@@ -470,12 +520,23 @@ def legend_entries(finding, has_path):
     ]
     if finding["kind"] not in GAP_KINDS:
         out = [e for e in out if not e[0].startswith("gap ")]
-    out += [
-        ("return footprint (where 90 % of the return flows)", ("patch", FOOTPRINT, "none")),
+    if finding["kind"] == "floating-copper":  # no plane on the island's own layer to show
+        out = [e for e in out if e[1][1] == "white"]
+    footprint = (
+        []
+        if finding["kind"] == "floating-copper"
+        else [("return footprint (where 90 % of the return flows)", ("patch", FOOTPRINT, "none"))]
+    )
+    out += footprint + [
         (f"track {finding['net']} on {finding['layer']}", ("line", TRACK, "-", "")),
     ]
     if has_path:
         out.append((_path_label(finding), ("line", DETOUR, "--", "")))
+    if finding["kind"] == "floating-copper":
+        out.append(("the floating island (no connection)", ("patch", RUN + "40", RUN)))
+        out.append(("other tracks near it", ("line", TRACK, "-", "")))
+    if finding.get("run_ends_mm"):
+        out.append(("the run along or off the plane's edge", ("line", RUN, "-", "")))
     sev = finding["severity"]
     out.append((f"{sev}: this finding", ("line", MARK[sev], "none", SHAPE[sev])))
     return out
@@ -555,7 +616,8 @@ def _caption(f):
                 cur = ""
             cur += (" " if cur else "") + w
         lines.append(cur)
-        return "\n".join(lines[:2]) + f"   id {f['id']}   estimate, see the report's assumptions"
+        tail = f"id {f['id']}   estimate, see the report's assumptions"
+        return "\n".join(lines[:2] + [tail])
     det = "none in plane (split)" if f.get("detour_mm") is None else f"{f['detour_mm']:.2f} mm"
     lo, hi = f.get("added_inductance_range_nH") or (0, 0)
     res = f.get("resonance_GHz")

@@ -79,9 +79,10 @@ def _text_jobs(result, rep, out, fail_on):
 
 def _frequency_files(result, f, out):
     """A finding's frequency view as a Touchstone file and a CSV of its curves."""
-    with_gap, without, _ = frequency.crossing_curves(
-        result.board, result.refs, result.chains, f, result.settings
-    )
+    curves = frequency.crossing_curves(result.board, result.refs, result.chains, f, result.settings)
+    if curves is None:
+        return
+    with_gap, without, _ = curves
     with_gap.write_touchstone(f"finding-{f['id']}", dir=str(out))
     write_text(out / f"finding-{f['id']}-s_params.csv", report.s_params_csv(with_gap, without))
 
@@ -95,4 +96,4 @@ def curve_of(result, f):
     if f.get("s21_loss_at_knee_dB") is None:
         return None
     nets = frequency.crossing_curves(result.board, result.refs, result.chains, f, result.settings)
-    return _curve(nets[0], nets[1])
+    return None if nets is None else _curve(nets[0], nets[1])
