@@ -16,7 +16,7 @@ venv: $(BIN)/returngap
 
 demo: venv
 	$(BIN)/returngap check examples/demo-board --stackup examples/demo-board/stackup.toml \
-		--json out/demo/findings.json --out out/demo --fail-on never
+		--json out/demo/findings.json --out out/demo --fail-on never --pictures info --frequency-view info
 
 test: venv
 	$(BIN)/ruff check .

@@ -198,6 +198,12 @@ def layers(ctx, board, stackup_file, as_json):
     help="With --out: pictures for findings at or above this severity (the HTML lists the rest).",
 )
 @click.option(
+    "--frequency-view",
+    "frequency_view",
+    type=click.Choice(["error", "warning", "info", "none"]),
+    help="Predicted insertion loss for findings at or above this severity (default warning).",
+)
+@click.option(
     "--solve",
     "field_solves",
     type=click.IntRange(min=0),
@@ -227,6 +233,7 @@ def check(
     show_all,
     by_net,
     pictures,
+    frequency_view,
     field_solves,
 ):
     """Find where return current must detour around slots, splits and voids."""
@@ -244,6 +251,8 @@ def check(
         show_all=show_all,
         field_solves=field_solves,
     )
+    if frequency_view:
+        settings.frequency_view = frequency_view
     if rise_ns:
         settings.rise_time_ns = rise_ns
     if max_ghz:
