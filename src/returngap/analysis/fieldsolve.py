@@ -196,7 +196,9 @@ def solve_crossing(board, nets, chains, finding, planes=None):
     win.box = (min(gx0, 0.0) - margin, min(gy0, 0.0) - margin)
     win.box += (max(gx1, 0.0) + margin, max(gy1, 0.0) + margin)
     plane_local = win.clip(plane)
+    full = win.box
     win.box = _along_copper(win.box, plane_local.union(gap_local))
+    short = min(win.box[0] - gx0, gx1 - win.box[2]) > -0.5 * margin and win.box != full
     w, h = finding["trace_width_mm"], finding["height_mm"]
     xs, ys, coarse = _grid(gap_local, w, h, win.box)
     copper = _mask(plane_local, xs, ys)
@@ -208,6 +210,11 @@ def solve_crossing(board, nets, chains, finding, planes=None):
         sheets = [peec.Sheet(_mask(other, xs, ys), extra[1], extra[2])]
     result = _solve(xs, ys, copper, filled, sheets, (w, h), coarse)
     result.window_mm = [win.box[2] - win.box[0], win.box[3] - win.box[1]]
+    if short:  # the loop's ends sit near the gap: they can carry part of the way round
+        result.note = (result.note + "; " if result.note else "") + (
+            "the plane ends near the gap along the track, so the window's ends are close to it:"
+            " the solve may read low"
+        )
     if result.hf_share_near is not None:  # the near end: the one nearer the crossing
         low_is_near = -gap_local.bounds[1] <= gap_local.bounds[3]
         result.hf_share_near = result.hf_share_near if low_is_near else 1 - result.hf_share_near

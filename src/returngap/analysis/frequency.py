@@ -15,7 +15,7 @@ import shapely
 from returngap.analysis import severity
 from returngap.analysis.references import line_z0
 
-__all__ = ["crossing_curves", "with_frequency_fields", "VIEW_KINDS"]
+__all__ = ["crossing_curves", "with_frequency_fields", "refreshed", "VIEW_KINDS"]
 
 VIEW_KINDS = ("gap-crossing", "floating-copper")
 # a floating island couples to the track along its length at about half the distance within
@@ -127,3 +127,11 @@ def with_frequency_fields(board, refs, chains, findings, settings):
             f = dataclasses.replace(f, **_fields(board, refs, chains, f, settings))
         out.append(f)
     return out
+
+
+def refreshed(board, refs, chains, finding, settings):
+    """The finding with its frequency view computed again (after its inductance changed, as by a
+    later field solve); unchanged when it has none."""
+    if finding.get("s21_loss_at_knee_dB") is None:
+        return finding
+    return dataclasses.replace(finding, **_fields(board, refs, chains, finding, settings))

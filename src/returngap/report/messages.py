@@ -85,9 +85,10 @@ def _solve_said(fs):
         return ""
     if fs.get("added_inductance_nH") is None:
         return f"; field solve: {fs.get('note', 'no result')}"
+    note = f"; {fs['note']}" if fs.get("note") else ""
     return (
         f"; inductance from a local field solve ({fs['grid_cells']} cells, "
-        f"{fs['seconds']:.1f} s; the closed form said {fs['closed_form_nH']:.2f} nH)"
+        f"{fs['seconds']:.1f} s; the closed form said {fs['closed_form_nH']:.2f} nH{note})"
     )
 
 

@@ -6,7 +6,7 @@ import dataclasses
 import json
 from pathlib import Path
 
-from returngap.analysis import fieldsolve
+from returngap.analysis import fieldsolve, frequency
 from returngap.errors import InputError
 from returngap.model.settings import Settings
 from returngap.report import core as report
@@ -57,6 +57,7 @@ def solve_from_report(report_file, finding_id, board=None):
     solved = fieldsolve.solve_one(
         result.board, result.nets, result.chains, f, result.settings, result.planes
     )
+    solved = frequency.refreshed(result.board, result.refs, result.chains, solved, result.settings)
     return report.clean(report.said(solved, result.settings))
 
 
