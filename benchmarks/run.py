@@ -67,7 +67,7 @@ print(dt, segs, len(r.findings), peak / 1024)
 """
 
 
-# The field solve's target (issue: a 24 x 1 mm slot at h = 0.2 mm in <= 20 s, <= 2 GiB on this
+# The field solve's target (a 24 x 1 mm slot at h = 0.2 mm in <= 20 s, <= 2 GiB on this
 # 2-core machine), beside a fixed dense reference workload of the same run (a 3000 x 3000
 # Cholesky) so the time reads as a ratio too.
 SOLVE = """

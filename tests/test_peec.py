@@ -130,7 +130,7 @@ def test_demo_board_solve_from_the_command_line(tmp_path):
         text=True,
     )
     again = json.loads(p.stdout)
-    # the closed form is centred on the solve: within 25 % of it (issue's target)
+    # the closed form is centred on the solve: within 25 % of it (our target for this board)
     closed = again["field_solve"]["closed_form_nH"]
     assert closed == pytest.approx(again["added_inductance_nH"], rel=0.25)
 
@@ -144,8 +144,8 @@ def test_a_plane_below_lowers_the_slot_inductance_as_the_sheet_says():
 
 
 def test_demo_board_crossing_against_the_independent_audit():
-    # the demo board's SPI_SCK crossing as an independent audit solved it (the issue that asked
-    # for this solver, numbers quoted there): 2.79 nH on L2 alone, 1.92 nH with the L3 plane
+    # the demo board's SPI_SCK crossing as an independent audit of the physics solved it (its
+    # own dense PEEC prototype, not this code): 2.79 nH on L2 alone, 1.92 nH with the L3 plane
     import warnings
 
     from returngap.analysis import fieldsolve
