@@ -27,8 +27,9 @@ __all__ = [
 ]
 
 DISCLAIMER = (
-    "Estimates for engineering review, from closed-form models; they do not replace field "
-    "solving, the board's own EMC test results or the applicable standards."
+    "Estimates for engineering review, from closed-form models and, where asked, a local field "
+    "solve; they do not replace a full field solver, measurement, the board's own EMC test "
+    "results or the applicable standards."
 )
 SEVERITY_ORDER = {"error": 0, "warning": 1, "info": 2}
 FAIL_LEVELS = {
