@@ -161,3 +161,13 @@ def test_an_island_and_a_run_are_drawn_whole(tmp_path, monkeypatch):
             assert "the run along or off the plane's edge" in labels
             (xa, _), (xb, _) = f["run_ends_mm"]
             assert lo <= min(xa, xb) and hi >= max(xa, xb)  # the whole run in view
+
+
+def test_a_gap_that_a_bus_crosses_gets_its_own_picture(tmp_path):
+    # the demo's RMII split: two nets cross it (errors), one picture of that gap, in the HTML
+    out, rep = _check_out(tmp_path)
+    [gap] = [g for g in rep["gaps"] if len(g["nets"]) >= 2 and g["severity"] != "info"]
+    assert set(gap["nets"]) == {"RMII_TXD0", "RMII_TXD1"}
+    picture = out / f"gap-{gap['gap_id']}.png"
+    assert picture.exists() and picture.stat().st_size > 10_000
+    assert f"gap-{gap['gap_id']}" in (out / "report.html").read_text()

@@ -66,8 +66,10 @@ def test_pictures_drawn_in_two_processes_match_one(tmp_path, monkeypatch):
     viewed = sum(1 for f in rep["findings"] if f.get("s21_loss_at_knee_dB") is not None)
     pictured = len(rep["findings"])  # every finding at the info level
     planes = len({f["reference_layer"] for f in rep["findings"] if f.get("reference_layer")})
-    # pictures, overviews, JSON, CSV, JUnit, SARIF, HTML; a Touchstone and a CSV per frequency view
-    assert len(one) == pictured + 1 + planes + 5 + 2 * viewed
+    # pictures, overviews, gap pictures, JSON, CSV, JUnit, SARIF, HTML; a Touchstone and a CSV
+    # per frequency view
+    buses = len(outputs._bus_gaps(rep))  # a picture per gap two or more nets cross
+    assert len(one) == pictured + 1 + planes + buses + 5 + 2 * viewed
     assert one == sorted(p.name for p in (tmp_path / "two").iterdir())
     for name in one:
         assert (tmp_path / "one" / name).read_bytes() == (tmp_path / "two" / name).read_bytes(), (
@@ -132,7 +134,9 @@ def test_junit_reads_back_with_a_junit_library(tmp_path):
 
 def test_html_is_self_contained(demo_out):
     page = (demo_out / "report.html").read_text()
-    pictures = list(demo_out.glob("finding-*.png")) + list(demo_out.glob("overview*.png"))
+    pictures = [
+        p for pat in ("finding-*.png", "overview*.png", "gap-*.png") for p in demo_out.glob(pat)
+    ]
     assert page.count("data:image/png;base64,") == len(pictures)
     rep = json.loads((demo_out / "findings.json").read_text())
     assert len(list(demo_out.glob("finding-*.png"))) == sum(

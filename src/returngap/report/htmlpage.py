@@ -115,7 +115,8 @@ def _net_section(report, e):
 
 def page(report, images, overview=None, overviews=()):
     """images: {finding id: png path} (the findings without one are listed in the table only);
-    overview: png path; overviews: one png per reference plane with findings."""
+    overview: png path; overviews: one png per reference plane with findings, then one per gap
+    a bus crosses."""
     e = html.escape
     b = report["board"]
     s = report["summary"]
@@ -237,8 +238,13 @@ def page(report, images, overview=None, overviews=()):
         )
     for p in overviews:
         parts.append(
-            f"<figure><img alt='{e(p.stem)}' src='{_img(p)}'><figcaption>{e(p.stem)}: the "
-            "findings over this plane only.</figcaption></figure>"
+            f"<figure><img alt='{e(p.stem)}' src='{_img(p)}'><figcaption>{e(p.stem)}: "
+            + (
+                "the crossings of this gap"
+                if p.stem.startswith("gap-")
+                else "the findings over this plane only"
+            )
+            + ".</figcaption></figure>"
         )
     unpictured = [f for f in report["findings"] if f["id"] not in images]
     if unpictured:

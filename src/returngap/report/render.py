@@ -31,6 +31,7 @@ __all__ = [
     "overview_png",
     "finding_png",
     "area_png",
+    "gap_group_box",
 ]
 
 PLANE = "#c9d6e3"  # reference-plane copper
@@ -482,9 +483,10 @@ def _explain(ax, f, path_pts):
             ax.plot(*q, "o", ms=12, mfc="none", mec=DETOUR, mew=2.0, zorder=12)
 
 
-def area_png(result, report, box, layer, path):
+def area_png(result, report, box, layer, path, title=None, only=None):
     """A box of one plane layer for a ticket: its plane copper (every plane net), the checked
-    tracks, and the report's findings over that plane in the box, numbered as in the report."""
+    tracks, and the report's findings over that plane in the box (only those of `only`, a set of
+    ids, where given: a gap's crossings), numbered as in the report."""
     x0, y0, x1, y1 = box
     fig, ax = _figure(x0, y0, x1, y1)
     window = shapely.box(x0, y0, x1, y1)
@@ -495,14 +497,33 @@ def area_png(result, report, box, layer, path):
     numbered = [
         (i, f)
         for i, f in enumerate(report["findings"], 1)
-        if f.get("reference_layer") == layer and x0 <= f["x_mm"] <= x1 and y0 <= f["y_mm"] <= y1
+        if f.get("reference_layer") == layer
+        and x0 <= f["x_mm"] <= x1
+        and y0 <= f["y_mm"] <= y1
+        and (only is None or f["id"] in only)
     ]
     ax.set_title(
-        f"{report['board']['name']}: {layer} in ({x0:g}, {y0:g})-({x1:g}, {y1:g}) mm, "
-        f"{len(numbered)} finding(s) over it",
+        title
+        or (
+            f"{report['board']['name']}: {layer} in ({x0:g}, {y0:g})-({x1:g}, {y1:g}) mm, "
+            f"{len(numbered)} finding(s) over it"
+        ),
         fontsize=13,
     )
     _finish_map(fig, ax, layer, numbered, path)
+
+
+def gap_group_box(gap, findings_by_id):
+    """The view of a gap a bus crosses: its crossings' points, with room round them."""
+    pts = np.array(
+        [
+            (findings_by_id[c["id"]]["x_mm"], findings_by_id[c["id"]]["y_mm"])
+            for c in gap["crossings"]
+        ]
+    )
+    pad = max(3.0, 0.3 * (gap.get("gap_length_mm") or 0.0))
+    (x0, y0), (x1, y1) = pts.min(axis=0) - pad, pts.max(axis=0) + pad
+    return float(x0), float(y0), float(x1), float(y1)
 
 
 def legend_entries(finding, has_path):

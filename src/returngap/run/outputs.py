@@ -38,7 +38,14 @@ def write_outputs(result, rep, out_dir, fail_on, quiet=True, workers=0, pictures
     them from one queue, so the text reports are written while pictures are drawn."""
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
-    for pattern in ("finding-*.png", "overview*.png", "finding-*.s2p", "finding-*-s_params.csv"):
+    olds = (
+        "finding-*.png",
+        "overview*.png",
+        "gap-*.png",
+        "finding-*.s2p",
+        "finding-*-s_params.csv",
+    )
+    for pattern in olds:
         for old in out.glob(pattern):  # files of an earlier run would mislead
             old.unlink()
     chosen = {f["id"] for f in _pictured(rep["findings"], pictures)}
@@ -55,11 +62,44 @@ def write_outputs(result, rep, out_dir, fail_on, quiet=True, workers=0, pictures
         for i, f in enumerate(rep["findings"], 1)
         if f["id"] in chosen
     ]
+    groups = _bus_gaps(rep)
+    by_id = {f["id"]: f for f in rep["findings"]}
+    gap_pictures = [out / f"gap-{g['gap_id']}.png" for g in groups]
+    jobs += [
+        lambda g=g, p=p: render.area_png(
+            result,
+            rep,
+            render.gap_group_box(g, by_id),
+            g["reference_layer"],
+            p,
+            _gap_title(g),
+            {c["id"] for c in g["crossings"]},
+        )
+        for g, p in zip(groups, gap_pictures)
+    ]
     jobs += _text_jobs(result, rep, out, fail_on)
     n = parallel.Parallel(workers).processes("pictures", len(jobs))
     parallel.fork_map(lambda k: jobs[k]() and None, len(jobs), n)
-    page = htmlpage.page(rep, images, out / "overview.png", overviews)
+    page = htmlpage.page(rep, images, out / "overview.png", overviews + gap_pictures)
     write_text(out / "report.html", page)
+
+
+MAX_GAP_PICTURES = 20  # the worst buses; the gaps table lists every gap
+
+
+def _bus_gaps(rep):
+    """The gaps that two or more nets cross, at warning or error: one picture each."""
+    return [g for g in rep.get("gaps") or [] if len(g["nets"]) >= 2 and g["severity"] != "info"][
+        :MAX_GAP_PICTURES
+    ]
+
+
+def _gap_title(g):
+    return (
+        f"{g['gap_type']} {g['gap_length_mm']:.1f} mm on {g['reference_layer']} "
+        f"({g['reference_net']}): {len(g['nets'])} nets cross, worst "
+        f"{g['worst_added_inductance_nH']:.2f} nH"
+    )
 
 
 def _text_jobs(result, rep, out, fail_on):
