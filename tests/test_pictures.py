@@ -171,3 +171,20 @@ def test_a_gap_that_a_bus_crosses_gets_its_own_picture(tmp_path):
     picture = out / f"gap-{gap['gap_id']}.png"
     assert picture.exists() and picture.stat().st_size > 10_000
     assert f"gap-{gap['gap_id']}" in (out / "report.html").read_text()
+
+
+def test_a_layer_change_shows_both_planes(demo, monkeypatch, tmp_path):
+    # the second plane's copper edge drawn (dashed) and named, the return point named
+    result, rep = demo
+    i, f = next(
+        (i, f)
+        for i, f in enumerate(rep["findings"], 1)
+        if f["kind"] == "reference-change" and f.get("bridge_part")
+    )
+    fig = _drawn(monkeypatch, lambda: render.finding_png(result, f, i, tmp_path / "r.png"))
+    ax = fig.axes[0]
+    labels = [t.get_text() for t in ax.get_legend().get_texts()]
+    second = f"{f['other_reference_net']} on {f['other_reference_layer']}"
+    assert f"edge of the second plane, {second}" in labels
+    assert any(ln.get_color() == render.SECOND for ln in ax.get_lines())
+    assert any(f"return crosses at {f['bridge_part']}" in t.get_text() for t in ax.texts)

@@ -394,6 +394,7 @@ def finding_png(result, finding, number, path, curve=None):
 
 
 RUN = "#e69f00"  # amber: an edge run's stretch of track, a floating island's outline
+SECOND = "#cc79a7"  # reddish purple: the outline of a layer change's second plane
 
 
 def _island(result, finding):
@@ -409,8 +410,19 @@ def _island(result, finding):
 
 
 def _kind_extras(ax, result, f, island, window):
-    """What a kind needs drawn beyond the plane and the track: an edge run's whole stretch, a
-    floating island's outline and the other tracks near it."""
+    """What a kind needs drawn beyond the plane and the track: a layer change's second plane (its
+    copper's outline, dashed), an edge run's whole stretch, a floating island's outline and the
+    other tracks near it."""
+    other_layer = f.get("other_reference_layer")
+    if f["kind"] == "reference-change" and other_layer:
+        second, _ = _plane_geoms(result, other_layer, f.get("other_reference_net"))
+        x0, y0, x1, y1 = window.bounds
+        near = shapely.clip_by_rect(second, x0 - 1, y0 - 1, x1 + 1, y1 + 1)  # cut a little wider
+        edge = shapely.clip_by_rect(shapely.boundary(near), x0, y0, x1, y1)  # so no cut shows
+        for part in shapely.get_parts(edge):
+            c = np.asarray(part.coords)
+            if len(c) > 1:
+                ax.plot(c[:, 0], c[:, 1], color=SECOND, lw=1.4, ls=(0, (4, 2)), zorder=5)
     if island is not None:
         _fill(ax, island, RUN + "40", RUN, 2.0, z=6)
         others = [c for c in result.chains if c.net != f["net"] and c.layer == f["layer"]]
@@ -553,6 +565,9 @@ def legend_entries(finding, has_path):
     ]
     if has_path:
         out.append((_path_label(finding), ("line", DETOUR, "--", "")))
+    if finding["kind"] == "reference-change" and finding.get("other_reference_layer"):
+        second = f"{finding.get('other_reference_net')} on {finding['other_reference_layer']}"
+        out.append((f"edge of the second plane, {second}", ("line", SECOND, "--", "")))
     if finding["kind"] == "floating-copper":
         out.append(("the floating island (no connection)", ("patch", RUN + "40", RUN)))
         out.append(("other tracks near it", ("line", TRACK, "-", "")))
