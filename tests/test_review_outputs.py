@@ -237,3 +237,36 @@ def test_bad_waiver_file_is_exit_2(tmp_path):
     w.write_text('[[waiver]]\nid = "abc"\n')
     r = CliRunner().invoke(main, ["check", str(DEMO), "--waivers", str(w)])
     assert r.exit_code == 2 and "'by' is required" in r.output
+
+
+def test_the_page_shows_its_legend_in_a_real_browser(demo_out, tmp_path):
+    # the top of report.html in headless Chromium: the colour key is visible there, its swatch of
+    # a layer change's second plane (a colour no table or text uses) painted
+    chromium = shutil.which("chromium") or shutil.which("chromium-browser")
+    if not chromium:
+        pytest.skip("no chromium on this machine (.ci/run installs it)")
+    shot = tmp_path / "top.png"
+    subprocess.run(
+        [
+            chromium,
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--no-first-run",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+            f"--user-data-dir={tmp_path / 'profile'}",
+            "--window-size=1280,420",
+            f"--screenshot={shot}",
+            (demo_out / "report.html").as_uri(),
+        ],
+        check=True,
+        capture_output=True,
+        timeout=120,
+    )
+    img = np.asarray(Image.open(shot).convert("RGB")).astype(int)
+    from returngap.report import render
+
+    want = np.array([int(render.SECOND[k : k + 2], 16) for k in (1, 3, 5)])
+    assert (np.abs(img - want).sum(axis=2) < 12).sum() > 200  # a 28 x 14 px swatch

@@ -24,6 +24,10 @@ td.n{text-align:right;font-variant-numeric:tabular-nums}
 figure{margin:16px 0} figure img{max-width:100%;border:1px solid #c9d6e3}
 figcaption{font-size:12px;color:#555}
 ul{margin:4px 0 4px 20px;padding:0}
+.legend{margin:10px 0;font-size:13px}
+.key{display:inline-block;margin:3px 14px 3px 0;white-space:nowrap}
+.swatch{display:inline-block;width:28px;height:14px;margin-right:6px;vertical-align:middle;
+border:1px solid #7f93a8}
 """
 
 SCRIPT = """
@@ -57,6 +61,32 @@ def _pct(v):
 
 def _num(v, fmt):
     return "" if v is None else format(v, fmt)
+
+
+def _legend_block():
+    """The pictures' colours, explained once at the top of the page (each picture has its own
+    legend too)."""
+    from returngap.report import render
+
+    items = [
+        (render.PLANE, "reference plane copper"),
+        (render.OTHER_NET, "another plane net's copper"),
+        (render.GAP, "the gap"),
+        (render.FOOTPRINT[:7], "return footprint (90 % of the return)"),
+        (render.TRACK, "the track"),
+        (render.DETOUR, "the return's way / S21 with the gap"),
+        (render.SECOND, "a layer change's second plane"),
+        (render.RUN, "edge run / floating island"),
+        (render.MARK["error"], "error (cross)"),
+        (render.MARK["warning"], "warning (triangle)"),
+        (render.MARK["info"], "info (circle)"),
+    ]
+    cells = "".join(
+        f"<span class='key'><span class='swatch' style='background:{c}'></span>{html.escape(t)}"
+        "</span>"
+        for c, t in items
+    )
+    return f"<div class='legend' id='legend'><b>Colours in the pictures:</b> {cells}</div>"
 
 
 def _knee_loss(f):
@@ -130,6 +160,7 @@ def page(report, images, overview=None, overviews=()):
         f"class='sev-info'>{s['info']} info</span> "
         f"on {s['tracks_checked']} checked tracks. Source: <code>{e(b['source'])}</code></div>",
         f"<div class='note'>{e(report['disclaimer'])}</div>",
+        _legend_block(),
     ]
     if s.get("status") == "incomplete":
         parts.append(
