@@ -25,22 +25,26 @@ def one_plane():
     ):
         if s > d / 4:
             continue
-        w = round(1.9 * h, 3)  # about 50 ohm on FR4 (Hammerstad & Jensen 1980)
-        l1 = pos * d
-        t = time.perf_counter()
-        solved, cells, _ = peec.rect_slot_added_inductance(d, s, h, w, offset_mm=d / 2 - l1)
-        stub = physics.slot_stub_inductance_nH(l1, d - l1, s, strip_width_mm=d / 2)
-        yield dict(
-            D=d,
-            s=s,
-            h=h,
-            w=w,
-            l1=l1,
-            solved_nH=round(solved, 4),
-            stub_nH=round(stub, 4),
-            cells=cells,
-            seconds=round(time.perf_counter() - t, 1),
+        row = _slot(d, s, h, pos)
+        row["solved_nH"] = row.pop("one_plane_nH")
+        stub = physics.slot_stub_inductance_nH(row["l1"], d - row["l1"], s, strip_width_mm=d / 2)
+        yield {**row, "stub_nH": round(stub, 4)}
+
+
+def _slot(d, s, h, pos, below=None):
+    """One rectangular slot solved alone (and with a whole plane `below` mm under it, where
+    given), crossed at `pos` of its length by a 50 ohm-like trace: a row of the sweep."""
+    w = round(1.9 * h, 3)  # about 50 ohm on FR4 (Hammerstad & Jensen 1980)
+    l1 = pos * d
+    t = time.perf_counter()
+    one, cells, _ = peec.rect_slot_added_inductance(d, s, h, w, offset_mm=d / 2 - l1)
+    row = dict(D=d, s=s, h=h, w=w, l1=l1, one_plane_nH=round(one, 4), cells=cells)
+    if below is not None:
+        two, _, _ = peec.rect_slot_added_inductance(
+            d, s, h, w, offset_mm=d / 2 - l1, below_mm=below
         )
+        row.update(below=below, solved_nH=round(two, 4))
+    return {**row, "seconds": round(time.perf_counter() - t, 1)}
 
 
 def plane_below():
@@ -49,25 +53,7 @@ def plane_below():
     ):
         if pos != 0.5 and d != 24:
             continue
-        w = round(1.9 * h, 3)
-        l1 = pos * d
-        t = time.perf_counter()
-        one, cells, _ = peec.rect_slot_added_inductance(d, s, h, w, offset_mm=d / 2 - l1)
-        two, _, _ = peec.rect_slot_added_inductance(
-            d, s, h, w, offset_mm=d / 2 - l1, below_mm=below
-        )
-        yield dict(
-            D=d,
-            s=s,
-            h=h,
-            w=w,
-            l1=l1,
-            below=below,
-            one_plane_nH=round(one, 4),
-            solved_nH=round(two, 4),
-            cells=cells,
-            seconds=round(time.perf_counter() - t, 1),
-        )
+        yield _slot(d, s, h, pos, below)
 
 
 def write(rows, name):

@@ -22,14 +22,15 @@ def _slot_curves(l1, knee=1.0, d=24.0, s=1.0):
     media = sparams.line_media(freq, W, H, ER)
     added = ph.slot_crossing_inductance_nH(l1, d - l1, s, W, H)[0]
     z = sparams.gap_impedance(freq.f, added, l1, d - l1, (ER + 1) / 2)
-    with_gap, without = sparams.crossing_networks(freq, media, 50.0, 50.0, z)
-    return freq, with_gap, without, z, added
+    element = sparams.series_network(freq, z)  # the track is 50 ohm: so are the ports
+    with_gap, without = sparams.crossing_networks(media, 50.0, 50.0, element)
+    return freq, with_gap, without, z, added, element
 
 
 def test_the_line_without_a_gap_is_scikit_rf_s_microstrip():
     # scikit-rf's MLine (Hammerstad & Jensen, Kirschning & Jansen dispersion), one 100 mm piece
     # built here, against our two sections cascaded: within 0.05 dB at 1 GHz
-    freq, _, without, _, _ = _slot_curves(12.0)
+    freq, _, without, _, _, _ = _slot_curves(12.0)
     ref = MLine(
         frequency=freq,
         z0_port=50,
@@ -50,7 +51,7 @@ def test_the_line_without_a_gap_is_scikit_rf_s_microstrip():
 @pytest.mark.parametrize("l1", [12.0, 5.0])
 def test_gap_element_is_the_reported_inductance_at_low_frequency(l1):
     # series-inductance limit: Im Z / ω at 10 MHz equals the finding's added inductance (5 %)
-    freq, _, _, z, added = _slot_curves(l1)
+    freq, _, _, z, added, _ = _slot_curves(l1)
     assert z[0].imag / (2 * np.pi * freq.f[0]) * 1e9 == pytest.approx(added, rel=0.05)
 
 
@@ -58,8 +59,8 @@ def test_bench_demonstration_24_mm_slot():
     # 10 cm 50 ohm line on 1.6 mm FR4 over a 24 mm slot crossed at its middle: first dip
     # between 2.9 and 6.3 GHz (near 4 GHz on the bench: common practice, no source), several dB
     # deep, under 0.5 dB at 1 GHz without the gap
-    freq, with_gap, without, z, _ = _slot_curves(12.0)
-    dip = sparams.first_dip_GHz(freq.f, z, 50.0)
+    _, with_gap, without, _, _, element = _slot_curves(12.0)
+    dip = sparams.first_dip_GHz(element)
     assert 2.9 <= dip <= 6.3
     assert sparams.loss_at_dB(with_gap, dip) >= 6.0
     assert sparams.loss_at_dB(without, 1.0) < 0.5
@@ -68,16 +69,15 @@ def test_bench_demonstration_24_mm_slot():
 def test_a_slot_crossed_near_its_end_dips_higher():
     # stub lengths: near a shorted end the slot's first mode is barely excited (its voltage is
     # small there), so the first deep dip is a higher mode (Knorr 1974 stub model)
-    f_mid, _, _, z_mid, _ = _slot_curves(12.0, knee=3.0)
-    f_end, _, _, z_end, _ = _slot_curves(2.0, knee=3.0)
-    mid = sparams.first_dip_GHz(f_mid.f, z_mid, 50.0)
-    end = sparams.first_dip_GHz(f_end.f, z_end, 50.0)
+    mid = sparams.first_dip_GHz(_slot_curves(12.0, knee=3.0)[5])
+    end = sparams.first_dip_GHz(_slot_curves(2.0, knee=3.0)[5])
     assert end is not None and end > 1.5 * mid
 
 
 def test_a_lumped_inductance_has_no_dip():
-    f = sparams.frequencies(1.0).f
-    assert sparams.first_dip_GHz(f, 2j * np.pi * f * 5e-9, 50.0) is None
+    freq = sparams.frequencies(1.0)
+    lumped = sparams.series_network(freq, 2j * np.pi * freq.f * 5e-9)
+    assert sparams.first_dip_GHz(lumped) is None
 
 
 def test_demo_board_crossings_have_their_curves(tmp_path):

@@ -156,7 +156,7 @@ def test_demo_board_crossing_against_the_independent_audit():
     r = run_check(demo, demo / "stackup.toml")
     f = next(f for f in r.findings if f["net"] == "SPI_SCK")
     alone = fieldsolve.solve_crossing(r.board, r.nets, r.chains, f)
-    below = fieldsolve.solve_crossing(r.board, r.nets, r.chains, f, r.planes)
+    below = fieldsolve.solve_crossing(r.board, r.nets, r.chains, f, r.refs)
     assert below.second_plane == "L3"
     assert alone.added_inductance_nH == pytest.approx(2.79, rel=0.10)
     assert below.added_inductance_nH == pytest.approx(1.92, rel=0.10)

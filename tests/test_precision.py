@@ -164,7 +164,7 @@ def test_feed_track_through_the_plane_is_a_slot(tmp_path):
     # closed form's range
     from returngap.analysis import fieldsolve
 
-    solved = fieldsolve.solve_crossing(r.board, r.nets, r.chains, f, r.planes)
+    solved = fieldsolve.solve_crossing(r.board, r.nets, r.chains, f, r.refs)
     assert solved.second_plane == "L3"
     solved = solved.added_inductance_nH
     lo, hi = f["added_inductance_range_nH"]

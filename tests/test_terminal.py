@@ -155,13 +155,6 @@ def test_messages_for_slips(tmp_path):
     assert "default 0.5 ns" in run("check", "--help").output
 
 
-def test_help_default_edge_rate_is_the_settings_default():
-    from returngap import cli
-    from returngap.model.settings import Settings
-
-    assert cli._DEFAULT_RISE_NS == Settings().rise_time_ns
-
-
 def test_sarif_validates_against_the_published_schema(tmp_path):
     # SARIF 2.1.0's own JSON schema (OASIS), shipped in testdata/sarif/
     schema = json.loads((TESTDATA / "sarif" / "sarif-2.1.0-rtm.5.json").read_text())

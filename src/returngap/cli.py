@@ -15,6 +15,7 @@ import click
 
 from returngap import __version__, report
 from returngap.errors import IncompleteError, InputError
+from returngap.model.settings import Settings
 from returngap.run import outputs
 
 
@@ -61,7 +62,7 @@ def _run(ctx, fn):
         sys.exit(2)
 
 
-_DEFAULT_RISE_NS = 0.5  # model/settings.py's default, said in --help without importing it
+_DEFAULTS = Settings()  # the default edge rate, said in --help
 
 
 def _debug_option(command):
@@ -93,8 +94,8 @@ def _edge_rate(command):
         "--rise-time",
         "rise_ns",
         type=click.FloatRange(min=1e-4, max=1e3),
-        help=f"10-90 % rise time, ns (default {_DEFAULT_RISE_NS:g} ns: a "
-        f"{0.5 / _DEFAULT_RISE_NS:g} GHz knee).",
+        help=f"10-90 % rise time, ns (default {_DEFAULTS.rise_ns:g} ns: a "
+        f"{_DEFAULTS.knee_GHz:g} GHz knee).",
     )(command)
 
 
@@ -237,7 +238,6 @@ def check(
     field_solves,
 ):
     """Find where return current must detour around slots, splits and voids."""
-    from returngap.model.settings import Settings
     from returngap.report import review
     from returngap.run import pipeline
 
@@ -279,7 +279,7 @@ def check(
         elif json_file:
             outputs.write_text(json_file, report.to_json(rep))
         if out_dir:
-            outputs.write_outputs(result, rep, out_dir, fail_on, quiet, pictures=pictures)
+            outputs.write_outputs(result, rep, out_dir, fail_on, pictures=pictures)
         _print_text(rep, quiet, limit, by_net, bool(json_file or out_dir), to_stdout)
         bad = report.FAIL_LEVELS[fail_on]
         counted = [
@@ -462,7 +462,6 @@ def audit(
 ):
     """Audit many board archives or folders: one report folder per board and a batch summary."""
     from returngap.batch import audit as batch
-    from returngap.model.settings import Settings
 
     if rise_ns and max_ghz:
         raise click.UsageError("give --rise-time or --max-freq, not both")

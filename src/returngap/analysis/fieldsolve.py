@@ -6,7 +6,8 @@ crossing; the reference layer's plane copper in it is rasterised on a grid grade
 the track's edges, where the track meets the gap's outline, and at the gap's ends; ΔL is the
 loop inductance with the gap minus that with this one gap filled (its antipads, notches and
 islands stay what they are). The track is taken straight through the window along its direction
-at the crossing, the plane a perfect zero-thickness sheet, a second plane is not modelled.
+at the crossing, the planes perfect zero-thickness sheets; a second plane (a stripline's other
+plane, or the next plane beyond the reference) is solved with it (second_plane).
 """
 
 import dataclasses
@@ -19,7 +20,7 @@ import shapely
 import shapely.affinity
 
 from returngap import physics
-from returngap.analysis import severity
+from returngap.analysis import references, severity
 from returngap.physics import peec
 
 __all__ = [
@@ -62,15 +63,10 @@ class CrossingSolve:
 
 def _tangent_at(chains, net, layer, x, y):
     """Unit direction of the net's track on `layer` at the point nearest (x, y)."""
-    p = shapely.Point(x, y)
-    best = min(
-        (c for c in chains if c.net == net and c.layer == layer),
-        key=lambda c: c.line.distance(p),
-        default=None,
-    )
+    best = references.nearest_chain(chains, net, x, y, layer)
     if best is None:
         raise LookupError(f"no track of {net} on {layer} near ({x:.2f}, {y:.2f})")
-    s = best.line.project(p)
+    s = best.line.project(shapely.Point(x, y))
     a = best.line.interpolate(max(0.0, s - 0.05))
     b = best.line.interpolate(min(best.line.length, s + 0.05))
     dx, dy = b.x - a.x, b.y - a.y
@@ -139,28 +135,21 @@ def _mask(geom, xs, ys):
     return shapely.contains_xy(geom, gx, gy)
 
 
-def second_plane(board, planes, finding):
+def second_plane(refs, finding):
     """(layer, z_mm, role) of the second sheet of a crossing's solve, or None: a stripline's
     other plane (above the trace, sharing the return), else the nearest plane layer beyond the
     reference, away from the track (closed currents only, as it is joined to the reference
-    plane only through stitching vias outside the model)."""
-    names = [c.name for c in board.copper]
-    ref, h = finding["reference_layer"], finding["height_mm"]
-    if finding["line_type"] == "stripline":
-        others = [n for n in names if n not in (ref, finding["layer"]) and planes.get(n)]
-        i = names.index(finding["layer"])
-        side = [n for n in others if (names.index(n) - i) * (names.index(ref) - i) < 0]
-        if side:
-            other = min(side, key=lambda n: abs(names.index(n) - i))
-            return other, h + board.stackup.height_mm(finding["layer"], other), "shared"
+    plane only through stitching vias outside the model). refs: find_references' references."""
+    mine = refs.get(finding["layer"]) or []
+    ref = next((r for r in mine if r.layer == finding["reference_layer"]), None)
+    if ref is None:
         return None
-    step = 1 if names.index(ref) > names.index(finding["layer"]) else -1
-    k = names.index(ref) + step
-    while 0 <= k < len(names):
-        if planes.get(names[k]):
-            return names[k], -board.stackup.height_mm(ref, names[k]), "eddy"
-        k += step
-    return None
+    if ref.other_h_mm is not None:
+        other = next(r for r in mine if r.layer != ref.layer)
+        return other.layer, ref.h_mm + other.h_mm, "shared"
+    if ref.beyond_layer is None:
+        return None
+    return ref.beyond_layer, -ref.beyond_mm, "eddy"
 
 
 @dataclass
@@ -181,9 +170,9 @@ class _Window:
         return self.local(geom.intersection(shapely.affinity.translate(back, self.x, self.y)))
 
 
-def solve_crossing(board, nets, chains, finding, planes=None):
+def solve_crossing(board, nets, chains, finding, refs=None):
     """The field solve of one gap-crossing finding (a mapping with the GapCrossing fields);
-    planes: {layer: carries a plane} for the second sheet (none without it)."""
+    refs: the layers' references, for the second sheet (none without them)."""
     t0 = time.perf_counter()
     x, y = finding["x_mm"], finding["y_mm"]
     ux, uy = _tangent_at(chains, finding["net"], finding["layer"], x, y)
@@ -203,7 +192,7 @@ def solve_crossing(board, nets, chains, finding, planes=None):
     xs, ys, coarse = _grid(gap_local, w, h, win.box)
     copper = _mask(plane_local, xs, ys)
     filled = copper | _mask(gap_local, xs, ys)
-    extra = second_plane(board, planes or {}, finding)
+    extra = second_plane(refs or {}, finding)
     sheets = []
     if extra is not None:
         other = win.clip(nets.layers[extra[0]].union_of(nets.plane_nets))
@@ -224,30 +213,21 @@ def solve_crossing(board, nets, chains, finding, planes=None):
 
 
 def _solve(xs, ys, copper, filled, sheets, trace, coarse):
-    w, h = trace
     note = f"grid coarsened {coarse:.2f}x to fit {MAX_CELLS} cells" if coarse > 1 else ""
-    op = peec.PlaneOperator(xs, ys)
-    strips = peec.trace_strips(xs[0], xs[-1], w)
-    mt = op.trace_mutual(strips, h)
-    lt = peec.strip_matrix(strips, h)
-    ref = peec.loop_inductance(op, [peec.Sheet(filled)] + sheets, strips, h, lt, mt)
-    try:
-        gap = peec.loop_inductance(op, [peec.Sheet(copper)] + sheets, strips, h, lt, mt)
-        dl, loop = gap.loop_nH - ref.loop_nH, gap.loop_nH
-        share_low = _share_round_low_end(xs, ys, copper, gap.psi)
-    except peec.NoReturnPath:
-        dl, loop, note = None, None, "no return path in the window: the gap splits it"
-        share_low = None
+    gap, ref = peec.gap_and_filled(xs, ys, copper, filled, *trace, sheets)
+    if gap is None:
+        note = "no return path in the window: the gap splits it"
     return CrossingSolve(
-        added_inductance_nH=dl,
-        loop_with_gap_nH=loop,
+        added_inductance_nH=None if gap is None else gap.loop_nH - ref.loop_nH,
+        loop_with_gap_nH=None if gap is None else gap.loop_nH,
         loop_filled_nH=ref.loop_nH,
         grid_cells=int(copper.size),
         unknowns=int(ref.unknowns),
         seconds=0.0,
         window_mm=[],
         note=note,
-        hf_share_near=share_low,  # the caller turns it to the near end's
+        # the caller turns it to the near end's
+        hf_share_near=None if gap is None else _share_round_low_end(xs, ys, copper, gap.psi),
     )
 
 
@@ -315,19 +295,19 @@ def with_solve(finding, solve, settings):
     )
 
 
-def solve_nearest(board, nets, chains, findings, settings, planes=None):
+def solve_nearest(board, nets, chains, findings, settings, refs=None):
     """The findings, the settings.field_solves crossings nearest the budget solved."""
     chosen = {id(f) for f in nearest_budget(findings, settings, settings.field_solves)}
     return [
-        solve_one(board, nets, chains, f, settings, planes) if id(f) in chosen else f
+        solve_one(board, nets, chains, f, settings, refs) if id(f) in chosen else f
         for f in findings
     ]
 
 
-def solve_one(board, nets, chains, finding, settings, planes=None):
+def solve_one(board, nets, chains, finding, settings, refs=None):
     """The finding solved; where it cannot be, the closed form kept and the reason said."""
     try:
-        solved = solve_crossing(board, nets, chains, finding, planes)
+        solved = solve_crossing(board, nets, chains, finding, refs)
         return with_solve(finding, solved, settings)
     except (LookupError, peec.NoReturnPath) as e:  # the closed form stays, the reason is said
         note = {"note": f"not solved: {e}", "closed_form_nH": finding["added_inductance_nH"]}

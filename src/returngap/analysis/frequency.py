@@ -13,7 +13,7 @@ import dataclasses
 import shapely
 
 from returngap.analysis import severity
-from returngap.analysis.references import line_z0
+from returngap.analysis.references import line_z0, nearest_chain
 
 __all__ = ["crossing_curves", "with_frequency_fields", "refreshed", "VIEW_KINDS"]
 
@@ -26,10 +26,10 @@ ISLAND_GAP_SHARE = 0.5
 def _track(chains, finding):
     """The finding's track: its net's chain nearest the point, on the finding's layer first (an
     island on a plane layer couples to a track on a neighbouring one); None when none is found."""
-    p = shapely.Point(finding["x_mm"], finding["y_mm"])
-    mine = [c for c in chains if c.net == finding["net"]]
-    same = [c for c in mine if c.layer == finding["layer"]]
-    return min(same or mine, key=lambda c: c.line.distance(p), default=None)
+    x, y = finding["x_mm"], finding["y_mm"]
+    return nearest_chain(chains, finding["net"], x, y, finding["layer"]) or nearest_chain(
+        chains, finding["net"], x, y
+    )
 
 
 def _reference(refs, layer, finding):
@@ -65,8 +65,8 @@ def _gap_element(finding, f_Hz):
 
 
 def crossing_curves(board, refs, chains, finding, settings):
-    """(with the gap, without it, the element's impedance or admittance): scikit-rf networks of
-    the finding's track; None where the track has no reference plane."""
+    """(with the gap, without it, the gap's or island's own element): scikit-rf networks of the
+    finding's track, ports at its impedance; None where the track has no reference plane."""
     from returngap.physics import sparams
 
     ch = _track(chains, finding)
@@ -79,7 +79,6 @@ def crossing_curves(board, refs, chains, finding, settings):
     before, after, width = _sections(ch, finding)
     z0 = line_z0(board, layer, width, ref)  # ports matched to the track
     media = sparams.line_media(freq, width, ref.h_mm, ref.er, t, ref.other_h_mm, z0)
-    a, b = media.line(before, "mm"), media.line(after, "mm")
     if finding["kind"] == "floating-copper":
         y = sparams.island_admittance(
             freq.f,
@@ -90,9 +89,10 @@ def crossing_curves(board, refs, chains, finding, settings):
             finding["island_length_mm"],
             ISLAND_GAP_SHARE * settings.floating_coupling_mm,
         )
-        return a ** sparams.shunt_network(freq, y, z0) ** b, a**b, y
-    z_gap = _gap_element(finding, freq.f)
-    return a ** sparams.series_network(freq, z_gap, z0) ** b, a**b, z_gap
+        element = sparams.shunt_network(freq, y, z0)
+    else:
+        element = sparams.series_network(freq, _gap_element(finding, freq.f), z0)
+    return (*sparams.crossing_networks(media, before, after, element), element)
 
 
 def _fields(board, refs, chains, finding, settings):
@@ -103,13 +103,8 @@ def _fields(board, refs, chains, finding, settings):
         return {}
     with_gap, without, element = curves
     knee = settings.knee_GHz_for(finding["net"])
-    f = with_gap.frequency.f
-    if finding["kind"] == "floating-copper":
-        dip = sparams.shunt_dip_GHz(f, element, abs(without.z0[0, 0]))  # the track's own Z0
-    else:
-        dip = sparams.first_dip_GHz(f, element, finding["z0_ohm"])
     return dict(
-        s21_first_dip_GHz=dip,
+        s21_first_dip_GHz=sparams.first_dip_GHz(element),
         s21_loss_at_knee_dB=sparams.loss_at_dB(with_gap, knee),
         s21_loss_at_knee_no_gap_dB=sparams.loss_at_dB(without, knee),
     )
@@ -118,12 +113,9 @@ def _fields(board, refs, chains, finding, settings):
 def with_frequency_fields(board, refs, chains, findings, settings):
     """The findings, each gap crossing at or above settings.frequency_view with its curve's
     numbers (none below it, or with frequency_view "none")."""
-    if settings.frequency_view == "none":
-        return findings
-    floor = severity.ORDER.index(settings.frequency_view)
     out = []
     for f in findings:
-        if f["kind"] in VIEW_KINDS and severity.ORDER.index(f["severity"]) >= floor:
+        if f["kind"] in VIEW_KINDS and severity.at_or_above(f["severity"], settings.frequency_view):
             f = dataclasses.replace(f, **_fields(board, refs, chains, f, settings))
         out.append(f)
     return out

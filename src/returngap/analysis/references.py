@@ -30,6 +30,9 @@ __all__ = [
     "line_z0",
     "footprint_halfwidth",
     "wanted",
+    "nearest_chain",
+    "only_wanted",
+    "unmatched_globs",
     "chains",
 ]
 
@@ -240,6 +243,16 @@ def wanted(net, settings):
         return False
     low = net.lower()
     return not settings.nets or any(fnmatch.fnmatchcase(low, g.lower()) for g in settings.nets)
+
+
+def nearest_chain(chains, net, x, y, layer=None):
+    """The net's track chain nearest (x, y), on `layer` (any layer when None), or None."""
+    p = shapely.Point(x, y)
+    return min(
+        (c for c in chains if c.net == net and (layer is None or c.layer == layer)),
+        key=lambda c: c.line.distance(p),
+        default=None,
+    )
 
 
 def only_wanted(findings, settings):

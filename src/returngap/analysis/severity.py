@@ -10,7 +10,7 @@ the net's edge rate, never from the kind of gap.
   signal barely couples to stays where its reflection puts it). Common practice, no source.
 """
 
-__all__ = ["ORDER", "raised", "by_reflection", "by_effect", "gap_crossing"]
+__all__ = ["ORDER", "raised", "by_reflection", "by_effect", "gap_crossing", "at_or_above"]
 
 ORDER = ("info", "warning", "error")
 
@@ -38,3 +38,8 @@ def gap_crossing(reflection, lowest_resonance_GHz, knee_GHz, settings):
     """A gap crossing: reflection already scaled by the interrupted share; the resonance None
     where the return does not go round the gap (the other plane carries it)."""
     return by_effect(reflection, settings.reflection_budget, lowest_resonance_GHz, knee_GHz)
+
+
+def at_or_above(severity, level):
+    """A severity at or above a level (error, warning, info; "none": nothing is)."""
+    return level != "none" and ORDER.index(severity) >= ORDER.index(level)

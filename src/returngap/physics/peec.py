@@ -31,6 +31,7 @@ __all__ = [
     "SolveResult",
     "loop_inductance",
     "crossing_added_inductance",
+    "gap_and_filled",
     "trace_strips",
     "strip_matrix",
     "window_nodes",
@@ -111,11 +112,11 @@ def graded_nodes(lo, hi, features, growth=0.25, max_size=None):
 
 @dataclass
 class Grid:
-    """A tensor grid of current cells over a window, and which cells hold copper."""
+    """A tensor grid of current cells over a window (which cells hold copper is a mask given to
+    each solve: one grid serves several masks)."""
 
     xs: np.ndarray  # node x (mm), nx + 1
     ys: np.ndarray  # node y (mm), ny + 1
-    copper: np.ndarray  # (nx, ny) bool
 
     @property
     def shape(self):
@@ -179,7 +180,7 @@ class PlaneOperator:
     the same grid (the gap and the gap filled): only the ties change between them."""
 
     def __init__(self, xs, ys):
-        self.grid = Grid(np.asarray(xs, float), np.asarray(ys, float), None)
+        self.grid = Grid(np.asarray(xs, float), np.asarray(ys, float))
         self.xb = self.grid.x_branches()
         self.yb = self.grid.y_branches()
         self.lxx = _partial_matrix(self.xb)
@@ -263,10 +264,10 @@ class SolveResult:
 
     loop_nH: float
     trace_shares: np.ndarray
-    x_currents: np.ndarray  # per x-branch of the first sheet (A, for 1 A; the return is < 0)
-    y_currents: np.ndarray
     unknowns: int
-    psi: np.ndarray = None  # the first sheet's stream value per vertex (i * (ny + 1) + j)
+    # the first sheet's stream value per vertex (i * (ny + 1) + j): its branch currents are the
+    # differences of these (op.dx @ psi, op.dy @ psi; A for 1 A in the loop, the return < 0)
+    psi: np.ndarray
 
 
 class NoReturnPath(ValueError):
@@ -367,7 +368,7 @@ def _sandwich(p, k, q=None):
     products (k = k.T spares a transposed copy)."""
     q = p if q is None else q
     left = np.ascontiguousarray((p.T @ k).T)  # k @ p, columns by rows: k symmetric
-    return np.asarray(q.T @ left).T if q is not p else np.asarray(p.T @ left)
+    return np.asarray(q.T @ left).T
 
 
 def _minimise(op, sheets, maps, mts, lt):
@@ -383,11 +384,7 @@ def _minimise(op, sheets, maps, mts, lt):
     ps = [p.tocsc() for p, _ in maps]
     psi0 = [v for _, v in maps]
     mv = [op.dx.T @ m for m in mts]  # trace mutual per vertex value
-    a = sum(
-        _sandwich(ps[i], kk[i, j], ps[j]) if i != j else _sandwich(ps[i], kk[i, i])
-        for i in range(n)
-        for j in range(n)
-    )
+    a = sum(_sandwich(ps[i], kk[i, j], ps[j]) for i in range(n) for j in range(n))
     k0 = [sum(kk[i, j] @ psi0[j] for j in range(n)) for i in range(n)]
     b0 = sum(ps[i].T @ k0[i] for i in range(n))
     bm = sum(ps[i].T @ mv[i] for i in range(n))
@@ -406,8 +403,6 @@ def _minimise(op, sheets, maps, mts, lt):
     return SolveResult(
         loop_nH=float(2.0 * energy),
         trace_shares=t,
-        x_currents=op.dx @ psi,
-        y_currents=op.dy @ psi,
         unknowns=a.shape[0],
         psi=psi,
     )
@@ -448,18 +443,33 @@ def trace_strips(x0, x1, width_mm, n=5, centre_y=0.0):
     return [(x0, x1, float(a), float(b)) for a, b in zip(edges[:-1], edges[1:])]
 
 
-def crossing_added_inductance(
-    grid_xs, grid_ys, copper_gap, copper_filled, width_mm, height_mm, others=()
-):
-    """(ΔL nH, loop with the gap, loop filled, unknowns): one operator, two masks of the
-    reference sheet, the other sheets (Sheet) the same in both."""
+def gap_and_filled(grid_xs, grid_ys, copper_gap, copper_filled, width_mm, height_mm, others=()):
+    """(loop with the gap or None, loop with it filled): one operator, two masks of the reference
+    sheet, the other sheets (Sheet) the same in both; None where the gap leaves no copper path
+    across the window (the filled loop is still solved)."""
     op = PlaneOperator(grid_xs, grid_ys)
     strips = trace_strips(grid_xs[0], grid_xs[-1], width_mm)
     mt = op.trace_mutual(strips, height_mm)
     lt = strip_matrix(strips, height_mm)
     others = list(others)
     filled = loop_inductance(op, [Sheet(copper_filled)] + others, strips, height_mm, lt, mt)
-    gap = loop_inductance(op, [Sheet(copper_gap)] + others, strips, height_mm, lt, mt)
+    try:
+        gap = loop_inductance(op, [Sheet(copper_gap)] + others, strips, height_mm, lt, mt)
+    except NoReturnPath:
+        gap = None
+    return gap, filled
+
+
+def crossing_added_inductance(
+    grid_xs, grid_ys, copper_gap, copper_filled, width_mm, height_mm, others=()
+):
+    """(ΔL nH, loop with the gap, loop filled, unknowns); NoReturnPath where the gap leaves no
+    copper path across the window."""
+    gap, filled = gap_and_filled(
+        grid_xs, grid_ys, copper_gap, copper_filled, width_mm, height_mm, others
+    )
+    if gap is None:
+        raise NoReturnPath("no copper joins the window's two ends")
     return gap.loop_nH - filled.loop_nH, gap, filled, gap.unknowns
 
 

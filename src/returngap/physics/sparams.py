@@ -35,7 +35,6 @@ __all__ = [
     "PATCH_Q",
     "crossing_networks",
     "first_dip_GHz",
-    "shunt_dip_GHz",
     "loss_at_dB",
 ]
 
@@ -127,16 +126,6 @@ def shunt_network(freq, y, z0=50.0):
     return skrf.Network(frequency=freq, s=s, z0=z0)
 
 
-def shunt_dip_GHz(f_Hz, y, z0_ohm):
-    """The first resonance dip of a shunt element's own loss (as first_dip_GHz for a series one)."""
-    z = 1.0 / np.maximum(np.abs(np.asarray(y, complex)), 1e-18) * np.exp(-1j * np.angle(y))
-    loss = -20 * np.log10(np.abs(2 * z / (2 * z + z0_ohm)))
-    f = np.asarray(f_Hz, float) / 1e9
-    peak = (loss[1:-1] >= loss[:-2]) & (loss[1:-1] >= loss[2:]) & (loss[1:-1] >= DIP_DEPTH_DB)
-    k = np.nonzero(peak)[0]
-    return float(f[k[0] + 1]) if len(k) else None
-
-
 def series_network(freq, z, z0=50.0):
     """A series impedance between two ports of z0."""
     z = np.asarray(z, complex)
@@ -146,24 +135,24 @@ def series_network(freq, z, z0=50.0):
     return skrf.Network(frequency=freq, s=s, z0=z0)
 
 
-def crossing_networks(freq, media, before_mm, after_mm, z_gap):
-    """(with the gap, without it): the two line sections cascaded through the gap element."""
+def crossing_networks(media, before_mm, after_mm, element):
+    """(with the element, without it): the two line sections cascaded through the element (a
+    gap's series network or an island's shunt one)."""
     a, b = media.line(before_mm, "mm"), media.line(after_mm, "mm")
-    return a ** series_network(freq, z_gap) ** b, a**b
+    return a**element**b, a**b
 
 
 def _s21_db(net):
     return 20 * np.log10(np.maximum(np.abs(net.s[:, 1, 0]), 1e-12))
 
 
-def first_dip_GHz(f_Hz, z_gap, z0_ohm):
-    """The lowest frequency where the gap element's own insertion loss, between two lines of
-    z0_ohm, has a local maximum at least DIP_DEPTH_DB deep (its resonance); None when there is
-    none in range (a lumped inductance has none). The element alone: the cascade's ripple from
-    the line's mismatch to the ports is no dip of the gap's."""
-    z = np.asarray(z_gap, complex)
-    loss = -20 * np.log10(np.abs(2 * z0_ohm / (2 * z0_ohm + z)))
-    f = np.asarray(f_Hz, float) / 1e9
+def first_dip_GHz(element):
+    """The lowest frequency where a gap's or an island's own element (a two-port network, its
+    ports at the track's impedance) loses at least DIP_DEPTH_DB at a local maximum of its loss
+    (its resonance); None when there is none in range (a lumped inductance has none). The
+    element alone: the cascade's ripple from the line's mismatch to the ports is no dip of it."""
+    loss = -20 * np.log10(np.maximum(np.abs(element.s[:, 1, 0]), 1e-12))
+    f = element.frequency.f / 1e9
     peak = (loss[1:-1] >= loss[:-2]) & (loss[1:-1] >= loss[2:]) & (loss[1:-1] >= DIP_DEPTH_DB)
     k = np.nonzero(peak)[0]
     return float(f[k[0] + 1]) if len(k) else None

@@ -16,6 +16,8 @@ import shapely.ops  # noqa: E402
 from matplotlib.patches import PathPatch  # noqa: E402
 from matplotlib.path import Path as MPath  # noqa: E402
 
+from returngap.analysis.references import nearest_chain  # noqa: E402
+
 __all__ = [
     "PLANE",
     "PLANE_EDGE",
@@ -208,7 +210,7 @@ def _finish_map(fig, ax, layer, numbered, path):
 def _mark_findings(ax, numbered):
     """Each finding's mark by severity shape (one artist per severity); numbers for errors and
     warnings, each put at the nearest place clear of the marks and numbers already there (in
-    pixels), with a leader line. Returns how many went unnumbered."""
+    pixels), with a leader line."""
     for sev in ("info", "warning", "error"):
         xy = np.array([(f["x_mm"], f["y_mm"]) for _, f in numbered if f["severity"] == sev])
         if len(xy):
@@ -245,7 +247,6 @@ def _mark_findings(ax, numbered):
             zorder=11,
             arrowprops={"arrowstyle": "-", "color": MARK[f["severity"]], "lw": 0.6},
         )
-    return sum(1 for _, f in numbered if f["severity"] == "info")
 
 
 ORDER_RANK = {"error": 0, "warning": 1, "info": 2}
@@ -429,12 +430,9 @@ def _kind_extras(ax, result, f, island, window):
         _tracks(ax, others, window, lw=1.0, alpha=0.8)
     ends = f.get("run_ends_mm")
     if ends:
-        line = min(
-            (c.line for c in result.chains if c.net == f["net"] and c.layer == f["layer"]),
-            key=lambda ln: ln.distance(shapely.Point(ends[0])),
-            default=None,
-        )
-        if line is not None:
+        ch = nearest_chain(result.chains, f["net"], *ends[0], f["layer"])
+        if ch is not None:
+            line = ch.line
             a, b = sorted(line.project(shapely.Point(q)) for q in ends)
             run = np.asarray(shapely.ops.substring(line, a, b).coords)
             ax.plot(

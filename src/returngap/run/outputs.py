@@ -5,7 +5,7 @@ import os
 from pathlib import Path
 
 from returngap import report
-from returngap.analysis import frequency
+from returngap.analysis import frequency, severity
 from returngap.report import htmlpage, render
 from returngap.run import parallel
 
@@ -26,13 +26,10 @@ PICTURE_LEVELS = ("error", "warning", "info", "none")
 
 def _pictured(findings, level):
     """The findings that get a picture: at or above `level` (error, warning, info; none: none)."""
-    if level == "none":
-        return []
-    keep = PICTURE_LEVELS[: PICTURE_LEVELS.index(level) + 1]
-    return [f for f in findings if f["severity"] in keep]
+    return [f for f in findings if severity.at_or_above(f["severity"], level)]
 
 
-def write_outputs(result, rep, out_dir, fail_on, quiet=True, workers=0, pictures="warning"):
+def write_outputs(result, rep, out_dir, fail_on, workers=0, pictures="warning"):
     """pictures: the least severity that gets a picture (the HTML lists the rest without one).
     Every file is a task of its own, the pictures first (the heaviest): both processes take
     them from one queue, so the text reports are written while pictures are drawn."""
@@ -58,9 +55,9 @@ def write_outputs(result, rep, out_dir, fail_on, quiet=True, workers=0, pictures
         for p, lay in zip(overviews, planes)
     ]
     jobs += [
-        lambda f=f, i=i: render.finding_png(result, f, i, images[f["id"]], curve_of(result, f))
+        lambda f=f, i=i: _finding_files(result, f, i, out, images.get(f["id"]))
         for i, f in enumerate(rep["findings"], 1)
-        if f["id"] in chosen
+        if f["id"] in chosen or _viewed(f)
     ]
     groups = _bus_gaps(rep)
     by_id = {f["id"]: f for f in rep["findings"]}
@@ -103,37 +100,46 @@ def _gap_title(g):
 
 
 def _text_jobs(result, rep, out, fail_on):
-    """The reports as text, and each frequency view's Touchstone and CSV files."""
-    jobs = [
+    """The reports as text."""
+    return [
         lambda: write_text(out / "findings.json", report.to_json(rep)),
         lambda: write_text(out / "findings.csv", report.to_csv(rep)),
         lambda: write_text(out / "junit.xml", report.to_junit(rep, fail_on)),
         lambda: write_text(out / "findings.sarif", report.to_json(report.to_sarif(rep))),
     ]
-    return jobs + [
-        lambda f=f: _frequency_files(result, f, out)
-        for f in rep["findings"]
-        if f.get("s21_loss_at_knee_dB") is not None
-    ]
 
 
-def _frequency_files(result, f, out):
-    """A finding's frequency view as a Touchstone file and a CSV of its curves."""
-    curves = frequency.crossing_curves(result.board, result.refs, result.chains, f, result.settings)
+def _viewed(f):
+    return f.get("s21_loss_at_knee_dB") is not None
+
+
+def _curves(result, f):
+    """(with the gap, without it, element) of a finding with a frequency view, else None."""
+    if not _viewed(f):
+        return None
+    return frequency.crossing_curves(result.board, result.refs, result.chains, f, result.settings)
+
+
+def _finding_files(result, f, number, out, picture):
+    """One finding's files: its frequency view as a Touchstone file and a CSV (its curves
+    computed once, for them and the picture), and its picture where it gets one."""
+    curves = _curves(result, f)
+    if curves is not None:
+        with_gap, without, _ = curves
+        with_gap.write_touchstone(f"finding-{f['id']}", dir=str(out))
+        write_text(out / f"finding-{f['id']}-s_params.csv", report.s_params_csv(with_gap, without))
+    if picture is not None:
+        render.finding_png(result, f, number, picture, _curve(curves))
+
+
+def _curve(curves):
+    """The picture's plot of a finding's curves: (f GHz, S21 dB with, without), or None."""
     if curves is None:
-        return
+        return None
     with_gap, without, _ = curves
-    with_gap.write_touchstone(f"finding-{f['id']}", dir=str(out))
-    write_text(out / f"finding-{f['id']}-s_params.csv", report.s_params_csv(with_gap, without))
-
-
-def _curve(with_gap, without):
     return with_gap.frequency.f / 1e9, with_gap.s_db[:, 1, 0], without.s_db[:, 1, 0]
 
 
 def curve_of(result, f):
     """A finding's frequency-view curve for its picture, or None where it has no view."""
-    if f.get("s21_loss_at_knee_dB") is None:
-        return None
-    nets = frequency.crossing_curves(result.board, result.refs, result.chains, f, result.settings)
-    return None if nets is None else _curve(nets[0], nets[1])
+    return _curve(_curves(result, f))

@@ -109,11 +109,11 @@ def run_check(sources, stackup_file=None, settings=None, scratch=None, workers=0
     status = completeness.enforce(board, problems, settings.allow_incomplete)
     stage("gap scan and checks")
     findings = _findings(board, nets, refs, chains, settings, runner)
+    findings = references.only_wanted(findings, settings)  # before the costly steps below
     stage("field solves and frequency views")
     if settings.field_solves:
-        findings = fieldsolve.solve_nearest(board, nets, chains, findings, settings, planes)
+        findings = fieldsolve.solve_nearest(board, nets, chains, findings, settings, refs)
     findings = frequency.with_frequency_fields(board, refs, chains, findings, settings)
-    findings = references.only_wanted(findings, settings)
     for glob in references.unmatched_globs(nets, settings):
         board.assume(f"--nets {glob}: matches no routed signal net")
     given = sources if isinstance(sources, (list, tuple)) else [sources]

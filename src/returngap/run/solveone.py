@@ -55,7 +55,7 @@ def solve_from_report(report_file, finding_id, board=None):
             report_file, f"{finding_id}: only a gap crossing whose return goes round is solved"
         )
     solved = fieldsolve.solve_one(
-        result.board, result.nets, result.chains, f, result.settings, result.planes
+        result.board, result.nets, result.chains, f, result.settings, result.refs
     )
     solved = frequency.refreshed(result.board, result.refs, result.chains, solved, result.settings)
     return report.clean(report.said(solved, result.settings))
