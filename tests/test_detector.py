@@ -40,8 +40,12 @@ def test_centred_slot_detour_is_slot_length(tmp_path):
     assert f["gap_length_mm"] == pytest.approx(D, abs=1e-6) and f["gap_width_mm"] == pytest.approx(
         s, abs=1e-6
     )
-    # a closed slot in a buried plane: half-wave at er of its dielectrics (slot-antenna theory)
-    assert f["resonance_GHz"] == pytest.approx(physics.slot_resonance_GHz(D, 4.3), rel=1e-6)
+    # a closed slot in a buried plane: half-wave at er 4.3, a little below c/(2 D sqrt(er)) =
+    # 3.61 GHz for D = 20 (slot-antenna theory); the moment-method solve of a 24 x 1 mm slot sits
+    # 4.5 % below that bare value (REFERENCE 12): the range spans the two
+    bare = 299.792458 / (2 * D * math.sqrt(4.3))
+    assert 0.95 * bare <= f["resonance_GHz"] < bare
+    assert f["resonance_range_GHz"][1] == pytest.approx(bare, rel=1e-3)
     # the whole footprint crosses: the share it holds, 90 % (REFERENCE 1.1, finite width adds
     # a little)
     assert 0.89 < f["interrupted_fraction"] <= 0.95

@@ -104,23 +104,23 @@ def test_stitching_spacing_against_lambda_over_10(tmp_path):
 
 
 def test_outer_slot_resonance_brackets_measurement(tmp_path):
-    # a 24 mm slot in an outer plane of FR-4 (er 4.7) resonates near 4 GHz (common practice);
-    # half-wave between 2.9 and 6.3 GHz: (er+1)/2 and air bound it (REFERENCE 5.1)
+    # a 24 x 1 mm slot in the outer plane of 0.2 mm FR-4: Svacina 1999's slotline permittivity
+    # gives 5.76 GHz (er 4.3, REFERENCE 12); the half-wave lies between the board's er (2.9 GHz at
+    # er 4.7) and air (6.25 GHz), near 4 GHz on thick boards (common practice, no source)
     from returngap.synth import SynthBoard, rect
 
-    b = SynthBoard("o", 60, 40, n_layers=2, dielectrics=[(0.2, 4.7)])
+    b = SynthBoard("o", 60, 40, n_layers=2, dielectrics=[(0.2, 4.3)])
     b.planes.append((2, "GND", rect(0, 0, 60, 40)))
     b.cutouts.append((2, rect(29.5, 8, 30.5, 32)))
     b.tracks.append((1, "CLK", [(10, 20), (50, 20)], 0.2))
     b.write(tmp_path)
     f = [x for x in run_check(tmp_path).findings if x["kind"] == "gap-crossing"]
     assert len(f) == 1
-    assert 2.9 <= f[0]["resonance_GHz"] <= 6.3
-    assert f[0]["resonance_GHz"] == pytest.approx(
-        physics.slot_resonance_GHz(24, (4.7 + 1) / 2), rel=1e-6
-    )
+    assert f[0]["resonance_GHz"] == pytest.approx(5.76, rel=0.08)
     lo, hi = f[0]["resonance_range_GHz"]
-    assert lo == pytest.approx(physics.slot_resonance_GHz(24, 4.7), rel=1e-6)
+    assert lo < f[0]["resonance_GHz"] <= hi < 6.25
+    assert lo == pytest.approx(2.88, rel=0.01)  # MoM, buried at er 4.3 (REFERENCE 12)
+    assert hi == pytest.approx(5.76, rel=0.03)
 
 
 def test_resonance_below_knee_raises_severity(tmp_path):

@@ -971,8 +971,9 @@ def _gap_estimate(board, ch, ref, settings, slot_len, width, ends, split=False):
         method = "split: geometric mean of the handbook slot formula and the stub model"
     z0 = line_z0(board, ch.layer, ch.width_mm, ref)
     refl = physics.series_inductance_reflection(est, z0, settings.rise_ns_for(ch.net))
-    f_res = physics.slot_resonance_GHz(slot_len, ref.plane_er_eff, open_at_one_end=open_one_end)
-    f_low = physics.slot_resonance_GHz(slot_len, ref.plane_er_full, open_at_one_end=open_one_end)
+    f_res, f_low, f_high, eeff = physics.slot_resonance_estimate(
+        slot_len, width, ref.plane_er, ref.plane_substrate_mm, open_at_one_end=open_one_end
+    )
     return {
         "est": est,
         "lo": lo,
@@ -981,6 +982,8 @@ def _gap_estimate(board, ch, ref, settings, slot_len, width, ends, split=False):
         "refl": refl,
         "f_res": f_res,
         "f_low": f_low,
+        "f_high": f_high,
+        "eeff": eeff,
         "method": method,
         "return_plane": "round",  # the return goes round the gap in this plane
     }
@@ -1191,8 +1194,8 @@ def _gap_record(
         gap_id=stable_id("gap", ref.layer, *(f"{v:.2f}" for v in gap_bounds)),
         gap_enclosed=enclosed,
         resonance_GHz=e["f_res"],
-        resonance_range_GHz=sorted([e["f_low"], e["f_res"]]),
-        resonance_er_eff=ref.plane_er_eff,
+        resonance_range_GHz=[e["f_low"], e["f_high"]],
+        resonance_er_eff=e["eeff"],
         resonance_mode="quarter-wave" if open_one_end else "half-wave",
         reflection_fraction=e["refl"],
         z0_ohm=e["z0"],

@@ -57,8 +57,8 @@ class Reference:
     share: float  # share of the return current on this plane
     er: float  # dielectric between signal and plane
     plane_is_outer: bool
-    plane_er_eff: float  # for slot resonance: er buried, (er+1)/2 on an outer layer
-    plane_er_full: float  # the substrate's own er: the conservative (lowest-frequency) bound
+    plane_er: float  # the dielectric round the plane (its slots' resonance)
+    plane_substrate_mm: float | None  # an outer plane's board to the next copper; None buried
     # the next plane layer beyond this one, away from the track, and its distance from it
     beyond_layer: str | None = None
     beyond_mm: float | None = None
@@ -185,6 +185,13 @@ def _beyond(names, i, ref, planes, st):
     return None, None
 
 
+def _substrate_mm(names, plane, st):
+    """Dielectric from an outer plane to the next copper layer: the slotline's substrate."""
+    k = names.index(plane)
+    nxt = names[1] if k == 0 else names[-2]
+    return st.height_mm(plane, nxt) if nxt != plane else None
+
+
 def find_references(board, nets, settings):
     """For each copper layer: the plane(s) its tracks return in, and which layers carry a plane."""
     planes = plane_layers(board, nets, settings)
@@ -210,8 +217,8 @@ def find_references(board, nets, settings):
                     share,
                     st.er_between(name, r),
                     outer,
-                    (er_plane + 1) / 2 if outer else er_plane,
                     er_plane,
+                    _substrate_mm(names, r, st) if outer else None,
                     *_beyond(names, i, r, planes, st),
                 )
             )

@@ -32,6 +32,8 @@ __all__ = [
     "slot_crossing_inductance_nH",
     "babinet_slot_inductance_nH",
     "slot_resonance_GHz",
+    "slotline_eeff",
+    "slot_resonance_estimate",
     "knee_frequency_GHz",
     "rise_time_for_knee_ns",
     "series_inductance_reflection",
@@ -330,6 +332,67 @@ def slot_resonance_GHz(slot_length_mm, eeff, open_at_one_end=False):
         return math.inf
     n = 4.0 if open_at_one_end else 2.0
     return C_MM_PER_NS / (n * slot_length_mm * math.sqrt(eeff))
+
+
+# Extension of a slot's electrical length past each shorted end, in slot widths: set so that a
+# 24 x 1 mm slot in a buried plane (er 4.3) resonates at 2.88 GHz, the moment-method strip-dipole
+# solve of REFERENCE 12 (one figure: an assumption beyond it).
+SLOT_END_EXTENSION = 0.55
+
+
+def slotline_eeff(width_mm, h_mm, er, freq_GHz):
+    """Effective permittivity of a slotline of width W on a substrate of thickness h, air both
+    sides: lambda_s/lambda_0 = 0.9217 - 0.277 ln er + 0.0322 (W/h) sqrt(er/(W/h + 0.435))
+    - 0.01 ln(h/lambda_0) (4.6 - 3.65/(er^2 sqrt(W/lambda_0) (9.06 - 100 W/lambda_0))),
+    eeff = (lambda_0/lambda_s)^2 (Janaswamy & Schaubert, IEEE T-MTT 34(8), 1986, fitted for
+    3.8 <= er <= 9.8; from memory, checked against Svacina 1999's figures in REFERENCE 12).
+    Held between 1 and er; W/lambda_0 is held where the fit stays finite."""
+    lam0 = _free_space_wavelength_mm(freq_GHz)
+    u = width_mm / max(h_mm, 1e-3)
+    wl = min(max(width_mm / lam0, 1e-4), 0.075)
+    inner = 4.6 - 3.65 / (er * er * math.sqrt(wl) * (9.06 - 100.0 * wl))
+    ratio = (
+        0.9217
+        - 0.277 * math.log(er)
+        + 0.0322 * u * math.sqrt(er / (u + 0.435))
+        - 0.01 * math.log(max(h_mm, 1e-3) / lam0) * inner
+    )
+    return min(max(1.0 / ratio**2, 1.0), er) if ratio > 0 else er
+
+
+def _free_space_wavelength_mm(freq_GHz):
+    """Free-space wavelength in mm at freq_GHz (guarded against 0)."""
+    return C_MM_PER_NS / max(freq_GHz, 1e-6)
+
+
+def slot_resonance_estimate(slot_length_mm, width_mm, er, substrate_mm=None, open_at_one_end=False):
+    """(f_GHz, low_GHz, high_GHz, eeff) of a slot's first resonance. Buried plane (substrate_mm
+    None): the homogeneous value at er, the slot lengthened at each shorted end by
+    SLOT_END_EXTENSION widths; the range reaches the bare c/(2 L sqrt(er)). Outer plane: the
+    slotline eeff (slotline_eeff) at the resonance itself, found by iteration; the range spans
+    er (field all in the board, the lowest frequency) up to the higher of the slotline and the
+    (er+1)/2 values on the bare length (no end effect). eeff is the permittivity that, on the
+    bare slot length, gives f_GHz."""
+    if slot_length_mm <= 0:
+        return math.inf, math.inf, math.inf, er
+    ends = 1 if open_at_one_end else 2
+    long_mm = slot_length_mm + ends * SLOT_END_EXTENSION * max(width_mm, 0.0)
+    bare_er = slot_resonance_GHz(long_mm, er, open_at_one_end)
+    if substrate_mm is None:
+        f = bare_er
+        high = slot_resonance_GHz(slot_length_mm, er, open_at_one_end)
+    else:
+        e = (er + 1) / 2
+        for _ in range(30):
+            f = slot_resonance_GHz(long_mm, e, open_at_one_end)
+            e_new = slotline_eeff(width_mm, substrate_mm, er, f)
+            if abs(e_new - e) < 1e-6:
+                break
+            e = e_new
+        f = slot_resonance_GHz(long_mm, e, open_at_one_end)
+        high = slot_resonance_GHz(slot_length_mm, min(e, (er + 1) / 2), open_at_one_end)
+    eeff = (slot_resonance_GHz(slot_length_mm, 1.0, open_at_one_end) / f) ** 2
+    return f, bare_er, high, eeff
 
 
 # --- frequency, reflection ------------------------------------------------------------------
