@@ -28,7 +28,7 @@ def test_stripline_fraction_and_share():
 
 
 def test_stripline_density_integral_consistent():
-    # integral over all x equals the plane's share; both planes together give the centred fraction
+    # consistency check: integral over all x equals the plane's share; both planes together give the centred fraction
     assert ph.stripline_fraction_between(-1e3, 1e3, 0.1, 0.9) == pytest.approx(0.9, abs=1e-9)
     both = 2 * ph.stripline_fraction_between(-0.5, 0.5, 0.5, 0.5)
     assert both == pytest.approx(ph.stripline_centred_fraction_within(1.0), abs=1e-9)
@@ -177,7 +177,7 @@ def test_knee_reflection_wavelength():
 
 def test_wide_stripline_tends_to_parallel_plates():
     # very wide centred strip: two parallel-plate lines of spacing b/2 in parallel,
-    # eta0*b/(4*w*sqrt(er))
+    # eta0*b/(4*w*sqrt(er)) (parallel-plate line, Pozar, Microwave Engineering, from memory)
     for w in (20.0, 50.0, 500.0):
         z = ph.stripline_z0(w, 1.0, 4.3)
         assert z == pytest.approx(ph.ETA0_OHM * 1.0 / (4 * w * math.sqrt(4.3)), rel=0.03)
@@ -295,6 +295,7 @@ def test_field_solve_reproduces_cohn_when_centred():
     assert _fd_stripline_z0(0.25, 0.3, 0.3) == pytest.approx(
         ph.stripline_z0(0.25, 0.6, 1.0), rel=0.02
     )
+    # consistency check: the offset form reduces to the centred one
     assert ph.offset_stripline_z0(0.25, 0.3, 0.3, 1.0) == pytest.approx(
         ph.stripline_z0(0.25, 0.6, 1.0), rel=1e-9
     )
