@@ -28,7 +28,8 @@ def test_stripline_fraction_and_share():
 
 
 def test_stripline_density_integral_consistent():
-    # consistency check: integral over all x equals the plane's share; both planes together give the centred fraction
+    # consistency check: integral over all x equals the plane's share; both planes together give
+    # the centred fraction
     assert ph.stripline_fraction_between(-1e3, 1e3, 0.1, 0.9) == pytest.approx(0.9, abs=1e-9)
     both = 2 * ph.stripline_fraction_between(-0.5, 0.5, 0.5, 0.5)
     assert both == pytest.approx(ph.stripline_centred_fraction_within(1.0), abs=1e-9)

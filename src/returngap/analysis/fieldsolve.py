@@ -20,8 +20,8 @@ import shapely
 import shapely.affinity
 
 from returngap import physics
-from returngap.analysis import references, severity
-from returngap.physics import peec
+from returngap.analysis import dcsplit, references, severity
+from returngap.physics import peec, resistive
 
 __all__ = [
     "CrossingSolve",
@@ -66,12 +66,7 @@ def _tangent_at(chains, net, layer, x, y):
     best = references.nearest_chain(chains, net, x, y, layer)
     if best is None:
         raise LookupError(f"no track of {net} on {layer} near ({x:.2f}, {y:.2f})")
-    s = best.line.project(shapely.Point(x, y))
-    a = best.line.interpolate(max(0.0, s - 0.05))
-    b = best.line.interpolate(min(best.line.length, s + 0.05))
-    dx, dy = b.x - a.x, b.y - a.y
-    n = math.hypot(dx, dy) or 1.0
-    return dx / n, dy / n
+    return references.direction_at(best, x, y)
 
 
 def _to_local(geom, x, y, angle_deg):
@@ -308,7 +303,29 @@ def solve_one(board, nets, chains, finding, settings, refs=None):
     """The finding solved; where it cannot be, the closed form kept and the reason said."""
     try:
         solved = solve_crossing(board, nets, chains, finding, refs)
-        return with_solve(finding, solved, settings)
+        return _with_dc_split(board, nets, chains, with_solve(finding, solved, settings))
     except (LookupError, peec.NoReturnPath) as e:  # the closed form stays, the reason is said
         note = {"note": f"not solved: {e}", "closed_form_nH": finding["added_inductance_nH"]}
         return dataclasses.replace(finding, field_solve=note)
+
+
+def _with_dc_split(board, nets, chains, finding):
+    """A closed slot's return split with its DC share from the resistive solve of the plane, fed
+    at the track's ends (analysis/dcsplit.py); the strip model kept where it cannot be had."""
+    split = finding.get("return_split")
+    if not split:
+        return finding
+    plane = nets.layers[finding["reference_layer"]].union_of(nets.plane_nets)
+    try:
+        reach = 2 * max(finding["gap_length_mm"], 1.0) + dcsplit.MARGIN_MM  # the whole slot
+        gap = _gap_polygon(plane, board.outline, finding["x_mm"], finding["y_mm"], reach)
+        dc = dcsplit.dc_split(board, nets, chains, finding, gap)
+    except (LookupError, resistive.NotConnected) as e:
+        return dataclasses.replace(finding, return_split={**split, "dc_note": str(e)})
+    split = {
+        **split,
+        "dc_share_near": dc.share_near,
+        "dc_method": "resistive grid, fed at the track's ends",
+        "dc_cell_mm": dc.cell_mm,
+    }
+    return dataclasses.replace(finding, return_split=split)

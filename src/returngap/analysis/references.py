@@ -252,6 +252,16 @@ def wanted(net, settings):
     return not settings.nets or any(fnmatch.fnmatchcase(low, g.lower()) for g in settings.nets)
 
 
+def direction_at(chain, x, y):
+    """Unit direction (dx, dy) of a chain's track at its point nearest (x, y)."""
+    s = chain.line.project(shapely.Point(x, y))
+    a = chain.line.interpolate(max(0.0, s - 0.05))
+    b = chain.line.interpolate(min(chain.line.length, s + 0.05))
+    dx, dy = b.x - a.x, b.y - a.y
+    n = math.hypot(dx, dy) or 1.0
+    return dx / n, dy / n
+
+
 def nearest_chain(chains, net, x, y, layer=None):
     """The net's track chain nearest (x, y), on `layer` (any layer when None), or None."""
     p = shapely.Point(x, y)
