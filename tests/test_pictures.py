@@ -24,9 +24,9 @@ def demo():
 
 
 def _drawn(monkeypatch, draw):
-    """The figure a render function drew (it closes it; we keep it)."""
+    """The figure a render function drew (kept for the next picture; we look at it first)."""
     kept = []
-    monkeypatch.setattr(render.plt, "close", lambda fig: kept.append(fig))
+    monkeypatch.setattr(render, "_done", lambda fig: kept.append(fig))
     draw()
     return kept[-1]
 
