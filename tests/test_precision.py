@@ -101,6 +101,30 @@ def test_stripline_with_one_plane_cut_uses_the_other_plane(tmp_path):
     assert max(f["added_inductance_nH"] for f in crossings(both)) > 10 * expect
 
 
+def test_the_other_plane_carries_the_return_where_it_lies(tmp_path):
+    # DQS on L3 runs 20 mm over an opening of L2 (x 20-40); L4, 0.6 mm below, has its own hole
+    # under the last 6 mm of it. The return moves to L4 for the 14 mm it covers: added L =
+    # (L'ms(h = 0.6) - L'sl) * 14 mm (Hammerstad & Jensen 1980 by scikit-rf, Cohn 1954), not a
+    # loop round a 20 mm opening; where both planes are open, L4's own crossing says so
+    from returngap.synth import SynthBoard, Via, rect
+
+    b = SynthBoard("p", 60, 40, n_layers=4, dielectrics=[(0.2, 4.3), (0.2, 4.3), (0.6, 4.3)])
+    b.planes += [(2, "GND", rect(0, 0, 60, 40)), (4, "GND", rect(0, 0, 60, 40))]
+    b.cutouts += [(2, rect(20, 15, 40, 25)), (4, rect(34, 15, 40, 25))]
+    b.tracks.append((3, "DQS", [(10, 20), (50, 20)], 0.1))
+    b.tracks.append((1, "LED", [(5, 35), (15, 35)], 0.2))  # the top layer is not empty
+    b.vias.append(Via(5, 5, "GND"))
+    b.write(tmp_path)
+    found = crossings(run_check(tmp_path, settings=Settings(show_all=True)))
+    [over_l2] = [f for f in found if f["reference_layer"] == "L2"]
+    assert over_l2["return_path"] == "other plane"
+    la, lb = _cohn_air_inductance_nH_per_mm(0.1, 0.4), _cohn_air_inductance_nH_per_mm(0.1, 1.2)
+    per_mm = _mline_air_inductance_nH_per_mm(0.1, 0.6, 0.035) - 2 * la * lb / (la + lb)
+    assert over_l2["added_inductance_nH"] == pytest.approx(per_mm * 14.0, rel=0.05)
+    assert "70 %" in over_l2["inductance_method"]
+    assert [f["return_path"] for f in found if f["reference_layer"] == "L4"] == ["detour"]
+
+
 def _simulated_peak_reflection(l_nH, z0, rise_ns, steps=20000):
     """Time-stepped circuit of its own: a matched source (2 v_i behind Z0) drives a series L into
     a matched load; v_i a linear ramp 0 -> 1 over rise_ns; the reflected wave v_i - Z0 I."""

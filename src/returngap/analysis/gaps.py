@@ -52,7 +52,9 @@ EPS = 1e-6
 STEP_OFF_MM = 0.01  # how far beyond a gap's edge the detour path starts and ends
 MAX_STATIONS = 160  # transverse cuts per crossing for the interrupted share
 EDGE_HAIR_MM = 0.005  # a detour may graze a gap's edge by this much
-OTHER_PLANE_COVER = 0.9  # a stripline's other plane this much under a crossing carries its return
+# a stripline's other plane under this share of a crossing carries its return where it lies (our
+# choice: under half, the gap common to both planes is the larger part, and the detour is kept)
+OTHER_PLANE_COVER = 0.5
 WINDOW_MM = 10.0  # side of the first detour window (at least); the second is three times as wide
 
 
@@ -432,10 +434,10 @@ class _GapScan:
         return ref, (other.layer, dataclasses.replace(other, other_h_mm=None, share=1.0))
 
     def _other_whole(self, ch, other, s_from, s_to):
-        """True where the other plane of a stripline carries the return past this crossing: its
-        copper lies under at least OTHER_PLANE_COVER of the track's centre line there, antipad-sized
-        holes (gaps the scan itself would not report) counting as copper, as the current weaves
-        between them. Where the other plane is cut too, its own crossing is reported there."""
+        """The share of the track's centre line over this crossing that the other plane of a
+        stripline lies under, antipad-sized holes (gaps the scan itself would not report) counting
+        as copper, as the current weaves between them. Where the other plane is cut too, its own
+        crossing is reported there."""
         rc = self.copper(other[0])
         s_from, s_to = max(0.0, s_from), min(ch.line.length, s_to)
         n = int(min(200, max(5, (s_to - s_from) / 0.1)))
@@ -444,12 +446,12 @@ class _GapScan:
         hit = shapely.intersects(rc.void_geoms[k], pts[pt])  # would walk a large void's edges)
         pt, k = pt[hit], k[hit]
         if not len(pt):
-            return True
+            return 1.0
         limit = self.settings.min_gap_length_mm
         big = np.array(
             [not rc.voids[j].enclosed or max(_rect_sides(rc.voids[j].rect)) >= limit for j in k]
         )
-        return len(np.unique(pt[big])) <= (1.0 - OTHER_PLANE_COVER) * n
+        return 1.0 - len(np.unique(pt[big])) / n
 
     def _coplanar_gaps(self, ch, s_from, s_to):
         """(gap on one side, gap on the other or None) between the track's edges and plane copper
@@ -1003,8 +1005,10 @@ def _other_returns(board, ch, ref, settings, ways, ev, crossed, span, share, e):
 def _other_way(board, ch, ref, settings, ways, ev, crossed, span, share, e):
     whole, beside = ways if ways is not None else (None, None)
     over = (crossed[1] - crossed[0]) if ev == "cross" else (span[1] - span[0]) * min(1.0, share)
-    if whole is not None and whole(span[0], span[1]):
-        return _one_plane_estimate(board, ch, ref, settings, over, e)
+    where = crossed if ev == "cross" else span  # where the reference plane is missing
+    cover = whole(*where) if whole is not None else 0.0
+    if cover >= OTHER_PLANE_COVER:  # where the other plane is cut too, that is its own finding
+        return _one_plane_estimate(board, ch, ref, settings, over * cover, cover, e)
     # the copper beside must run on past the gap by the footprint's spread to carry the return
     reach = (span[1] - span[0] - (crossed[1] - crossed[0])) / 2 if ev == "cross" else 0.0
     gaps_beside = (
@@ -1038,9 +1042,10 @@ def _coplanar_estimate(board, ch, ref, settings, over_mm, gaps_beside, e):
     }
 
 
-def _one_plane_estimate(board, ch, ref, settings, over_mm, e):
-    """The other plane of the stripline is whole under the crossing: the return moves there for
-    the crossed length, a local rise of the line's inductance, not a loop round the gap."""
+def _one_plane_estimate(board, ch, ref, settings, over_mm, cover, e):
+    """The other plane of the stripline lies under the crossing (`cover`: the share of it): the
+    return moves there for the crossed length it covers, a local rise of the line's inductance,
+    not a loop round the gap."""
     t = board.stackup.copper_thickness_mm.get(ch.layer, 0.035)
     est = physics.one_plane_missing_inductance_nH(ch.width_mm, ref.h_mm, ref.other_h_mm, t, over_mm)
     refl = physics.series_inductance_reflection(est, e["z0"], settings.rise_ns_for(ch.net))
@@ -1050,7 +1055,8 @@ def _one_plane_estimate(board, ch, ref, settings, over_mm, e):
         "lo": est,
         "hi": est,
         "refl": refl,
-        "method": "one plane missing: stripline to microstrip over the other plane",
+        "method": "one plane missing: stripline to microstrip over the other plane"
+        + ("" if cover >= 0.999 else f" (under {100 * cover:.0f} % of the crossing)"),
         "return_plane": "other",
     }
 
