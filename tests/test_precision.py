@@ -125,6 +125,29 @@ def test_the_other_plane_carries_the_return_where_it_lies(tmp_path):
     assert [f["return_path"] for f in found if f["reference_layer"] == "L4"] == ["detour"]
 
 
+def test_a_stripline_off_one_plane_returns_in_the_other(tmp_path):
+    # DQS on L3 leaves the L4 plane (0.2 mm below, it ends at x = 30) for its last 20 mm; L2,
+    # 0.6 mm above, is whole: the return moves to L2, added L = (L'ms(h = 0.6) - L'sl) * 20 mm
+    # (Hammerstad & Jensen 1980 by scikit-rf, Cohn 1954), not a return receding from the edge
+    from returngap.synth import SynthBoard, Via, rect
+
+    b = SynthBoard("e", 60, 40, n_layers=4, dielectrics=[(0.2, 4.3), (0.6, 4.3), (0.2, 4.3)])
+    b.planes += [(2, "GND", rect(0, 0, 60, 40)), (4, "GND", rect(0, 0, 30, 40))]
+    b.tracks.append((3, "DQS", [(10, 20), (50, 20)], 0.1))
+    b.tracks.append((1, "LED", [(5, 35), (15, 35)], 0.2))  # the top layer is not empty
+    b.vias.append(Via(5, 5, "GND"))
+    b.write(tmp_path)
+    runs = [
+        f for f in run_check(tmp_path).findings if f["kind"] == "edge-run" and f["net"] == "DQS"
+    ]
+    [run] = [f for f in runs if f["off_plane"]]
+    assert run["reference_layer"] == "L4" and run["run_length_mm"] == pytest.approx(20, abs=0.3)
+    la, lb = _cohn_air_inductance_nH_per_mm(0.1, 0.4), _cohn_air_inductance_nH_per_mm(0.1, 1.2)
+    per_mm = _mline_air_inductance_nH_per_mm(0.1, 0.6, 0.035) - 2 * la * lb / (la + lb)
+    assert run["added_inductance_nH"] == pytest.approx(per_mm * 20.0, rel=0.05)
+    assert run["inductance_method"].startswith("one plane missing")
+
+
 def _simulated_peak_reflection(l_nH, z0, rise_ns, steps=20000):
     """Time-stepped circuit of its own: a matched source (2 v_i behind Z0) drives a series L into
     a matched load; v_i a linear ramp 0 -> 1 over rise_ns; the reflected wave v_i - Z0 I."""

@@ -11,7 +11,7 @@ import shapely
 
 from returngap import physics
 from returngap.analysis import severity
-from returngap.analysis.gaps import coords_along_lines
+from returngap.analysis.gaps import OTHER_PLANE_COVER, coords_along_lines
 from returngap.analysis.references import line_z0
 from returngap.checks.common import finding
 from returngap.geometry.shapes import disjoint_union, near_clusters
@@ -28,13 +28,17 @@ def edge_runs(board, nets, refs, chains, settings, hs, plane_nets_of):
         by_layer[ch.layer].append(k)
     edges = {}  # reference layer -> (plane copper without its holes, tree of its edge segments)
     sampled = {}  # chain index -> (net, ref, limit, s, points, inside, d)
+    others = {}  # signal layer -> a stripline's other plane copper (filled), where it has one
     for layer, idx in by_layer.items():
         ref = min(refs.get(layer, []), key=lambda q: q.h_mm, default=None)
         if ref is not None:
             sampled.update(_sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges))
+            other = next((q for q in refs[layer] if q.layer != ref.layer), None)
+            if ref.other_h_mm is not None and other is not None:
+                others[layer] = _plane_edges(nets, other.layer, edges)[0]
     findings = []
     for ci in sorted(sampled):
-        findings += _runs(board, chains[ci], *sampled[ci], hs)
+        findings += _runs(board, chains[ci], *sampled[ci], hs, others.get(chains[ci].layer))
     return _joined(findings, hs)
 
 
@@ -180,8 +184,9 @@ def _measure(xy, look, outer, edge_tree, limit):
     return inside, d
 
 
-def _runs(board, ch, net, ref, limit, s, pts, inside, d, hs):
-    """The edge-run findings of one track from its samples."""
+def _runs(board, ch, net, ref, limit, s, pts, inside, d, hs, other=None):
+    """The edge-run findings of one track from its samples; other: a stripline's other plane
+    copper, which carries the return off this plane where it lies under the run."""
     n = len(s)
     cls = np.where(~inside, OFF, np.where(d < limit, NEAR, 0))
     change = np.flatnonzero(np.diff(cls)) + 1
@@ -195,12 +200,20 @@ def _runs(board, ch, net, ref, limit, s, pts, inside, d, hs):
             continue
         k = a + int(np.argmin(d[a:b])) if c == NEAR else (b - 1 if a == 0 else a)
         signed = float(d[k]) if c == NEAR else -float(np.max(d[a:b]))
-        f = _run_finding(board, ch, net, ref, c, length, signed, pts[k], hs)
+        cover = _cover(other, pts[a:b]) if c == OFF else 0.0
+        f = _run_finding(board, ch, net, ref, c, length, signed, pts[k], hs, cover)
         out.append(dataclasses.replace(f, run_ends_mm=[pts[a].tolist(), pts[b - 1].tolist()]))
     return out
 
 
-def _run_finding(board, ch, net, ref, c, length, signed, at, settings):
+def _cover(other, pts):
+    """The share of the samples that the other plane's copper lies under (0 without one)."""
+    if other is None or not len(pts):
+        return 0.0
+    return float(shapely.intersects(other, shapely.points(pts)).mean())
+
+
+def _run_finding(board, ch, net, ref, c, length, signed, at, settings, cover=0.0):
     if ref.other_h_mm is None:
         share = physics.microstrip_fraction_beyond_edge(signed, ref.h_mm)
     else:
@@ -210,6 +223,20 @@ def _run_finding(board, ch, net, ref, c, length, signed, at, settings):
         )
     z0 = line_z0(board, ch.layer, ch.width_mm, ref)
     added = _added_inductance_nH(board, ch, ref, c, length, signed)
+    method = (
+        "off the plane: edge rise plus the return receding to the edge (image estimate)"
+        if c == OFF
+        else "L' rise near a plane edge (2-D solve, reference sheet section 12)"
+    )
+    via_other = _over_other_plane(board, ch, ref, length, cover)
+    if via_other is not None:  # where the other plane is missing too, the run's own estimate
+        via_other += added * (1.0 - cover)
+    if via_other is not None and via_other < added:  # the return takes the way that adds less
+        added = via_other
+        method = (
+            "one plane missing: stripline to microstrip over the other plane, under "
+            f"{100 * cover:.0f} % of the run"
+        )
     rise = settings.rise_ns_for(ch.net)
     refl = physics.series_inductance_reflection(added, z0, rise)
     return finding(
@@ -228,11 +255,7 @@ def _run_finding(board, ch, net, ref, c, length, signed, at, settings):
         height_mm=ref.h_mm,
         off_plane=bool(c == OFF),
         added_inductance_nH=added,
-        inductance_method=(
-            "off the plane: edge rise plus the return receding to the edge (image estimate)"
-            if c == OFF
-            else "L' rise near a plane edge (2-D solve, reference sheet section 12)"
-        ),
+        inductance_method=method,
         reflection_fraction=refl,
         z0_ohm=z0,
         rise_time_ns=rise,
@@ -250,6 +273,18 @@ def _added_inductance_nH(board, ch, ref, c, length, signed):
     else:
         per_mm = physics.plane_edge_inductance_rise(signed / ref.h_mm) * l_line
     return per_mm * length * ref.share
+
+
+def _over_other_plane(board, ch, ref, length, cover):
+    """Off the plane, a stripline whose other plane lies under at least half of the run returns
+    there: the one-plane-missing rise over the length it covers (as for a gap crossing,
+    analysis/gaps.py; the rest of the run keeps its own estimate); None otherwise."""
+    if ref.other_h_mm is None or cover < OTHER_PLANE_COVER:
+        return None
+    t = board.stackup.copper_thickness_mm.get(ch.layer, 0.035)
+    return physics.one_plane_missing_inductance_nH(
+        ch.width_mm, ref.h_mm, ref.other_h_mm, t, length * cover
+    )
 
 
 def _segment_tree(lines):
