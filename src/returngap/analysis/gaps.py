@@ -1110,18 +1110,18 @@ def _finding(
     if share < settings.min_interrupted_fraction:
         return None
     pa, pb, ia, ib = _sides(line, local, rc, ev, s0, s1, d)
+    est = functools.partial(
+        _estimate, board, ch, ref, rc, void, geo, settings, whole, ev, (s0, s1), span, share
+    )
+    split = ev == "cross" and (ia is None or ib is None or ia != ib)
+    first = None if split or settings.show_all else est(False)
+    if first is not None and first[2]["est"] < settings.min_added_nH:
+        return None  # below the noise floor: no way round to look for
     detour, path, method, split = _way_round(rc, void, hw, ev, pa, pb, ia, ib)
     if ev == "cross" and not split and detour < settings.min_detour_mm:
         return None
+    width, ends, e = first if first is not None and not split else est(split)
     gap_type = _gap_type(split, void, geo)
-    width = (
-        geo["width"]
-        if geo["width"] is not None and not split
-        else (s1 - s0 if ev == "cross" else 0.0)
-    )
-    ends = _slot_ends(rc, void, gap_type, geo)
-    e = _gap_estimate(board, ch, ref, settings, geo["length"], width, ends, split)
-    e = _other_returns(board, ch, ref, settings, whole, ev, (s0, s1), span, share, e)
     x, y = float(mid.x), float(mid.y)
     side_nets = _side_nets(rc, split, (ia, ib))
     return _gap_record(
@@ -1143,6 +1143,19 @@ def _finding(
         side_nets,
         void.geom.bounds,
     )
+
+
+def _estimate(board, ch, ref, rc, void, geo, settings, whole, ev, crossed, span, share, split):
+    """(gap width, stub ends, estimate) of a crossing, split or not, the other ways included."""
+    width = (
+        geo["width"]
+        if geo["width"] is not None and not split
+        else (crossed[1] - crossed[0] if ev == "cross" else 0.0)
+    )
+    ends = _slot_ends(rc, void, _gap_type(split, void, geo), geo)
+    e = _gap_estimate(board, ch, ref, settings, geo["length"], width, ends, split)
+    e = _other_returns(board, ch, ref, settings, whole, ev, crossed, span, share, e)
+    return width, ends, e
 
 
 _RETURN_PATHS = {"other": "other plane", "coplanar": "coplanar"}
