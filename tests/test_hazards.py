@@ -51,6 +51,34 @@ def test_reference_change_to_stitching_via(tmp_path):
     assert f["added_inductance_nH"] == pytest.approx(0.4 * 1.0 * math.acosh(3.0 / 0.3), rel=1e-6)
 
 
+def test_a_stripline_layer_change_counts_each_planes_share(tmp_path):
+    # DQ on L3 runs between P3V3 (L2) and GND (L4), 0.2 mm each way (half the return on each,
+    # REFERENCE 1.3), then drops to L6 over GND (L5). The GND half crosses at a GND via 3 mm away,
+    # the P3V3 half at C7, 20 mm away. Each share forced through its own way: 0.25 L_C7 +
+    # 0.25 L_via, each a two-wire via pair (mu0 h/pi) acosh(s/2r) (REFERENCE 3.6), the part with
+    # its 1 nH loop; not the whole L_C7 the P3V3 plane alone would give
+    from returngap.synth import SynthBoard, Via, rect
+
+    diel = [(0.2, 4.3), (0.2, 4.3), (0.2, 4.3), (1.0, 4.3), (0.2, 4.3)]
+    b = SynthBoard("r", 60, 45, n_layers=6, dielectrics=diel)
+    b.planes += [(2, "P3V3", rect(0, 0, 60, 45)), (4, "GND", rect(0, 0, 60, 45))]
+    b.planes.append((5, "GND", rect(0, 0, 60, 45)))
+    b.tracks += [(3, "DQ", [(10, 20), (30, 20)], 0.1), (6, "DQ", [(30, 20), (50, 20)], 0.1)]
+    b.tracks.append((1, "LED", [(5, 5), (15, 5)], 0.2))
+    b.vias += [Via(30, 20, "DQ"), Via(30, 23, "GND"), Via(55, 5, "P3V3")]
+    b.pads += [(1, 29.0, 40.0, 0.8, 0.9, "GND", ("C7", "1"))]
+    b.pads += [(1, 31.0, 40.0, 0.8, 0.9, "P3V3", ("C7", "2"))]
+    b.vias += [Via(29.0, 40.0, "GND"), Via(31.0, 40.0, "P3V3")]
+    b.write(tmp_path)
+    [f] = kinds(tmp_path, "reference-change", rise_time_ns=0.05)
+    two_wire = lambda h, s: 0.4 * h * math.acosh(s / 0.3)  # noqa: E731, r = 0.15 mm
+    l_part = two_wire(0.2 + 0.2 + 1.0 + 2 * 0.035, 20.0) + 1.0  # L2 to L5 (L3, L4 copper between)
+    l_via = two_wire(1.0, 3.0)  # L4 to L5, the GND via 3 mm away
+    assert f["added_inductance_nH"] == pytest.approx(0.25 * (l_part + l_via), rel=0.02)
+    assert f["inductance_method"].startswith("stripline") and f["bridge_part"] == "C7"
+    assert f["added_inductance_range_nH"][0] < f["added_inductance_nH"] < 0.5 * l_part
+
+
 def test_edge_run_distance_in_h(tmp_path):
     f = [x for x in kinds(hazard_board(tmp_path, edge_gap=0.5), "edge-run") if x["net"] == "SIG_B"]
     assert len(f) == 1

@@ -3,7 +3,7 @@
 Same-net planes: the nearest stitching via joining them and the via-pair loop (mu0*h/pi)*acosh(s/2r)
 (REFERENCE 3.6). Different nets: the nearest two-terminal part bridging the two plane nets plus a
 mounted-part loop (REFERENCE 8; 1 nH, 0.5-1.5 nH, from memory), or a statement that the data has
-no part information.
+no part information. A stripline's two planes each carry their share across by their own way.
 """
 
 import math
@@ -37,6 +37,8 @@ class _Change:
     nb: str
     h: float
     z0: float
+    srcs: tuple = ()  # (reference, plane net, share) of every plane of layer la, and of lb
+    dsts: tuple = ()
 
     def common(self):
         return dict(
@@ -67,12 +69,9 @@ def reference_changes(board, nets, refs, settings):
         ch = _change_at(board, nets, refs, ends, x, y, r, net, a, b)
         if ch is None:
             continue
-        f = (
-            _same_net(ch, table, settings)
-            if ch.na == ch.nb
-            else _other_nets(board, nets, ch, settings)
-        )
-        if f is not None:
+        f = _shared(board, nets, ch, table, settings) if _two_sided(ch) else None
+        f = _single(board, nets, ch, table, settings) if f is None else f
+        if f is not _NONE:
             out.append(f)
     return out
 
@@ -136,63 +135,119 @@ def _change_at(board, nets, refs, ends, x, y, r, net, a, b):
     if na is None or nb is None:
         return None
     h = board.stackup.height_mm(ra.layer, rb.layer)
-    return _Change(net, x, y, max(r, 0.05), la, lb, ra, rb, na, nb, h, line_z0(board, la, wa, ra))
+    srcs, dsts = (_planes_at(nets, refs.get(layer, []), x, y) for layer in (la, lb))
+    z0 = line_z0(board, la, wa, ra)
+    return _Change(net, x, y, max(r, 0.05), la, lb, ra, rb, na, nb, h, z0, srcs, dsts)
 
 
-def _same_net(ch, table, settings):
-    """Both planes one net: the nearest stitching via that joins them makes the loop."""
-    lo, hi = sorted((int(ch.ra.layer[1:]), int(ch.rb.layer[1:])))
-    near = table.nearest(ch.na, lo, hi, ch.x, ch.y)
-    if near is None:
-        return ch.finding(
-            "error",
-            distance_mm=None,
-            added_inductance_nH=None,
-        )
-    s, i = near
-    ind = physics.via_pair_inductance_nH(ch.h, s, ch.rv)
-    refl = physics.series_inductance_reflection(ind, ch.z0, settings.rise_ns_for(ch.net))
-    sev = severity.by_reflection(refl, settings.reflection_budget)
-    if sev == "info" and refl < settings.reflection_budget / 4:
-        return None
-    return ch.finding(
-        sev,
-        distance_mm=s,
-        return_x_mm=float(table.x[i]),
-        return_y_mm=float(table.y[i]),
-        added_inductance_nH=ind,
-        added_inductance_range_nH=[ind, ind],
-        inductance_method="via-pair two-wire line",
-        reflection_fraction=refl,
-    )
+def _planes_at(nets, layer_refs, x, y):
+    """(reference, plane net, share) of a layer's reference planes with plane copper at (x, y),
+    the shares of those present made to add up to one."""
+    found = [(q, plane_net_near(nets.layers[q.layer], nets.plane_nets, x, y)) for q in layer_refs]
+    found = [(q, n) for q, n in found if n is not None]
+    total = sum(q.share for q, _ in found) or 1.0
+    return tuple((q, n, q.share / total) for q, n in found)
 
 
-def _other_nets(board, nets, ch, settings):
-    """Planes of two nets: the return crosses through the nearest part bridging them."""
-    parts, known = parts_bridging(board, nets, ch.na, ch.nb)
-    if not parts:
-        # no part in the data bridges the two nets: with parts known that is a missing bridge (an
-        # error); without part data there is nothing to estimate, said once in the report
+def _single(board, nets, ch, table, settings):
+    """One plane each side: the return crosses by the way between them (_way); where the data has
+    none, the finding says so (no stitching via: an error; no bridging part: an error where parts
+    are known, else information)."""
+    way = _way(board, nets, ch, table, (ch.ra, ch.na, 1.0), (ch.rb, ch.nb, 1.0))
+    if way is None:
+        if ch.na == ch.nb:
+            return ch.finding("error", distance_mm=None, added_inductance_nH=None)
+        _, known = parts_bridging(board, nets, ch.na, ch.nb)
         return ch.finding(
             "error" if known else "info",
             distance_mm=None,
             added_inductance_nH=None,
             parts_known=known,
         )
-    d, ref_des, px, py = min((math.hypot(px - ch.x, py - ch.y), rd, px, py) for rd, px, py in parts)
-    spread = physics.via_pair_inductance_nH(ch.h, max(d, 2.5 * ch.rv), ch.rv)
-    lo, hi = spread + 0.5, spread + 1.5
-    ind = spread + DEFAULT_PART_LOOP_NH
+    ind, detail = way
+    if "bridge_part" in detail:  # the part's own loop: 0.5-1.5 nH (from memory)
+        spread = ind - DEFAULT_PART_LOOP_NH
+        rng, method = [spread + 0.5, spread + 1.5], "via-pair spread + mounted part loop"
+        return _reported(ch, settings, ind, rng, method, detail, keep_small=True)
+    return _reported(ch, settings, ind, [ind, ind], "via-pair two-wire line", detail)
+
+
+def _reported(ch, settings, ind, rng, method, detail, keep_small=False):
+    """The finding of a layer change of this added inductance; _NONE for a stitching-via change
+    reflecting under a quarter of the budget (not worth a line)."""
     refl = physics.series_inductance_reflection(ind, ch.z0, settings.rise_ns_for(ch.net))
     sev = severity.by_reflection(refl, settings.reflection_budget)
+    if not keep_small and sev == "info" and refl < settings.reflection_budget / 4:
+        return _NONE
     return ch.finding(
         sev,
-        distance_mm=d,
-        bridge_part=ref_des,
-        return_x_mm=px,
-        return_y_mm=py,
+        **(detail or {}),
         added_inductance_nH=ind,
-        added_inductance_range_nH=[lo, hi],
-        inductance_method="via-pair spread + mounted part loop",
+        added_inductance_range_nH=rng,
+        inductance_method=method,
         reflection_fraction=refl,
     )
+
+
+_NONE = object()  # the change needs no finding (below the reporting floor)
+
+
+def _two_sided(ch):
+    """A stripline on either side: its two planes each carry their share across."""
+    return len(ch.srcs) > 1 or len(ch.dsts) > 1
+
+
+def _way(board, nets, ch, table, src, dst):
+    """(inductance, detail) of the way one plane's return takes to another plane at this via:
+    none within one plane, the nearest stitching via between two planes of one net, the nearest
+    part bridging two nets; None where there is no way in the data."""
+    (rs, ns, _), (rd, nd, _) = src, dst
+    if rs.layer == rd.layer:
+        return 0.0, None
+    h = board.stackup.height_mm(rs.layer, rd.layer)
+    if ns == nd:
+        lo, hi = sorted((int(rs.layer[1:]), int(rd.layer[1:])))
+        near = table.nearest(ns, lo, hi, ch.x, ch.y)
+        if near is None:
+            return None
+        s, i = near
+        detail = dict(distance_mm=s, return_x_mm=float(table.x[i]), return_y_mm=float(table.y[i]))
+        return physics.via_pair_inductance_nH(h, s, ch.rv), detail
+    parts, _ = parts_bridging(board, nets, ns, nd)
+    if not parts:
+        return None
+    d, ref_des, px, py = min((math.hypot(px - ch.x, py - ch.y), rd, px, py) for rd, px, py in parts)
+    spread = physics.via_pair_inductance_nH(h, max(d, 2.5 * ch.rv), ch.rv)
+    detail = dict(distance_mm=d, bridge_part=ref_des, return_x_mm=px, return_y_mm=py)
+    return spread + DEFAULT_PART_LOOP_NH, detail
+
+
+def _cheapest(board, nets, ch, table, one, others, flip):
+    """The least inductive way between plane `one` and any of `others` (None if none has one)."""
+    ways = [_way(board, nets, ch, table, *((o, one) if flip else (one, o))) for o in others]
+    ways = [w for w in ways if w is not None]
+    return min(ways, key=lambda w: w[0]) if ways else None
+
+
+def _shared(board, nets, ch, table, settings):
+    """A stripline's two planes hold fixed shares of the return where the track is (REFERENCE
+    1.3): each share crosses to the other layer's planes by its own least inductive way, and the
+    added inductance is that of the shares forced through their ways, sum(share^2 * L) (derived:
+    the energy of fixed currents), taken from both sides and the larger kept; the range's bottom
+    is the ways in parallel (the current free to move between the planes). None where a share
+    has no way in the data (the one-plane estimate then speaks)."""
+    forward = [
+        (s, _cheapest(board, nets, ch, table, p, ch.dsts, False)) for p in ch.srcs for s in [p[2]]
+    ]
+    backward = [
+        (t, _cheapest(board, nets, ch, table, q, ch.srcs, True)) for q in ch.dsts for t in [q[2]]
+    ]
+    if any(w is None for _, w in forward + backward):
+        return None
+    side = max((forward, backward), key=lambda ws: sum(s * s * w[0] for s, w in ws))
+    est = sum(s * s * w[0] for s, w in side)
+    worst = max(side, key=lambda sw: sw[0] * sw[0] * sw[1][0])[1]  # its details are reported
+    inverse = [1.0 / w[0] for _, w in forward if w[0] > 0]
+    low = 0.0 if len(inverse) < len(forward) else 1.0 / sum(inverse)
+    method = "stripline: each plane's share by its own way, sum(share^2 L)"
+    return _reported(ch, settings, est, [min(low, est), est], method, worst[1])
