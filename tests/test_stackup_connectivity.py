@@ -102,7 +102,9 @@ def test_unnamed_nets_and_the_ground_rule(tmp_path):
 
 def test_net_classes_from_names():
     cls = connectivity.classify(
-        ["GND", "AGND", "/power/+3V3", "VDD_CORE", "1V8", "Board_0-GND", "CLK", "SDA"], {}
+        ["GND", "AGND", "/power/+3V3", "VDD_CORE", "1V8", "Board_0-GND", "CLK", "SDA"]
+        + ["/eth/VC2-", "VC1+", "VCLK"],
+        {},
     )
     assert cls == {
         "GND": "ground",
@@ -113,6 +115,9 @@ def test_net_classes_from_names():
         "Board_0-GND": "ground",
         "CLK": "signal",
         "SDA": "signal",
+        "/eth/VC2-": "power",  # a magnetics' centre tap, PoE power
+        "VC1+": "power",
+        "VCLK": "signal",
     }
 
 

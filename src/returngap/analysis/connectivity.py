@@ -47,7 +47,8 @@ GROUND_RE = re.compile(
 )
 POWER_RE = re.compile(
     r"^(?:\+|-)?(?:V(?:CC|DD|EE|BUS|BAT|IN|IO|REF|CORE|SYS|PP|DDQ|TT)\w*|PWR\w*|POWER\w*|"
-    r"P?\d+V\d*\w*|\d+V|V\d+\w*|\d+\.\d+V\w*|V?POE\w*[+-]?)$",  # PoE rails: POE+, POE-
+    r"P?\d+V\d*\w*|\d+V|V\d+\w*|\d+\.\d+V\w*|V?POE\w*[+-]?|"  # PoE rails: POE+, POE-
+    r"VC\d[+-]?)$",  # and a magnetics' centre taps carrying PoE (VC1+, VC2-)
     re.I,
 )
 POUR_MIN_MM2 = 25.0  # an island this large is a pour, its net a supply (common practice, no source)
