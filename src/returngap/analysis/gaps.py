@@ -885,7 +885,11 @@ def _graze_span(line, local, hw, w, ref, settings):
         return None  # it only touches the footprint
     near_line, _ = shapely.shortest_line(line, local).coords
     mid_s = line.project(shapely.Point(near_line))
-    near = local.intersection(line.buffer(hw, cap_style="flat"))
+    x0, y0, x1, y1 = local.bounds  # only the stretch within hw of the void's box reaches it
+    piece = shapely.clip_by_rect(
+        line, x0 - hw - 0.01, y0 - hw - 0.01, x1 + hw + 0.01, y1 + hw + 0.01
+    )
+    near = local.intersection(piece.buffer(hw, cap_style="flat"))
     corners = (
         np.asarray(near.exterior.coords)
         if near.geom_type == "Polygon"
