@@ -69,6 +69,12 @@ class Void:
         return self.geom.minimum_rotated_rectangle  # one per void, however many tracks cross it
 
     @functools.cached_property
+    def span(self):
+        """The diagonal of its rectangle: no cut through it is longer."""
+        c = np.asarray(self.rect.exterior.coords)[:3] if self.rect.geom_type == "Polygon" else None
+        return float(np.hypot(*(c[2] - c[0]))) if c is not None else 0.0
+
+    @functools.cached_property
     def filled_area(self):
         """Its area with its holes filled: a moat round an island of other copper (a feed track
         routed through the plane, its clearance cut round it) is a slot as long as the moat."""
@@ -405,6 +411,10 @@ class _GapScan:
             )
             rc = self.copper(ref_layer)
             near = self._near_voids(rc, ch, hw) if rc.voids else []
+            # an enclosed gap too small for any cut through it to reach the least gap length is
+            # never reported (_finding): not looked at
+            limit = self.settings.min_gap_length_mm
+            near = [k for k in near if not (rc.voids[k].enclosed and rc.voids[k].span < limit)]
             if not len(near):
                 continue
             whole = functools.partial(self._other_whole, ch, other) if other else None
