@@ -23,6 +23,11 @@ def run(*args, env=None):
     return CliRunner().invoke(main, [str(a) for a in args], catch_exceptions=False, env=env)
 
 
+def check_demo(*args, env=None):
+    """`returngap check` of the demo board with its stackup, and the given options."""
+    return run("check", DEMO, "--stackup", STACKUP, *args, env=env)
+
+
 def _returngap(*args, **kw):
     return subprocess.run(
         [sys.executable, "-m", "returngap.cli", *map(str, args)],
@@ -55,7 +60,7 @@ def test_a_closed_pipe_ends_quietly():
 
 @pytest.mark.parametrize("width", [80, 120, 200])
 def test_the_table_fits_the_terminal(width):
-    r = run("check", DEMO, "--stackup", STACKUP, "--fail-on", "never", env={"COLUMNS": str(width)})
+    r = check_demo("--fail-on", "never", env={"COLUMNS": str(width)})
     table = [ln for ln in r.output.splitlines() if ln.startswith(("  #", "---", "  1 "))]
     assert table and all(len(ln) <= width for ln in table)
     assert "kind" in table[0] and "stitching-sp " not in r.output
@@ -69,20 +74,7 @@ def test_long_net_names_stay_apart():
 
 def test_nets_apply_to_every_kind_in_any_case_and_warn_when_unmatched(tmp_path):
     out = tmp_path / "f.json"
-    r = run(
-        "check",
-        DEMO,
-        "--stackup",
-        STACKUP,
-        "--nets",
-        "db1*",
-        "--nets",
-        "NOPE_*",
-        "--json",
-        out,
-        "--fail-on",
-        "never",
-    )
+    r = check_demo("--nets", "db1*", "--nets", "NOPE_*", "--json", out, "--fail-on", "never")
     rep = json.loads(out.read_text())
     nets = {f["net"] for f in rep["findings"]}
     assert nets and all(n.upper().startswith("DB1") for n in nets)  # reference changes too
@@ -97,7 +89,7 @@ def _waivers(tmp_path, body):
 
 def test_waivers_unknown_table_kind_only_and_stale_when_quiet(tmp_path):
     bad = _waivers(tmp_path, '[waivers]\nid = "x"\n')
-    r = run("check", DEMO, "--stackup", STACKUP, "--waivers", bad)
+    r = check_demo("--waivers", bad)
     assert r.exit_code == 2 and "unknown table(s) waivers" in r.output
     kind_only = _waivers(
         tmp_path,
@@ -105,19 +97,7 @@ def test_waivers_unknown_table_kind_only_and_stale_when_quiet(tmp_path):
         '[[waiver]]\nid = "000000000000"\nby = "A. Reviewer"\nreason = "gone"\n',
     )
     out = tmp_path / "f.json"
-    r = run(
-        "check",
-        DEMO,
-        "--stackup",
-        STACKUP,
-        "--waivers",
-        kind_only,
-        "--json",
-        out,
-        "-q",
-        "--fail-on",
-        "never",
-    )
+    r = check_demo("--waivers", kind_only, "--json", out, "-q", "--fail-on", "never")
     rep = json.loads(out.read_text())
     waived = [f for f in rep["findings"] if f.get("waiver")]
     assert waived and all(f["kind"] == "reference-change" for f in waived)
@@ -129,11 +109,11 @@ def test_baseline_of_another_board_is_refused(tmp_path):
     other = tmp_path / "other.json"
     rep = json.loads((TESTDATA / "golden" / "slot-centred.json").read_text())
     other.write_text(json.dumps(rep))
-    r = run("check", DEMO, "--stackup", STACKUP, "--baseline", other)
+    r = check_demo("--baseline", other)
     assert r.exit_code == 2 and "baseline is of another board" in r.output
     same = tmp_path / "same.json"
-    run("check", DEMO, "--stackup", STACKUP, "--json", same, "--fail-on", "never")
-    r = run("check", DEMO, "--stackup", STACKUP, "--baseline", same, "--fail-on", "never")
+    check_demo("--json", same, "--fail-on", "never")
+    r = check_demo("--baseline", same, "--fail-on", "never")
     assert "0 new," in r.output and "resolved" in r.output
 
 
@@ -159,7 +139,7 @@ def test_sarif_validates_against_the_published_schema(tmp_path):
     # SARIF 2.1.0's own JSON schema (OASIS), shipped in testdata/sarif/
     schema = json.loads((TESTDATA / "sarif" / "sarif-2.1.0-rtm.5.json").read_text())
     out = tmp_path / "out"
-    r = run("check", DEMO, "--stackup", STACKUP, "--out", out, "--fail-on", "never", "-q")
+    r = check_demo("--out", out, "--fail-on", "never", "-q")
     assert r.exit_code == 0
     log = json.loads((out / "findings.sarif").read_text())
     jsonschema.validate(log, schema, cls=jsonschema.Draft4Validator)

@@ -11,9 +11,9 @@ from dataclasses import dataclass
 
 import numpy as np
 import shapely
-import shapely.affinity
 
 from returngap.analysis import references
+from returngap.geometry.frame import TrackFrame
 from returngap.physics import resistive
 
 __all__ = ["DcSplit", "dc_split", "MAX_RASTER_CELLS"]
@@ -31,26 +31,14 @@ class DcSplit:
     seconds: float
 
 
-def _frame(chain, x, y):
-    """(x, y, angle_deg) of the frame: the crossing at the origin, the track along +x."""
-    dx, dy = references.direction_at(chain, x, y)
-    return x, y, math.degrees(math.atan2(dy, dx))
-
-
-def _local(geom, frame):
-    x, y, angle = frame
-    moved = shapely.affinity.translate(geom, -x, -y)
-    return shapely.affinity.rotate(moved, -angle, origin=(0, 0))
-
-
-def _raster(plane, gap, box):
-    """(copper mask [i, j], x0, y0, cell): plane copper cell centres, the gap widened to a cell."""
+def _raster(near, gap, box):
+    """(copper mask [i, j], x0, y0, cell): cell centres on the plane copper in the box (`near`),
+    off the gap widened to a cell."""
     x0, y0, x1, y1 = box
     cell = max(FINEST_CELL_MM, math.sqrt((x1 - x0) * (y1 - y0) / MAX_RASTER_CELLS))
     nx, ny = max(2, int(math.ceil((x1 - x0) / cell))), max(2, int(math.ceil((y1 - y0) / cell)))
     gx, gy = np.meshgrid(x0 + (np.arange(nx) + 0.5) * cell, y0 + (np.arange(ny) + 0.5) * cell)
     gx, gy = gx.T, gy.T
-    near = plane.intersection(shapely.box(*box))
     shapely.prepare(near)
     wide = gap.buffer(0.75 * cell)
     shapely.prepare(wide)
@@ -73,21 +61,22 @@ def _gap_span_at_origin(gap):
     return part.bounds[1], part.bounds[3]
 
 
-def dc_split(board, nets, chains, finding, gap_polygon):
-    """The DC share round the near end of the slot that `finding` crosses; gap_polygon: that
-    slot's void (board coordinates). Raises LookupError without a track there and
-    resistive.NotConnected when the run's two ends sit on unjoined copper."""
+def dc_split(chains, finding, plane, gap_polygon):
+    """The DC share round the near end of the slot that `finding` crosses; plane: the reference
+    layer's plane copper, gap_polygon: the slot's void in it (board coordinates). Raises
+    LookupError without a track there and resistive.NotConnected when the run's two ends sit on
+    unjoined copper."""
     t0 = time.perf_counter()
     x, y = finding["x_mm"], finding["y_mm"]
     chain = references.nearest_chain(chains, finding["net"], x, y, finding["layer"])
     if chain is None:
         raise LookupError(f"no track of {finding['net']} near ({x:.2f}, {y:.2f})")
-    frame = _frame(chain, x, y)
-    plane = nets.layers[finding["reference_layer"]].union_of(nets.plane_nets)
-    run, gap = _local(chain.line, frame), _local(gap_polygon, frame)
+    dx, dy = references.direction_at(chain, x, y)
+    frame = TrackFrame(x, y, math.degrees(math.atan2(dy, dx)))
+    run, gap = frame.local(chain.line), frame.local(gap_polygon)
     bx = shapely.union(shapely.envelope(run), shapely.envelope(gap)).bounds
-    box = (bx[0] - MARGIN_MM, bx[1] - MARGIN_MM, bx[2] + MARGIN_MM, bx[3] + MARGIN_MM)
-    copper, x0, y0, cell = _raster(_local(plane, frame), gap, box)
+    frame.box = (bx[0] - MARGIN_MM, bx[1] - MARGIN_MM, bx[2] + MARGIN_MM, bx[3] + MARGIN_MM)
+    copper, x0, y0, cell = _raster(frame.clip(plane), gap, frame.box)
     ends = run.coords[0], run.coords[-1]
     feed, drain = (_nearest_copper(copper, x0, y0, cell, p) for p in ends)
     potential = resistive.sheet_potential(copper, feed, drain)

@@ -17,10 +17,10 @@ from dataclasses import dataclass
 
 import numpy as np
 import shapely
-import shapely.affinity
 
 from returngap import physics
 from returngap.analysis import dcsplit, references, severity
+from returngap.geometry.frame import TrackFrame
 from returngap.physics import peec, resistive
 
 __all__ = [
@@ -67,12 +67,6 @@ def _tangent_at(chains, net, layer, x, y):
     if best is None:
         raise LookupError(f"no track of {net} on {layer} near ({x:.2f}, {y:.2f})")
     return references.direction_at(best, x, y)
-
-
-def _to_local(geom, x, y, angle_deg):
-    return shapely.affinity.rotate(
-        shapely.affinity.translate(geom, -x, -y), -angle_deg, origin=(0, 0)
-    )
 
 
 def _gap_polygon(plane, outline, x, y, reach):
@@ -147,24 +141,6 @@ def second_plane(refs, finding):
     return ref.beyond_layer, -ref.beyond_mm, "eddy"
 
 
-@dataclass
-class _Window:
-    """The solve's frame: the crossing at the origin, the track along +x."""
-
-    x: float
-    y: float
-    angle: float
-    box: tuple
-
-    def local(self, geom):
-        return _to_local(geom, self.x, self.y, self.angle)
-
-    def clip(self, geom):
-        """geom's part in the window, in local coordinates."""
-        back = shapely.affinity.rotate(shapely.box(*self.box), self.angle, origin=(0, 0))
-        return self.local(geom.intersection(shapely.affinity.translate(back, self.x, self.y)))
-
-
 def solve_crossing(board, nets, chains, finding, refs=None):
     """The field solve of one gap-crossing finding (a mapping with the GapCrossing fields);
     refs: the layers' references, for the second sheet (none without them)."""
@@ -174,7 +150,7 @@ def solve_crossing(board, nets, chains, finding, refs=None):
     plane = nets.layers[finding["reference_layer"]].union_of(nets.plane_nets)
     d = max(finding["gap_length_mm"], 1.0)
     margin = min(WINDOW_MARGIN * d, MAX_MARGIN_MM)
-    win = _Window(x, y, math.degrees(math.atan2(uy, ux)), ())
+    win = TrackFrame(x, y, math.degrees(math.atan2(uy, ux)))
     gap_local = win.local(_gap_polygon(plane, board.outline, x, y, d + margin))
     gx0, gy0, gx1, gy1 = gap_local.bounds
     win.box = (min(gx0, 0.0) - margin, min(gy0, 0.0) - margin)
@@ -319,7 +295,7 @@ def _with_dc_split(board, nets, chains, finding):
     try:
         reach = 2 * max(finding["gap_length_mm"], 1.0) + dcsplit.MARGIN_MM  # the whole slot
         gap = _gap_polygon(plane, board.outline, finding["x_mm"], finding["y_mm"], reach)
-        dc = dcsplit.dc_split(board, nets, chains, finding, gap)
+        dc = dcsplit.dc_split(chains, finding, plane, gap)
     except (LookupError, resistive.NotConnected) as e:
         return dataclasses.replace(finding, return_split={**split, "dc_note": str(e)})
     split = {

@@ -71,8 +71,7 @@ class Void:
     @functools.cached_property
     def span(self):
         """The diagonal of its rectangle: no cut through it is longer."""
-        c = np.asarray(self.rect.exterior.coords)[:3] if self.rect.geom_type == "Polygon" else None
-        return float(np.hypot(*(c[2] - c[0]))) if c is not None else 0.0
+        return math.hypot(*_rect_sides(self.rect))
 
     @functools.cached_property
     def filled_area(self):
@@ -417,14 +416,14 @@ class _GapScan:
             near = [k for k in near if not (rc.voids[k].enclosed and rc.voids[k].span < limit)]
             if not len(near):
                 continue
-            whole = functools.partial(self._other_whole, ch, other) if other else None
+            cover_of = functools.partial(self._other_cover, ch, other) if other else None
             beside = functools.partial(self._coplanar_gaps, ch)
             near, local_all, along, of = _crossings(rc, ch.line, hw, near)
             for j, vi in enumerate(near):
                 void = rc.voids[int(vi)]
                 for ev, s0, s1 in _events(sorted(along[of == j].tolist()), void, ch.line, hw):
                     f = self._finding(
-                        ch, ref, rc, void, local_all[j], hw, ev, s0, s1, ref_net, (whole, beside)
+                        ch, ref, rc, void, local_all[j], hw, ev, s0, s1, ref_net, (cover_of, beside)
                     )
                     if f is not None:
                         key = (f["net"], f["layer"], f["reference_layer"], void.index)
@@ -443,7 +442,7 @@ class _GapScan:
             return dataclasses.replace(ref, other_h_mm=None, share=1.0), None
         return ref, (other.layer, dataclasses.replace(other, other_h_mm=None, share=1.0))
 
-    def _other_whole(self, ch, other, s_from, s_to):
+    def _other_cover(self, ch, other, s_from, s_to):
         """The share of the track's centre line over this crossing that the other plane of a
         stripline lies under, antipad-sized holes (gaps the scan itself would not report) counting
         as copper, as the current weaves between them. Where the other plane is cut too, its own
@@ -514,7 +513,7 @@ class _GapScan:
             )
         ]
 
-    def _finding(self, ch, ref, rc, void, local, hw, ev, s0, s1, ref_net, whole):
+    def _finding(self, ch, ref, rc, void, local, hw, ev, s0, s1, ref_net, ways):
         args = (
             ch,
             ref,
@@ -529,7 +528,7 @@ class _GapScan:
             self.reach,
             self.settings,
             ref_net,
-            whole,
+            ways,
         )
         try:
             return _finding(self.board, *args)
@@ -642,14 +641,18 @@ def _ends_along(line, parts):
     return shapely.line_locate_point(line, ends).reshape(2, -1)
 
 
-def _footprint_overlap(line, hw, region):
-    """Area of the track's return footprint (flat-capped buffer of half-width hw) inside `region`,
-    buffering only the stretch of line within hw of the region's box: exact, since footprint points
-    in the box come only from line points within hw of it."""
+def _stretch_near(line, hw, region):
+    """The stretch of line within hw of the region's box: a footprint of half-width hw reaches
+    the box only from there, so buffering it alone is exact inside the box."""
     x0, y0, x1, y1 = region.bounds
-    piece = shapely.clip_by_rect(
+    return shapely.clip_by_rect(
         line, x0 - hw - 0.01, y0 - hw - 0.01, x1 + hw + 0.01, y1 + hw + 0.01
     )
+
+
+def _footprint_overlap(piece, hw, region):
+    """Area of the return footprint (flat-capped buffer of half-width hw) of `piece`, the track's
+    stretch near `region` (_stretch_near), inside the region."""
     if piece.is_empty:
         return 0.0
     return float(shapely.area(shapely.intersection(footprint_polygon(piece, hw), region)))
@@ -891,14 +894,11 @@ def _graze_span(line, local, hw, w, ref, settings):
     d = line.distance(local)
     if interval_fraction(d, hw, w, ref) < settings.min_interrupted_fraction:
         return None  # even a void filling the footprint beyond d holds less (|x| >= d there)
-    if _footprint_overlap(line, hw, local) < 1e-4:
+    piece = _stretch_near(line, hw, local)
+    if _footprint_overlap(piece, hw, local) < 1e-4:
         return None  # it only touches the footprint
     near_line, _ = shapely.shortest_line(line, local).coords
     mid_s = line.project(shapely.Point(near_line))
-    x0, y0, x1, y1 = local.bounds  # only the stretch within hw of the void's box reaches it
-    piece = shapely.clip_by_rect(
-        line, x0 - hw - 0.01, y0 - hw - 0.01, x1 + hw + 0.01, y1 + hw + 0.01
-    )
     near = local.intersection(piece.buffer(hw, cap_style="flat"))
     corners = (
         np.asarray(near.exterior.coords)
@@ -1007,9 +1007,10 @@ def _gap_estimate(board, ch, ref, settings, slot_len, width, ends, split=False):
 
 def _other_returns(board, ch, ref, settings, ways, ev, crossed, span, share, e):
     """The estimate where the return need not go round the gap: the other plane of a stripline
-    whole under the crossing, or plane copper of the track's own layer beside it (coplanar). The
-    return takes the way of least inductance (the ways are in parallel), so another way is taken
-    only where it adds less; below the noise floor already, no other way is looked for."""
+    under at least OTHER_PLANE_COVER of the crossing, or plane copper of the track's own layer
+    beside it (coplanar). The return takes the way of least inductance (the ways are in
+    parallel), so another way is taken only where it adds less; below the noise floor already,
+    no other way is looked for."""
     if e["est"] < settings.min_added_nH and not settings.show_all:
         return e
     alt = _other_way(board, ch, ref, settings, ways, ev, crossed, span, share, e)
@@ -1017,10 +1018,10 @@ def _other_returns(board, ch, ref, settings, ways, ev, crossed, span, share, e):
 
 
 def _other_way(board, ch, ref, settings, ways, ev, crossed, span, share, e):
-    whole, beside = ways if ways is not None else (None, None)
+    cover_of, beside = ways if ways is not None else (None, None)
     over = (crossed[1] - crossed[0]) if ev == "cross" else (span[1] - span[0]) * min(1.0, share)
     where = crossed if ev == "cross" else span  # where the reference plane is missing
-    cover = whole(*where) if whole is not None else 0.0
+    cover = cover_of(*where) if cover_of is not None else 0.0
     if cover >= OTHER_PLANE_COVER:  # where the other plane is cut too, that is its own finding
         return _one_plane_estimate(board, ch, ref, settings, over * cover, cover, e)
     # the copper beside must run on past the gap by the footprint's spread to carry the return
@@ -1105,7 +1106,7 @@ def _sides(line, local, rc, ev, s0, s1, d):
 
 
 def _finding(
-    board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, settings, ref_net, whole=None
+    board, ch, ref, rc, void, local, line, hw, ev, s0, s1, reach, settings, ref_net, ways=None
 ):
     """The gap-crossing finding of one track over one gap (a crossing or a graze), or None when it
     is below the reporting thresholds."""
@@ -1125,7 +1126,7 @@ def _finding(
         return None
     pa, pb, ia, ib = _sides(line, local, rc, ev, s0, s1, d)
     est = functools.partial(
-        _estimate, board, ch, ref, rc, void, geo, settings, whole, ev, (s0, s1), span, share
+        _estimate, board, ch, ref, rc, void, geo, settings, ways, ev, (s0, s1), span, share
     )
     split = ev == "cross" and (ia is None or ib is None or ia != ib)
     first = None if split or settings.show_all else est(False)
@@ -1159,7 +1160,7 @@ def _finding(
     )
 
 
-def _estimate(board, ch, ref, rc, void, geo, settings, whole, ev, crossed, span, share, split):
+def _estimate(board, ch, ref, rc, void, geo, settings, ways, ev, crossed, span, share, split):
     """(gap width, stub ends, estimate) of a crossing, split or not, the other ways included."""
     width = (
         geo["width"]
@@ -1168,7 +1169,7 @@ def _estimate(board, ch, ref, rc, void, geo, settings, whole, ev, crossed, span,
     )
     ends = _slot_ends(rc, void, _gap_type(split, void, geo), geo)
     e = _gap_estimate(board, ch, ref, settings, geo["length"], width, ends, split)
-    e = _other_returns(board, ch, ref, settings, whole, ev, crossed, span, share, e)
+    e = _other_returns(board, ch, ref, settings, ways, ev, crossed, span, share, e)
     return width, ends, e
 
 

@@ -228,9 +228,7 @@ def _run_finding(board, ch, net, ref, c, length, signed, at, settings, cover=0.0
         if c == OFF
         else "L' rise near a plane edge (2-D solve, reference sheet section 12)"
     )
-    via_other = _over_other_plane(board, ch, ref, length, cover)
-    if via_other is not None:  # where the other plane is missing too, the run's own estimate
-        via_other += added * (1.0 - cover)
+    via_other = _over_other_plane(board, ch, ref, length, cover, added)
     if via_other is not None and via_other < added:  # the return takes the way that adds less
         added = via_other
         method = (
@@ -275,16 +273,18 @@ def _added_inductance_nH(board, ch, ref, c, length, signed):
     return per_mm * length * ref.share
 
 
-def _over_other_plane(board, ch, ref, length, cover):
+def _over_other_plane(board, ch, ref, length, cover, own_nH):
     """Off the plane, a stripline whose other plane lies under at least half of the run returns
     there: the one-plane-missing rise over the length it covers (as for a gap crossing,
-    analysis/gaps.py; the rest of the run keeps its own estimate); None otherwise."""
+    analysis/gaps.py), the rest of the run keeping its share of the run's own estimate own_nH;
+    None otherwise."""
     if ref.other_h_mm is None or cover < OTHER_PLANE_COVER:
         return None
     t = board.stackup.copper_thickness_mm.get(ch.layer, 0.035)
-    return physics.one_plane_missing_inductance_nH(
+    rise = physics.one_plane_missing_inductance_nH(
         ch.width_mm, ref.h_mm, ref.other_h_mm, t, length * cover
     )
+    return rise + own_nH * (1.0 - cover)
 
 
 def _segment_tree(lines):

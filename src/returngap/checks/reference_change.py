@@ -130,12 +130,12 @@ def _change_at(board, nets, refs, ends, x, y, r, net, a, b):
     rb = min(refs.get(lb, []), key=lambda q: q.h_mm, default=None)
     if ra is None or rb is None or ra.layer == rb.layer:
         return None
-    na = plane_net_near(nets.layers[ra.layer], nets.plane_nets, x, y)
-    nb = plane_net_near(nets.layers[rb.layer], nets.plane_nets, x, y)
+    srcs, dsts = (_planes_at(nets, refs.get(layer, []), x, y) for layer in (la, lb))
+    na = next((n for q, n, _ in srcs if q is ra), None)
+    nb = next((n for q, n, _ in dsts if q is rb), None)
     if na is None or nb is None:
         return None
     h = board.stackup.height_mm(ra.layer, rb.layer)
-    srcs, dsts = (_planes_at(nets, refs.get(layer, []), x, y) for layer in (la, lb))
     z0 = line_z0(board, la, wa, ra)
     return _Change(net, x, y, max(r, 0.05), la, lb, ra, rb, na, nb, h, z0, srcs, dsts)
 
@@ -222,9 +222,8 @@ def _way(board, nets, ch, table, src, dst):
     return spread + DEFAULT_PART_LOOP_NH, detail
 
 
-def _cheapest(board, nets, ch, table, one, others, flip):
-    """The least inductive way between plane `one` and any of `others` (None if none has one)."""
-    ways = [_way(board, nets, ch, table, *((o, one) if flip else (one, o))) for o in others]
+def _least(ways):
+    """The least inductive of some ways, None where none exists."""
     ways = [w for w in ways if w is not None]
     return min(ways, key=lambda w: w[0]) if ways else None
 
@@ -236,12 +235,9 @@ def _shared(board, nets, ch, table, settings):
     the energy of fixed currents), taken from both sides and the larger kept; the range's bottom
     is the ways in parallel (the current free to move between the planes). None where a share
     has no way in the data (the one-plane estimate then speaks)."""
-    forward = [
-        (s, _cheapest(board, nets, ch, table, p, ch.dsts, False)) for p in ch.srcs for s in [p[2]]
-    ]
-    backward = [
-        (t, _cheapest(board, nets, ch, table, q, ch.srcs, True)) for q in ch.dsts for t in [q[2]]
-    ]
+    way = [[_way(board, nets, ch, table, p, q) for q in ch.dsts] for p in ch.srcs]
+    forward = [(p[2], _least(row)) for p, row in zip(ch.srcs, way)]
+    backward = [(q[2], _least(col)) for q, col in zip(ch.dsts, zip(*way))]
     if any(w is None for _, w in forward + backward):
         return None
     side = max((forward, backward), key=lambda ws: sum(s * s * w[0] for s, w in ws))

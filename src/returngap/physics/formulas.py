@@ -347,7 +347,7 @@ def slotline_eeff(width_mm, h_mm, er, freq_GHz):
     eeff = (lambda_0/lambda_s)^2 (Janaswamy & Schaubert, IEEE T-MTT 34(8), 1986, fitted for
     3.8 <= er <= 9.8; from memory, checked against Svacina 1999's figures in REFERENCE 12).
     Held between 1 and er; W/lambda_0 is held where the fit stays finite."""
-    lam0 = _free_space_wavelength_mm(freq_GHz)
+    lam0 = wavelength_mm(max(freq_GHz, 1e-6), 1.0)
     u = width_mm / max(h_mm, 1e-3)
     wl = min(max(width_mm / lam0, 1e-4), 0.075)
     inner = 4.6 - 3.65 / (er * er * math.sqrt(wl) * (9.06 - 100.0 * wl))
@@ -358,11 +358,6 @@ def slotline_eeff(width_mm, h_mm, er, freq_GHz):
         - 0.01 * math.log(max(h_mm, 1e-3) / lam0) * inner
     )
     return min(max(1.0 / ratio**2, 1.0), er) if ratio > 0 else er
-
-
-def _free_space_wavelength_mm(freq_GHz):
-    """Free-space wavelength in mm at freq_GHz (guarded against 0)."""
-    return C_MM_PER_NS / max(freq_GHz, 1e-6)
 
 
 def slot_resonance_estimate(slot_length_mm, width_mm, er, substrate_mm=None, open_at_one_end=False):
@@ -377,9 +372,9 @@ def slot_resonance_estimate(slot_length_mm, width_mm, er, substrate_mm=None, ope
         return math.inf, math.inf, math.inf, er
     ends = 1 if open_at_one_end else 2
     long_mm = slot_length_mm + ends * SLOT_END_EXTENSION * max(width_mm, 0.0)
-    bare_er = slot_resonance_GHz(long_mm, er, open_at_one_end)
+    at_er = slot_resonance_GHz(long_mm, er, open_at_one_end)
     if substrate_mm is None:
-        f = bare_er
+        f = at_er
         high = slot_resonance_GHz(slot_length_mm, er, open_at_one_end)
     else:
         e = (er + 1) / 2
@@ -392,7 +387,7 @@ def slot_resonance_estimate(slot_length_mm, width_mm, er, substrate_mm=None, ope
         f = slot_resonance_GHz(long_mm, e, open_at_one_end)
         high = slot_resonance_GHz(slot_length_mm, min(e, (er + 1) / 2), open_at_one_end)
     eeff = (slot_resonance_GHz(slot_length_mm, 1.0, open_at_one_end) / f) ** 2
-    return f, bare_er, high, eeff
+    return f, at_er, high, eeff
 
 
 # --- frequency, reflection ------------------------------------------------------------------
