@@ -452,11 +452,10 @@ def _tally(votes, li, islands, names, weight):
 
 
 def layer_islands(layer):
-    """Islands of one layer's pieces, and the island under each segment, flash and region; kept
-    on the
-    layer (as layer.islands_found, with its pieces' tree as layer.piece_tree), so that the
-    import can
-    work them out for each layer as it reads it, on either core."""
+    """Islands of one layer's pieces, the island under each segment, flash and region, and the
+    strokes that outline a pour (_pour_strokes); kept on the layer (as layer.islands_found, with
+    its pieces' tree as layer.piece_tree), so that the import can work them out for each layer as
+    it reads it, on either core."""
     pieces = layer.pieces
     shapely.prepare(pieces)  # point and hole tests below and in later stages
     tree = shapely.STRtree(pieces)
@@ -469,7 +468,8 @@ def layer_islands(layer):
         )
         fl_isl = _island_index(piece_island, tree, layer.flashes[:, :2])
         reg_isl = _region_islands(piece_island, tree, pieces, layer.regions)
-    layer.islands_found = (piece_island, seg_isl, fl_isl, reg_isl, count, pairs)
+    strokes = _pour_strokes(layer)
+    layer.islands_found = (piece_island, seg_isl, fl_isl, reg_isl, count, pairs, strokes)
     layer.piece_tree = tree
 
 
@@ -481,7 +481,7 @@ def _layer_islands(layer):
     elif layer.piece_tree is None:
         shapely.prepare(layer.pieces)
         layer.piece_tree = shapely.STRtree(layer.pieces)
-    piece_island, seg_isl, fl_isl, reg_isl, count, pairs = layer.islands_found
+    piece_island, seg_isl, fl_isl, reg_isl, count, pairs, _ = layer.islands_found
     return piece_island, layer.piece_tree, seg_isl, fl_isl, reg_isl, count, pairs
 
 
@@ -652,7 +652,7 @@ def _pours_and_planes(board, layers, per_layer, li, net_class):
     layer = board.copper[li]
     ln = layers[layer.name]
     _, _, seg_isl, _, _, pairs = per_layer[layer.name]
-    ln.segment_fill = _fill_segments(layer, ln, seg_isl, pairs) | _pour_strokes(layer)
+    ln.segment_fill = _fill_segments(layer, ln, seg_isl, pairs) | layer.islands_found[6]
     signal = {n for n, c in net_class.items() if c == "signal"}  # only these can be re-classed
     return (
         _nets_with_island(ln, PLANE_AREA_FRACTION * (board.outline.area or 1.0)),

@@ -64,9 +64,11 @@ def _gap_element(finding, f_Hz):
     return sparams.gap_impedance(f_Hz, added, half, half, er, not finding["gap_enclosed"])
 
 
-def crossing_curves(board, refs, chains, finding, settings):
+def crossing_curves(board, refs, chains, finding, settings, near_GHz=None):
     """(with the gap, without it, the gap's or island's own element): scikit-rf networks of the
-    finding's track, ports at its impedance; None where the track has no reference plane."""
+    finding's track, ports at its impedance; None where the track has no reference plane. With
+    near_GHz, the two cascades only at the two points of the curve either side of it (all that a
+    value read off the curve there needs); the element always over the whole range."""
     from returngap.physics import sparams
 
     ch = _track(chains, finding)
@@ -78,7 +80,8 @@ def crossing_curves(board, refs, chains, finding, settings):
     t = board.stackup.copper_thickness_mm.get(layer, 0.035)
     before, after, width = _sections(ch, finding)
     z0 = line_z0(board, layer, width, ref)  # ports matched to the track
-    media = sparams.line_media(freq, width, ref.h_mm, ref.er, t, ref.other_h_mm, z0)
+    near = slice(None) if near_GHz is None else sparams.bracket(freq, near_GHz)
+    media = sparams.line_media(freq[near], width, ref.h_mm, ref.er, t, ref.other_h_mm, z0)
     if finding["kind"] == "floating-copper":
         y = sparams.island_admittance(
             freq.f,
@@ -92,17 +95,17 @@ def crossing_curves(board, refs, chains, finding, settings):
         element = sparams.shunt_network(freq, y, z0)
     else:
         element = sparams.series_network(freq, _gap_element(finding, freq.f), z0)
-    return (*sparams.crossing_networks(media, before, after, element), element)
+    return (*sparams.crossing_networks(media, before, after, element[near]), element)
 
 
 def _fields(board, refs, chains, finding, settings):
     from returngap.physics import sparams
 
-    curves = crossing_curves(board, refs, chains, finding, settings)
+    knee = settings.knee_GHz_for(finding["net"])
+    curves = crossing_curves(board, refs, chains, finding, settings, near_GHz=knee)
     if curves is None:
         return {}
     with_gap, without, element = curves
-    knee = settings.knee_GHz_for(finding["net"])
     return dict(
         s21_first_dip_GHz=sparams.first_dip_GHz(element),
         s21_loss_at_knee_dB=sparams.loss_at_dB(with_gap, knee),

@@ -612,7 +612,13 @@ def gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of, workers=1
         with runner.threads(board.track_segments) as pool:
             list(pool.map(scan.copper, sorted({r for ch in chains for r in ch.footprints})))
     n = workers * 16  # many small slices, taken in turn: uneven chains balance out
-    tasks = [functools.partial(_scan_slice, scan, chains, plane_nets_of, k, n) for k in range(n)]
+    # the longest chains (which cross the most) dealt out first, so that the slices taken last
+    # are light and neither process waits long for the other at the end
+    longest = np.argsort([-ch.line.length for ch in chains], kind="stable")
+    tasks = [
+        functools.partial(_scan_slice, scan, chains, plane_nets_of, longest[k::n].tolist())
+        for k in range(n)
+    ]
 
     def combine(parts):
         out = [None] * len(chains)
@@ -630,8 +636,8 @@ def gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of, workers=1
     return tasks, combine
 
 
-def _scan_slice(scan, chains, plane_nets_of, k, n):
-    return [(i, scan.chain(chains[i], plane_nets_of[i])) for i in range(k, len(chains), n)]
+def _scan_slice(scan, chains, plane_nets_of, which):
+    return [(i, scan.chain(chains[i], plane_nets_of[i])) for i in which]
 
 
 def _ends_along(line, parts):

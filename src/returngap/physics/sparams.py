@@ -27,6 +27,7 @@ __all__ = [
     "SLOT_RADIATION_OHM",
     "DIP_DEPTH_DB",
     "frequencies",
+    "bracket",
     "line_media",
     "gap_impedance",
     "series_network",
@@ -48,6 +49,12 @@ COPPER_RHO = 1.72e-8  # ohm m
 def frequencies(knee_GHz, points=601):
     """10 MHz to the larger of 3x the knee frequency and 6 GHz."""
     return skrf.Frequency(0.01, max(6.0, 3.0 * knee_GHz), points, unit="GHz")
+
+
+def bracket(freq, f_GHz):
+    """The slice of freq's points either side of f_GHz (the two that interpolation there uses)."""
+    k = int(np.clip(np.searchsorted(freq.f, f_GHz * 1e9), 1, len(freq.f) - 1))
+    return slice(k - 1, k + 1)
 
 
 def line_media(freq, width_mm, h_mm, er, t_mm=0.035, other_h_mm=None, z0_port=50.0):

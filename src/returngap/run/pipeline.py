@@ -93,6 +93,11 @@ def with_file_thresholds(settings, thresholds):
 def run_check(sources, stackup_file=None, settings=None, scratch=None, workers=0, stage=None):
     """One board through every stage. workers: processes (0: both cores where the work pays,
     1: this process only); stage: told the name of each stage as it starts (a progress line)."""
+    with parallel.fewer_collections():
+        return _run_check(sources, stackup_file, settings, scratch, workers, stage)
+
+
+def _run_check(sources, stackup_file, settings, scratch, workers, stage):
     settings = settings or Settings()
     stage = stage or (lambda name: None)
     runner = parallel.Parallel(workers)
