@@ -69,9 +69,14 @@ class Void:
         return self.geom.minimum_rotated_rectangle  # one per void, however many tracks cross it
 
     @functools.cached_property
+    def sides(self):
+        """The two sides of its rectangle."""
+        return _rect_sides(self.rect)
+
+    @functools.cached_property
     def span(self):
         """The diagonal of its rectangle: no cut through it is longer."""
-        return math.hypot(*_rect_sides(self.rect))
+        return math.hypot(*self.sides)
 
     @functools.cached_property
     def filled_area(self):
@@ -362,7 +367,9 @@ def slot_geometry(void, mid, tangent, reach, aspect_limit):
     if (
         l1 + l2 <= 0
     ):  # the cut missed (the crossing runs along the gap): size it by its local outline
-        near = void.geom.intersection(shapely.Point(mid).buffer(max(reach / 20, 1.0)))
+        disc = shapely.Point(mid).buffer(max(reach / 20, 1.0))
+        # the gap clipped to the disc's box first: a large one's far edges are not walked
+        near = shapely.clip_by_rect(void.geom, *disc.bounds).intersection(disc)
         if not near.is_empty:
             c = np.asarray(near.minimum_rotated_rectangle.exterior.coords)[:4]
             l1 = l2 = max(np.hypot(*(c[1] - c[0])), np.hypot(*(c[2] - c[1]))) / 2
@@ -457,9 +464,7 @@ class _GapScan:
         if not len(pt):
             return 1.0
         limit = self.settings.min_gap_length_mm
-        big = np.array(
-            [not rc.voids[j].enclosed or max(_rect_sides(rc.voids[j].rect)) >= limit for j in k]
-        )
+        big = np.array([not rc.voids[j].enclosed or max(rc.voids[j].sides) >= limit for j in k])
         return 1.0 - len(np.unique(pt[big])) / n
 
     def _coplanar_gaps(self, ch, s_from, s_to):
@@ -471,6 +476,9 @@ class _GapScan:
         if tree is None or s_to <= s_from:
             return None
         piece = shapely.ops.substring(ch.line, max(0.0, s_from), min(ch.line.length, s_to))
+        # no copper that near the centre line: none that near either edge (they lie w/2 from it)
+        if not len(tree.query(piece, predicate="dwithin", distance=limit + ch.width_mm / 2 + 0.01)):
+            return None
         gaps_found = []
         for side in (1, -1):
             edge = piece.offset_curve(side * ch.width_mm / 2)
@@ -508,7 +516,7 @@ class _GapScan:
             for k in near
             if not (
                 rc.voids[k].enclosed
-                and max(_rect_sides(rc.voids[k].rect)) < antipad
+                and max(rc.voids[k].sides) < antipad
                 and shapely.intersects(rc.void_geoms[k], own).any()
             )
         ]

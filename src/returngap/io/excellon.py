@@ -43,11 +43,11 @@ def _inside_fraction(pts, region):
     """Share of points on copper; region is an STRtree of copper pieces."""
     if len(pts) == 0 or region is None or not len(region.geometries):
         return 0.0
-    # box hits first, then one vectorised test of those pairs: the query's own predicate prepares
-    # every large pour it meets, at several times the cost
+    # box hits first, then one vectorised test of those pairs, from the copper's side (prepared
+    # where it was read): the query's own predicate prepares every large pour it meets anew
     p = shapely.points(pts)
     at, on = region.query(p)
-    hit = at[shapely.intersects(p[at], region.geometries.take(on))]
+    hit = at[shapely.intersects(region.geometries.take(on), p[at])]
     return float(len(np.unique(hit)) / len(pts))
 
 
