@@ -207,3 +207,15 @@ def test_only_the_report_composes_sentences():
     assert all(
         f["message"].startswith(f["net"]) or f["kind"] == "floating-copper" for f in rep["findings"]
     )
+
+
+def test_the_collector_s_pace_is_the_caller_s_again_after_a_run_even_a_failed_one():
+    import gc
+
+    before = gc.get_threshold()
+    with parallel.fewer_collections():
+        assert gc.get_threshold() == parallel.RUN_GC_THRESHOLDS
+    assert gc.get_threshold() == before
+    with pytest.raises(RuntimeError), parallel.fewer_collections():
+        raise RuntimeError("a check that fails")
+    assert gc.get_threshold() == before

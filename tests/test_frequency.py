@@ -80,6 +80,21 @@ def test_a_lumped_inductance_has_no_dip():
     assert sparams.first_dip_GHz(lumped) is None
 
 
+@pytest.mark.parametrize("at_GHz", [0.005, 0.01, 1.0, 1.23456, 6.0, 9.0])
+def test_the_loss_at_one_frequency_needs_only_the_two_points_beside_it(at_GHz):
+    # the finding's loss at the knee is read off the curve by linear interpolation, which uses the
+    # two points either side: the cascade built at those two alone gives the same number as the
+    # whole 601-point curve (below the range, on a grid point, between two, above the range)
+    freq, with_gap, _, _, _, element = _slot_curves(8.0)
+    near = sparams.bracket(freq, at_GHz)
+    assert near.stop - near.start == 2
+    media = sparams.line_media(freq[near], W, H, ER)
+    two, _ = sparams.crossing_networks(media, 50.0, 50.0, element[near])
+    assert sparams.loss_at_dB(two, at_GHz) == pytest.approx(
+        sparams.loss_at_dB(with_gap, at_GHz), rel=1e-9, abs=1e-12
+    )
+
+
 def test_demo_board_crossings_have_their_curves(tmp_path):
     # the demo board at 0.1 ns: every gap crossing is an error and carries the view's numbers;
     # a slot dips at its own resonance, the split (a lumped bound) has no dip
