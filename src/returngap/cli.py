@@ -193,7 +193,7 @@ def layers(ctx, board, stackup_file, as_json):
 @click.option("--by-net", is_flag=True, help="Print a per-net summary after the findings.")
 @click.option(
     "--pictures",
-    type=click.Choice(["error", "warning", "info", "none"]),
+    type=click.Choice(outputs.PICTURE_LEVELS),
     default="warning",
     show_default=True,
     help="With --out: pictures for findings at or above this severity (the HTML lists the rest).",
@@ -201,7 +201,7 @@ def layers(ctx, board, stackup_file, as_json):
 @click.option(
     "--frequency-view",
     "frequency_view",
-    type=click.Choice(["error", "warning", "info", "none"]),
+    type=click.Choice(outputs.PICTURE_LEVELS),
     help="Predicted insertion loss for findings at or above this severity (default warning).",
 )
 @click.option(

@@ -417,10 +417,6 @@ class _GapScan:
             )
             rc = self.copper(ref_layer)
             near = self._near_voids(rc, ch, hw) if rc.voids else []
-            # an enclosed gap too small for any cut through it to reach the least gap length is
-            # never reported (_finding): not looked at
-            limit = self.settings.min_gap_length_mm
-            near = [k for k in near if not (rc.voids[k].enclosed and rc.voids[k].span < limit)]
             if not len(near):
                 continue
             cover_of = functools.partial(self._other_cover, ch, other) if other else None
@@ -502,11 +498,17 @@ class _GapScan:
             self._own[layer] = (shapely.STRtree(pieces) if len(pieces) else None, pieces)
         return self._own[layer]
 
-    def _near_voids(self, rc, ch, hw, line=None):
-        """Every void the footprint meets (of the whole track, or of a piece of it), but the antipad
-        of the track's own via (that belongs to its layer change). A gap larger than an antipad
-        (a moat round a feed track, with the via's antipad merged into it) is a gap still."""
-        near = rc.voids_near(ch.line if line is None else line, hw)
+    def _near_voids(self, rc, ch, hw):
+        """Every void the track's footprint meets, but the antipad of the track's own via (that
+        belongs to its layer change) and an enclosed gap too small for any cut through it to reach
+        the least gap length (never reported, see _finding). A gap larger than an antipad (a moat
+        round a feed track, with the via's antipad merged into it) is a gap still."""
+        limit = self.settings.min_gap_length_mm
+        near = [
+            k
+            for k in rc.voids_near(ch.line, hw)
+            if not (rc.voids[k].enclosed and rc.voids[k].span < limit)
+        ]
         own = self.own_hole_pts.get(ch.net)
         if own is None:
             return near

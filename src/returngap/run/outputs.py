@@ -21,6 +21,7 @@ def write_text(path, text):
     os.replace(tmp, path)
 
 
+# the levels --pictures and --frequency-view take (severity.at_or_above reads them)
 PICTURE_LEVELS = ("error", "warning", "info", "none")
 
 
