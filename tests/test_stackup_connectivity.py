@@ -134,3 +134,38 @@ def test_ipc356_records(tmp_path):
     assert pts[0].net == "/N023" and pts[0].refdes == "D1" and pts[0].pin == "1"
     assert (pts[0].x, pts[0].y) == pytest.approx((3.5309 * 25.4, -2.7829 * 25.4))
     assert pts[1].is_via and pts[1].net == "NET-(D381-A)"
+
+
+def _regions_by_predicate_query(piece_island, tree, pieces, polys):
+    """The plain way: every piece meeting each region, by shapely's own predicate query, the
+    largest kept (of equal ones, the one found last)."""
+    reg, piece = tree.query(polys, predicate="intersects")
+    out = {}
+    for r, p in zip(reg.tolist(), piece.tolist()):
+        if r not in out or pieces[p].area >= pieces[out[r]].area:
+            out[r] = p
+    return {r: int(piece_island[p]) for r, p in out.items()}
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_region_island_is_that_of_the_largest_piece_it_meets(seed):
+    # reference: shapely's STRtree predicate query over every candidate
+    import numpy as np
+    import shapely
+
+    from returngap.geometry.shapes import touch_components
+
+    rng = np.random.default_rng(seed)
+    centres = rng.uniform(0, 20, (60, 2))
+    radii = rng.choice([0.3, 0.3, 0.6, 1.5, 4.0], 60)  # equal sizes on purpose: ties
+    pieces = shapely.buffer(shapely.points(centres), radii, quad_segs=4)
+    shapely.prepare(pieces)
+    tree = shapely.STRtree(pieces)
+    piece_island, _, _ = touch_components(pieces, tree)
+    polys = shapely.box(*rng.uniform(0, 18, (25, 2)).T, *(rng.uniform(0, 18, (25, 2)) + 2).T)
+    regions = [(p, None, None) for p in polys]
+    got = connectivity._region_islands(piece_island, tree, pieces, regions)
+    want = _regions_by_predicate_query(piece_island, tree, pieces, polys)
+    assert want, "the case must have regions on copper"
+    for r, island in want.items():
+        assert got[r] == island

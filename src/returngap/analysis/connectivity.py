@@ -249,17 +249,40 @@ def _region_islands(piece_island, tree, pieces, regions):
     if not regions:
         return np.zeros(0, dtype=int)
     polys = np.array([r[0] for r in regions], dtype=object)
-    reg, piece = tree.query(polys, predicate="intersects")
     out = _island_index(
         piece_island,
         tree,
         shapely.get_coordinates(shapely.point_on_surface(polys)).reshape(-1, 2),
     )
+    reg, piece = tree.query(polys)  # boxes only: the exact test below stops at the first hit
     if len(reg):
-        area = shapely.area(pieces[piece])
-        order = np.lexsort((area, reg))  # by region, then area: the last of each region wins
-        out[reg[order]] = piece_island[piece[order]]
+        # per region, its candidates largest first (of equal ones, the later found first)
+        order = np.lexsort((-np.arange(len(reg)), -shapely.area(pieces[piece]), reg))
+        reg, piece = reg[order], piece[order]
+        hit = _first_meeting(polys, pieces, reg, piece)
+        out[reg[hit]] = piece_island[piece[hit]]
     return out
+
+
+def _first_meeting(polys, pieces, reg, piece):
+    """Position of the first candidate piece that meets its region, for each region that one meets
+    (candidates grouped by region, in the order to try them). Tried in growing blocks, so that a
+    region whose own copper comes first (nearly all) costs one exact test."""
+    start = np.flatnonzero(np.r_[True, reg[1:] != reg[:-1]])
+    end = np.r_[start[1:], len(reg)]
+    found = []
+    live, at, size = np.arange(len(start)), start.copy(), 1
+    while len(live):
+        stop = np.minimum(at + size, end[live])
+        count = stop - at
+        k = np.repeat(at - np.cumsum(count) + count, count) + np.arange(count.sum())
+        group = np.repeat(live, count)
+        ok = shapely.intersects(pieces[piece[k]], polys[reg[k]])  # the pieces are prepared
+        g, first = np.unique(group[ok], return_index=True)  # k ascends: the first hit of each
+        found.append(k[ok][first])
+        more = ~np.isin(live, g) & (stop < end[live])
+        live, at, size = live[more], stop[more], size * 4
+    return np.concatenate(found)
 
 
 def _island_index(piece_island, tree, xy):
