@@ -179,8 +179,8 @@ def test_footprint_overlap_is_the_footprint_area_in_the_gap():
 
 
 def test_two_processes_give_the_same_findings(tmp_path, monkeypatch):
-    """The gap scan split over two forked processes returns what one process does, in the same
-    order."""
+    """The gap scan, and the frequency views after it, split over two forked processes return
+    what one process does, in the same order."""
     from pathlib import Path
 
     from returngap.run import parallel
@@ -189,13 +189,15 @@ def test_two_processes_give_the_same_findings(tmp_path, monkeypatch):
     stack = demo / "stackup.toml"
     one = run_check(demo, stack, workers=1).findings
     monkeypatch.setitem(parallel.POLICY, "gap-scan", 1)
+    monkeypatch.setitem(parallel.POLICY, "frequency-view", 1)
     monkeypatch.setattr(parallel.threading, "active_count", lambda: 1)  # other tests' threads aside
     pools = []
     real_fork = parallel._fork
     monkeypatch.setattr(parallel, "_fork", lambda: pools.append(1) or real_fork())
     two = run_check(demo, stack, workers=2).findings
-    assert pools, "the two-process path did not run"
+    assert len(pools) >= 2, "the two-process paths did not run"
     assert len(one) > 5 and one == two
+    assert sum(f.get("s21_loss_at_knee_dB") is not None for f in two) >= 2
 
 
 def test_threads_or_none_give_the_same_findings(monkeypatch):

@@ -14,6 +14,8 @@ import shapely
 
 from returngap.analysis import severity
 from returngap.analysis.references import line_z0, nearest_chain
+from returngap.model.runner import SERIAL
+from returngap.physics import sparams
 
 __all__ = ["crossing_curves", "with_frequency_fields", "refreshed", "VIEW_KINDS"]
 
@@ -50,8 +52,6 @@ def _sections(ch, finding):
 
 
 def _gap_element(finding, f_Hz):
-    from returngap.physics import sparams  # scikit-rf is loaded only when a curve is drawn
-
     added = finding["added_inductance_nH"] or 0.0
     er = finding["resonance_er_eff"]
     ends = finding.get("slot_ends_mm")
@@ -69,8 +69,6 @@ def crossing_curves(board, refs, chains, finding, settings, near_GHz=None):
     finding's track, ports at its impedance; None where the track has no reference plane. With
     near_GHz, the two cascades only at the two points of the curve either side of it (all that a
     value read off the curve there needs); the element always over the whole range."""
-    from returngap.physics import sparams
-
     ch = _track(chains, finding)
     layer = ch.layer if ch is not None else finding["layer"]
     ref = _reference(refs, layer, finding)
@@ -99,8 +97,6 @@ def crossing_curves(board, refs, chains, finding, settings, near_GHz=None):
 
 
 def _fields(board, refs, chains, finding, settings):
-    from returngap.physics import sparams
-
     knee = settings.knee_GHz_for(finding["net"])
     curves = crossing_curves(board, refs, chains, finding, settings, near_GHz=knee)
     if curves is None:
@@ -113,14 +109,23 @@ def _fields(board, refs, chains, finding, settings):
     )
 
 
-def with_frequency_fields(board, refs, chains, findings, settings):
+def with_frequency_fields(board, refs, chains, findings, settings, runner=SERIAL):
     """The findings, each gap crossing at or above settings.frequency_view with its curve's
-    numbers (none below it, or with frequency_view "none")."""
-    out = []
-    for f in findings:
-        if f["kind"] in VIEW_KINDS and severity.at_or_above(f["severity"], settings.frequency_view):
-            f = dataclasses.replace(f, **_fields(board, refs, chains, f, settings))
-        out.append(f)
+    numbers (none below it, or with frequency_view "none"); the curves are the runner's tasks."""
+    todo = [
+        k
+        for k, f in enumerate(findings)
+        if f["kind"] in VIEW_KINDS and severity.at_or_above(f["severity"], settings.frequency_view)
+    ]
+    fields = runner.tasks(
+        lambda j: _fields(board, refs, chains, findings[todo[j]], settings),
+        len(todo),
+        "frequency-view",
+        len(todo),
+    )
+    out = list(findings)
+    for k, found in zip(todo, fields):
+        out[k] = dataclasses.replace(findings[k], **found)
     return out
 
 

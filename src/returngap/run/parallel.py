@@ -37,6 +37,7 @@ POLICY = {
     "copper-layers": 20_000,  # bytes of copper Gerber text
     "gap-scan": 10,  # track chains (the other checks run beside it in the same processes)
     "pictures": 6,  # pictures to draw
+    "frequency-view": 8,  # findings whose insertion-loss curves are computed
 }
 # below this many track segments two threads wait on each other's Python more than they gain
 THREADS_MIN_SEGMENTS = 10_000

@@ -118,7 +118,7 @@ def _run_check(sources, stackup_file, settings, scratch, workers, stage):
     stage("field solves and frequency views")
     if settings.field_solves:
         findings = fieldsolve.solve_nearest(board, nets, chains, findings, settings, refs)
-    findings = frequency.with_frequency_fields(board, refs, chains, findings, settings)
+    findings = frequency.with_frequency_fields(board, refs, chains, findings, settings, runner)
     for glob in references.unmatched_globs(nets, settings):
         board.assume(f"--nets {glob}: matches no routed signal net")
     given = sources if isinstance(sources, (list, tuple)) else [sources]
