@@ -146,3 +146,24 @@ def test_cut_through_a_large_gap_from_its_nearby_edges_alone(x, y, angle):
     assert t1.tolist() == pytest.approx(s1.tolist(), abs=1e-9) and t2.tolist() == pytest.approx(
         s2.tolist(), abs=1e-9
     )
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    st.lists(
+        st.tuples(st.floats(-50, 50), st.floats(-50, 50)), min_size=2, max_size=8, unique=True
+    ),
+    st.lists(st.floats(-5, 200), min_size=1, max_size=6),
+)
+def test_points_along_a_track_match_shapely(points, fractions):
+    # reference: shapely's own LineString.interpolate, one point at a time
+    from returngap.analysis.gaps import coords_along, coords_along_lines
+
+    line = shapely.LineString(points)
+    assume(line.length > 1e-3)
+    s = np.array(fractions) / 100 * line.length
+    got = coords_along(line, s)
+    want = np.array([line.interpolate(float(min(max(v, 0.0), line.length))).coords[0] for v in s])
+    assert np.allclose(got, want, atol=1e-9)
+    # and the many-lines form, for one line, to the last bit
+    assert np.array_equal(got, coords_along_lines([line], [s]))

@@ -515,7 +515,8 @@ def build_nets(board, user_cfg=None, runner=SERIAL):
     with runner.threads(size) as pool:
         found = list(pool.map(_layer_islands, board.copper))
     g, votes, per_layer = _island_graph(board, found)
-    hole_nodes, tied = _join_through_holes(board, g, per_layer)
+    with runner.threads(size) as pool:
+        hole_nodes, tied = _join_through_holes(board, g, per_layer, pool)
     _netlist_votes(board, votes, per_layer)
     node_net, unnamed, conflicts = _name_components(board, g, votes, per_layer)
     _generated_names(board, per_layer, unnamed, node_net)
@@ -568,37 +569,48 @@ def _hole_shapes(drill):
     return np.array(list(holes) + slots, dtype=object)
 
 
-def _join_through_holes(board, g, per_layer):
+def _join_through_holes(board, g, per_layer, pool):
     """Edges between the islands a plated hole passes through (within its span); returns the first
-    island of each hole, and per layer the islands with a hole in them (not floating)."""
-    hole_nodes = {}
+    island of each hole, and per layer the islands with a hole in them (not floating). Each drill
+    file's layers are looked at in the pool (shapely lets go of the GIL), taken in order after."""
     layer_pos = {c.name: i for i, c in enumerate(board.copper)}
-    tied = defaultdict(set)
-    for drill in board.drills:
-        geoms = _hole_shapes(drill)
-        if not len(geoms):
-            continue
-        plated = np.concatenate([drill.hole_plated, drill.slot_plated])
-        hits = defaultdict(list)
+    geoms = [_hole_shapes(drill) for drill in board.drills]
+    work = []  # (drill position, layer position)
+    for k, drill in enumerate(board.drills):
         for ln in range(drill.from_layer, drill.to_layer + 1):
             li = layer_pos.get(f"L{ln}")
-            if li is None or not per_layer[f"L{ln}"][4]:
+            if li is not None and per_layer[f"L{ln}"][4] and len(geoms[k]):
+                work.append((k, li))
+    found = list(pool.map(lambda job: _holes_on_layer(board, per_layer, geoms[job[0]], *job), work))
+    hole_nodes, tied = {}, defaultdict(set)
+    for k, drill in enumerate(board.drills):
+        hits = defaultdict(list)
+        for (d, li), (on_pads, q_hole, q_island) in zip(work, found):
+            if d != k:
                 continue
-            piece_island, tree = per_layer[f"L{ln}"][:2]
-            pieces = board.copper[li].pieces
-            centres = shapely.points(drill.holes[:, :2])
-            tied[li].update(piece_island[touching(tree, pieces, centres)[1]].tolist())
-            if not plated.any():
-                continue
-            q = touching(tree, pieces, geoms)
-            q = q[:, plated[q[0]]]  # non-plated holes join nothing
-            for h, isl in zip(q[0], piece_island[q[1]]):
+            tied[li].update(on_pads)
+            for h, isl in zip(q_hole, q_island):
                 if not hits[h] or hits[h][-1] != (li, int(isl)):
                     hits[h].append((li, int(isl)))
         for h, nodes in hits.items():
             hole_nodes[(drill.file, int(h))] = nodes[0]
             g.add_edges_from(zip(nodes[:-1], nodes[1:]))
     return hole_nodes, tied
+
+
+def _holes_on_layer(board, per_layer, geoms, k, li):
+    """(islands a hole centre lands on, and the hole, island pairs of every plated hole that meets
+    copper) of drill file k (its hole shapes: geoms) on layer li."""
+    drill, layer = board.drills[k], board.copper[li]
+    piece_island, tree = per_layer[layer.name][:2]
+    centres = shapely.points(drill.holes[:, :2])
+    on_pads = piece_island[touching(tree, layer.pieces, centres)[1]].tolist()
+    plated = np.concatenate([drill.hole_plated, drill.slot_plated])
+    if not plated.any():
+        return on_pads, [], []
+    q = touching(tree, layer.pieces, geoms)
+    q = q[:, plated[q[0]]]  # non-plated holes join nothing
+    return on_pads, q[0].tolist(), piece_island[q[1]].tolist()
 
 
 def _netlist_votes(board, votes, per_layer):

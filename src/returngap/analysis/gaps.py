@@ -856,8 +856,12 @@ def _local_geodesic(rc, pa, pb, void_pos, hw):
 
 def coords_along(line, s):
     """(x, y) at distances s along a LineString, as an (n, 2) array, interpolated in numpy (one pass
-    over its vertices, where shapely walks the line again for every point)."""
-    return coords_along_lines([line], [s])
+    over its vertices, where shapely walks the line again for every point); coords_along_lines
+    for one line."""
+    xy = shapely.get_coordinates(line)
+    run = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(xy, axis=0).T))])
+    at = np.clip(s, 0.0, run[-1])
+    return np.column_stack([np.interp(at, run, xy[:, 0]), np.interp(at, run, xy[:, 1])])
 
 
 def coords_along_lines(lines, dists):
