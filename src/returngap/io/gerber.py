@@ -260,10 +260,9 @@ class _LayerBuilder:
             at.clear()
         if self.round_lines:
             rl = self.round_lines
-            lines = (
-                shapely.linestrings([c for c, _ in rl])
-                if len({len(c) for c, _ in rl}) == 1
-                else np.array([shapely.LineString(c) for c, _ in rl], dtype=object)
+            counts = [len(c) for c, _ in rl]
+            lines = shapely.linestrings(
+                [p for c, _ in rl for p in c], indices=np.repeat(np.arange(len(rl)), counts)
             )
             radii = np.array([r for _, r in rl])
             # each stroke as finely as its own radius needs: a thin one batched with a wide one
