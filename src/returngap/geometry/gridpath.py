@@ -179,14 +179,18 @@ def _graph(free, size, src, src_d):
     n = h * w
     pad = np.zeros((h + 2, w + 2), dtype=bool)
     pad[1:-1, 1:-1] = free
-    ok = np.empty((h, w, 8), dtype=bool)
+    ok = np.empty((8, h, w), dtype=bool)  # one plane per move: contiguous writes
     for k, (di, dj, _) in enumerate(_MOVES):
-        np.logical_and(free, pad[1 + di : h + 1 + di, 1 + dj : w + 1 + dj], out=ok[:, :, k])
+        np.logical_and(free, pad[1 + di : h + 1 + di, 1 + dj : w + 1 + dj], out=ok[k])
         if di and dj:  # a diagonal needs both side cells free
-            ok[:, :, k] &= pad[1 + di : h + 1 + di, 1 : w + 1]
-            ok[:, :, k] &= pad[1 : h + 1, 1 + dj : w + 1 + dj]
-    data = np.full(9 * n, np.inf)
-    data[: 8 * n] = np.where(ok.reshape(n, 8), _UNIT * size, np.inf).ravel()
+            ok[k] &= pad[1 + di : h + 1 + di, 1 : w + 1]
+            ok[k] &= pad[1 : h + 1, 1 + dj : w + 1 + dj]
+    data = np.empty(9 * n)
+    with np.errstate(divide="ignore"):  # a move's length over 1 (free) or 0 (blocked: inf)
+        np.divide(
+            (_UNIT * size)[:, None, None], ok, out=data[: 8 * n].reshape(h, w, 8).transpose(2, 0, 1)
+        )
+    data[8 * n :] = np.inf
     data[8 * n + src] = src_d
     indices, indptr = _template(h, w)
     return csr_matrix((data, indices, indptr), shape=(n + 1, n + 1))

@@ -48,7 +48,8 @@ def apply():
 
     def parse_coord(self, match):
         orig_coord(self, match)
-        _snapshot_region_attrs(self)
+        if self.current_region is not None:  # the common case (no region) costs one test
+            _snapshot_region_attrs(self)
 
     def parse_region_start(self, match):
         orig_start(self, match)

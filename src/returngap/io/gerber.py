@@ -306,6 +306,12 @@ class _LayerBuilder:
         else:
             self.runs[-1][1].append(shapes.stroke_shape(pts, obj.aperture, self.aps, self.tol))
         if dark:
+            if len(pts) == 2:  # a straight stroke, nearly all of them
+                (xa, ya), (xb, yb) = pts
+                self.segs.append((xa, ya, xb, yb, w))
+                self.seg_net.append(net)
+                self.seg_fn.append(fn)
+                return
             add, net_add, fn_add = self.segs.append, self.seg_net.append, self.seg_fn.append
             for (xa, ya), (xb, yb) in zip(pts[:-1], pts[1:]):
                 add((xa, ya, xb, yb, w))
