@@ -259,23 +259,26 @@ def _raster_clear(free, x0, y0, size, a, b):
 
 def _farthest_in_sight(pts, clear, block=None):
     """Indices kept when from each kept point the farthest later point in sight is taken next;
-    clear(p, later_points) -> bools. With `block`, later points are looked at in growing blocks of
-    that many, up to the first block holding one out of sight (ways seldom come back into sight).
+    clear(a, b) -> bools, for pieces a[k] -> b[k] (either may be one point). With `block`, later
+    points are looked at in growing blocks of that many, up to the first block holding one out of
+    sight (ways seldom come back into sight); every point's first block is judged in one call.
     Returns the list, or the position of a point from which no later point is in sight."""
     keep, i, n = [0], 0, len(pts)
+    first = _first_blocks(pts, clear, block) if block is not None else None
     while i < n - 1:
         if block is None:
             later = np.arange(i + 1, n)
             seen = later[clear(pts[i], pts[later])]
         else:
-            seen, start, size = [], i + 1, block
-            while start < n:
+            start, size = i + 1, block
+            later = np.arange(start, min(n, start + size))
+            vis = first[i]
+            seen = later[vis]
+            while vis.all() and start + size < n:
+                start, size = start + size, 2 * size
                 later = np.arange(start, min(n, start + size))
                 vis = clear(pts[i], pts[later])
                 seen = later[vis]
-                if not vis.all() or start + size >= n:
-                    break
-                start, size = start + size, 2 * size
             if not len(seen):  # the first block's ends: keep the last point in sight before it
                 seen = np.arange(i + 1, start)[-1:] if start > i + 1 else seen
         if not len(seen):
@@ -283,6 +286,16 @@ def _farthest_in_sight(pts, clear, block=None):
         i = int(seen[-1])
         keep.append(i)
     return keep
+
+
+def _first_blocks(pts, clear, block):
+    """Per point i, whether each of the next `block` points (fewer near the end) is in sight."""
+    n = len(pts)
+    count = np.minimum(block, n - 1 - np.arange(n - 1))
+    i = np.repeat(np.arange(n - 1), count)
+    j = i + 1 + np.arange(len(i)) - np.repeat(np.cumsum(count) - count, count)
+    vis = clear(pts[i], pts[j]) if len(i) else np.zeros(0, dtype=bool)
+    return np.split(vis, np.cumsum(count)[:-1])
 
 
 def _pull_taut(pts, passable, raster=None):
