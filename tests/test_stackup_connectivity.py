@@ -169,3 +169,40 @@ def test_region_island_is_that_of_the_largest_piece_it_meets(seed):
     assert want, "the case must have regions on copper"
     for r, island in want.items():
         assert got[r] == island
+
+
+def test_pour_outline_strokes_are_those_on_a_region_edge():
+    # reference: shapely's own distance from each stroke's ends and middle to each region's edge
+    import numpy as np
+    import shapely
+
+    from returngap.model.board import CopperLayer
+
+    outer = [(0.0, 0.0), (10.0, 0.0), (10.0, 6.0), (0.0, 6.0)]
+    hole = [(4.0, 2.0), (6.0, 2.0), (6.0, 4.0), (4.0, 4.0)]
+    pour = shapely.Polygon(outer, [hole])
+    strokes = [
+        (0.0, 0.0, 10.0, 0.0),  # along an edge, end to end
+        (10.0, 6.0, 10.0, 0.0),  # the same, drawn backwards
+        (-0.0, 6.0, 0.0, 0.0),  # a signed zero: same place, other bytes
+        (2.0, 6.0, 7.0, 6.0),  # part of an edge only
+        (6.0, 2.0, 6.0, 4.0),  # along the hole's edge
+        (0.0, 0.0, 10.0, 6.0),  # across the pour: a track
+        (4.0, 2.0, 6.0, 4.0),  # from corner to corner of the hole, through it
+        (10.0015, 0.0, 10.0015, 3.0),  # alongside, 1.5 um off: beyond the hair
+    ]
+    layer = CopperLayer(name="L2", file="pour.gbr", side="inner")
+    layer.segments = np.array([s + (0.25,) for s in strokes])
+    layer.regions = [(pour, "GND", None)]
+    got = connectivity._pour_strokes(layer)
+    edge = pour.boundary
+    hair = connectivity.POUR_STROKE_HAIR_MM
+    want = [
+        all(
+            shapely.dwithin(edge, shapely.Point(p), hair)
+            for p in ((xa, ya), (xb, yb), ((xa + xb) / 2, (ya + yb) / 2))
+        )
+        for xa, ya, xb, yb in strokes
+    ]
+    assert want == [True, True, True, True, True, False, False, False]
+    assert got.tolist() == want

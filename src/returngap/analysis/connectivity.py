@@ -346,8 +346,12 @@ def _pour_strokes(layer):
     if not len(s) or not layer.regions:
         return np.zeros(len(s), dtype=bool)
     pieces, edge_region = outline_pieces([r[0] for r in layer.regions])
+    out = _along_region_edges(s, pieces)  # nearly every one, where the writer drew them so
+    rest = np.flatnonzero(~out)
+    if not len(rest):
+        return out
     edge_tree = shapely.STRtree(pieces)
-    ends = s[:, :4].reshape(-1, 2, 2)
+    ends = s[rest, :4].reshape(-1, 2, 2)
     n_reg = len(layer.regions)
     on_edge = None  # (stroke, region) keys whose three points all lie on that region's edge
     for xy in (ends[:, 0], ends[:, 1], ends.mean(axis=1)):
@@ -356,9 +360,21 @@ def _pour_strokes(layer):
         )
         keys = np.unique(pt.astype(np.int64) * n_reg + edge_region[e])
         on_edge = keys if on_edge is None else np.intersect1d(on_edge, keys, assume_unique=True)
-    out = np.zeros(len(s), dtype=bool)
-    out[on_edge // n_reg] = True
+    out[rest[on_edge // n_reg]] = True
     return out
+
+
+def _along_region_edges(s, pieces):
+    """Strokes (rows of s) drawn exactly from one end of a region's edge to the other, either way:
+    all three of their points lie on that edge (the test of _pour_strokes, passed at once)."""
+    xy = shapely.get_coordinates(pieces).reshape(-1, 4)
+    edges = np.concatenate([_row_keys(xy), _row_keys(xy[:, [2, 3, 0, 1]])])
+    return np.isin(_row_keys(s[:, :4]), edges)  # byte for byte: a -0.0 only takes the long way
+
+
+def _row_keys(a):
+    """Each row of four floats as one 32-byte key (rows compare equal when their bytes do)."""
+    return np.ascontiguousarray(a, dtype=np.float64).view(np.dtype((np.void, 32))).ravel()
 
 
 @dataclass
