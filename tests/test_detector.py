@@ -352,3 +352,35 @@ def test_exact_way_round_a_notch_in_an_island_of_the_gap():
     got = _chain(plane, 0, (-0.51, 3.0), (0.51, 3.0))
     assert got is not None
     assert got[0] == pytest.approx(2 * math.hypot(0.01, 2.0) + 1.0, abs=1e-9)
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_span_bounds_hold_the_rectangle_diagonal(seed):
+    # reference: shapely's least-area rotated rectangle of each shape (circles, thin slots at any
+    # angle, triangles, L shapes), its diagonal between the two bounds
+    import numpy as np
+    import shapely
+
+    from returngap.analysis import gaps as scan
+
+    rng = np.random.default_rng(seed)
+    shapes = []
+    for _ in range(40):
+        x, y, a = rng.uniform(0, 10), rng.uniform(0, 10), rng.uniform(0, np.pi)
+        long, thin = rng.uniform(0.2, 6), rng.uniform(0.05, 1.5)
+        slot = shapely.LineString([(x, y), (x + long * np.cos(a), y + long * np.sin(a))])
+        shapes += [
+            shapely.Point(x, y).buffer(thin, quad_segs=8),
+            slot.buffer(thin / 4),
+            shapely.Polygon([(x, y), (x + long, y), (x, y + thin * 3)]),
+            shapely.box(x, y, x + long, y + thin).union(shapely.box(x, y, x + thin, y + long)),
+        ]
+    geoms = np.array(shapes, dtype=object)
+    lo, hi = scan._span_bounds(geoms)
+    diagonal = np.array([scan._rect_sides(r) for r in shapely.oriented_envelope(geoms)])
+    span = np.hypot(diagonal[:, 0], diagonal[:, 1])
+    assert np.all(lo <= span) and np.all(span <= hi)
+    # an antipad 1.2 mm across is known to be shorter than the least gap length without its
+    # rectangle (the bound: sqrt(2.5) times the diameter, 1.90 mm)
+    _, hi_pad = scan._span_bounds(np.array([shapely.Point(0, 0).buffer(0.6, quad_segs=8)]))
+    assert hi_pad[0] < Settings().min_gap_length_mm == 2.0

@@ -192,6 +192,7 @@ class ReferenceCopper:
         self._hulls = [None] * len(self.voids)
         self._lattices = {}
         self._along_edge = {}
+        self.span_bounds = _span_bounds(self.void_geoms)
         self.outline = outline
         self.edge = edge
         shapely.prepare(outline)
@@ -266,6 +267,25 @@ class ReferenceCopper:
             if shapely.intersects(self.islands[i], point):
                 return int(i)
         return None
+
+
+SPAN_BOUND_MARGIN = 1e-9  # relative: a bound this close to the limit decides nothing
+
+
+def _span_bounds(geoms):
+    """Per geometry, bounds (low, high) on Void.span (the diagonal of its least-area rectangle)
+    from its axis-aligned box of sides w, h and diagonal d: the rectangle's diagonal is at least
+    the geometry's diameter, itself at least max(w, h); its sides are each at most the diameter
+    (at most d) and its area at most w h, so its diagonal is at most sqrt(d^2 + (w h / d)^2).
+    Each bound is moved outwards by a hair, so that a rounding error never decides."""
+    if not len(geoms):
+        return np.zeros(0), np.zeros(0)
+    x0, y0, x1, y1 = shapely.bounds(geoms).T
+    w, h = x1 - x0, y1 - y0
+    d = np.hypot(w, h)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        hi = np.sqrt(d**2 + np.where(d > 0, w * h / d, 0.0) ** 2)
+    return np.maximum(w, h) * (1 - SPAN_BOUND_MARGIN), hi * (1 + SPAN_BOUND_MARGIN)
 
 
 def interval_fraction(x1, x2, width, ref):
@@ -504,10 +524,14 @@ class _GapScan:
         the least gap length (never reported, see _finding). A gap larger than an antipad (a moat
         round a feed track, with the via's antipad merged into it) is a gap still."""
         limit = self.settings.min_gap_length_mm
+        lo, hi = rc.span_bounds
         near = [
             k
             for k in rc.voids_near(ch.line, hw)
-            if not (rc.voids[k].enclosed and rc.voids[k].span < limit)
+            if not (
+                rc.voids[k].enclosed
+                and (hi[k] < limit or (lo[k] < limit and rc.voids[k].span < limit))
+            )
         ]
         own = self.own_hole_pts.get(ch.net)
         if own is None:
