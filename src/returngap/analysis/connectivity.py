@@ -96,6 +96,7 @@ class LayerNets:
         self._start = np.searchsorted(piece_island[order], np.arange(len(island_net) + 1))
         self._poly = {}
         self._union = {}
+        self._masks = {}
         self._area_bounds = None
         self.island_tied = np.zeros(len(island_net), dtype=bool)
 
@@ -184,18 +185,29 @@ class LayerNets:
             )  # islands never touch
         return self._union[key]
 
-    def islands_at(self, pts, distance=0.0):
+    def islands_at(self, pts, distance=0.0, among=None):
         """Island index per point (-1 off copper); with distance > 0, within that distance of
-        copper."""
+        copper; with `among` (nets), on the islands of those nets only (-1 elsewhere: a point
+        lies in one island at most, so the others need no exact test)."""
         out = np.full(len(pts), -1, dtype=int)
         if not len(pts) or not len(self.pieces):
             return out
         if distance > 0:
             q = self.tree.query(pts, predicate="dwithin", distance=distance)
         else:
-            q = touching(self.tree, self.pieces, np.asarray(pts))
+            keep = None if among is None else self.piece_mask(among)
+            q = touching(self.tree, self.pieces, np.asarray(pts), keep)
         out[q[0]] = self.piece_island[q[1]]
         return out
+
+    def piece_mask(self, nets):
+        """Per piece, whether its island's net is one of `nets` (kept per set of nets)."""
+        key = frozenset(nets)
+        mask = self._masks.get(key)
+        if mask is None:
+            island = np.array([n in key for n in self.island_net] + [False])
+            mask = self._masks[key] = island[self.piece_island]
+        return mask
 
     def net_copper(self, net):
         return self.union_of({net})
@@ -227,11 +239,14 @@ class Nets:
         return out
 
 
-def touching(tree, pieces, geoms):
+def touching(tree, pieces, geoms, keep=None):
     """(query index, piece index) of each geometry touching or overlapping a piece: bounding boxes
     from the tree, then exact tests with the larger geometry of each pair prepared (a plane with
-    thousands of antipads is never re-scanned for each pad that sits on it)."""
+    thousands of antipads is never re-scanned for each pad that sits on it). keep: per piece,
+    whether to look at it at all."""
     q = tree.query(geoms)
+    if keep is not None:
+        q = q[:, keep[q[1]]]
     if not q.shape[1]:
         return q
     counts = _VERTEX_COUNTS.get(tree)

@@ -913,7 +913,7 @@ def majority_nets(ln, plane_nets, lines, samples=17):
         return []
     frac = np.linspace(0.0, 1.0, samples)
     pts = shapely.points(coords_along_lines(lines, list(np.outer(shapely.length(lines), frac))))
-    isl = ln.islands_at(pts)
+    isl = ln.islands_at(pts, among=plane_nets)  # other islands' nets count for nothing
     which = np.repeat(np.arange(len(lines)), samples)
     names = sorted(set(ln.island_net) & set(plane_nets))
     code = {n: k for k, n in enumerate(names)}

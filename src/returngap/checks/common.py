@@ -1,7 +1,5 @@
 """What the finding kinds share: the finding record, the plane net at a point, two-pin parts."""
 
-import weakref
-
 import numpy as np
 import shapely
 
@@ -35,7 +33,7 @@ def plane_net_near(ln, plane_nets, x, y, reach=2.0):
     # boxes from the tree, then the (prepared) plane pieces tested: the tree's own distance test
     # would walk every edge of a large pour
     c = ln.tree.query(shapely.box(x - reach, y - reach, x + reach, y + reach))
-    c = c[_plane_pieces(ln, plane_nets)[c]]
+    c = c[ln.piece_mask(plane_nets)[c]]
     # the nearest piece lies within the smallest radius that holds any: when those are all of one
     # net, that is the answer, with no exact distance to a large pour's many edges
     for r in (0.5, 1.0, reach):
@@ -48,20 +46,6 @@ def plane_net_near(ln, plane_nets, x, y, reach=2.0):
         return ln.island_net[ln.piece_island[near[0]]]
     nearest = near[int(np.argmin(shapely.distance(ln.pieces[near], p)))]
     return ln.island_net[ln.piece_island[nearest]]
-
-
-def _plane_pieces(ln, plane_nets):
-    """Per piece of a layer, whether it is plane copper (worked out once per layer and set of
-    plane nets: every via asks)."""
-    key = frozenset(plane_nets)
-    kept = _PLANE_PIECES.get(ln)
-    if kept is None or kept[0] != key:
-        island = np.array([n in key for n in ln.island_net] + [False])
-        kept = _PLANE_PIECES[ln] = (key, island[ln.piece_island])
-    return kept[1]
-
-
-_PLANE_PIECES = weakref.WeakKeyDictionary()  # layer nets -> (plane nets, per-piece flags)
 
 
 def parts_bridging(board, nets, net_a, net_b):
