@@ -42,6 +42,7 @@ __all__ = [
     "stable_id",
     "slot_geometry",
     "chain_plane_nets",
+    "prepared_scan",
     "gap_scan_tasks",
     "coords_along",
     "coords_along_lines",
@@ -615,9 +616,12 @@ def _events(pieces, void, line, hw):
     return events
 
 
-def chain_plane_nets(nets, chains, runner=SERIAL):
+def chain_plane_nets(nets, chains, runner=SERIAL, alongside=(), work=None):
     """Per chain, {reference layer: the plane net under most of its centre line (or None)}, with one
-    tree query per reference layer for all chains; the gap scan and the edge check both use it."""
+    tree query per reference layer for all chains; the gap scan and the edge check both use it.
+    alongside: other jobs (callables, their results dropped) for the same pool of the runner's
+    threads, taken first: geometry work of the same stage keeps both cores busy together; work:
+    the pool's size of work in track segments (the chains' own, by default)."""
     out = [{} for _ in chains]
     by_ref = {}
     for i, ch in enumerate(chains):
@@ -627,24 +631,36 @@ def chain_plane_nets(nets, chains, runner=SERIAL):
     def one(r):
         return majority_nets(nets.layers[r], nets.plane_nets, [chains[i].line for i in by_ref[r]])
 
-    size = sum(len(ch.line.coords) - 1 for ch in chains)  # the tracks' segments, about
-    with runner.threads(size) as pool:  # shapely lets go of the GIL in the tree queries
-        for r, found in zip(by_ref, pool.map(one, by_ref)):
-            for i, n in zip(by_ref[r], found):
-                out[i][r] = n
+    jobs = list(alongside) + [functools.partial(one, r) for r in by_ref]
+    if work is None:
+        work = sum(len(ch.line.coords) - 1 for ch in chains)  # the tracks' segments, about
+    with runner.threads(work) as pool:  # shapely lets go of the GIL in the tree queries
+        found = list(pool.map(lambda job: job(), jobs))[len(alongside) :]
+    for r, nets_found in zip(by_ref, found):
+        for i, n in zip(by_ref[r], nets_found):
+            out[i][r] = n
     return out
 
 
-def gap_scan_tasks(board, nets, refs, chains, settings, plane_nets_of, workers=1, runner=SERIAL):
+def prepared_scan(board, nets, refs, chains, settings, workers=1, runner=SERIAL):
+    """(what the gap scan shares, the plane net under each chain per reference layer; see
+    chain_plane_nets). Where the scan runs in several processes, each reference layer's copper is
+    built here once, in the runner's threads beside the plane-net lookups, and shared."""
+    scan = _GapScan(board, nets, refs, settings)
+    layers = sorted({r for ch in chains for r in ch.footprints}) if workers > 1 else []
+    if layers:
+        shapely.prepare(board.outline)  # shared by the threads: prepared once, beforehand
+    jobs = [functools.partial(scan.copper, r) for r in layers]
+    return scan, chain_plane_nets(
+        nets, chains, runner, alongside=jobs, work=board.track_segments if jobs else None
+    )
+
+
+def gap_scan_tasks(scan, chains, plane_nets_of, workers=1):
     """The gap scan cut into independent slices of chains, for a runner's tasks (as many slices as
     suit `workers` processes): returns (tasks, combine); combine(results of the tasks, in order)
     gives the gap-crossing findings, as dicts, the same and in the same order however many
-    processes ran. plane_nets_of: chain_plane_nets(nets, chains)."""
-    scan = _GapScan(board, nets, refs, settings)
-    if workers > 1:  # built once here (in the runner's threads), shared by the processes
-        shapely.prepare(board.outline)  # shared by the threads: prepared once, beforehand
-        with runner.threads(board.track_segments) as pool:
-            list(pool.map(scan.copper, sorted({r for ch in chains for r in ch.footprints})))
+    processes ran. scan, plane_nets_of: prepared_scan(...)."""
     n = workers * 16  # many small slices, taken in turn: uneven chains balance out
     # the longest chains (which cross the most) dealt out first, so that the slices taken last
     # are light and neither process waits long for the other at the end

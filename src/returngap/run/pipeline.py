@@ -134,11 +134,9 @@ def _run_check(sources, stackup_file, settings, scratch, workers, stage):
 def _findings(board, nets, refs, chains, settings, runner):
     """Every check; the gap scan's slices, the checks that do not need its findings and the copper
     areas for the report share the processes."""
-    plane_nets_of = gaps.chain_plane_nets(nets, chains, runner)
     workers = runner.processes("gap-scan", len(chains))
-    tasks, combine = gaps.gap_scan_tasks(
-        board, nets, refs, chains, settings, plane_nets_of, workers, runner
-    )
+    scan, plane_nets_of = gaps.prepared_scan(board, nets, refs, chains, settings, workers, runner)
+    tasks, combine = gaps.gap_scan_tasks(scan, chains, plane_nets_of, workers)
     hs = settings  # the other checks' thresholds are settings too
     # the checks that do not need the gap crossings, as tasks beside the gap scan
     checks = [
