@@ -255,3 +255,33 @@ def test_the_page_shows_its_legend_in_a_real_browser(demo_out, tmp_path):
 
     img = _screenshot(demo_out / "report.html", tmp_path, 420)
     assert _pixels_of(img, render.SECOND) > 200  # a 28 x 14 px swatch
+
+
+def test_report_numbers_are_rounded_and_finite():
+    # what a JSON reader accepts (RFC 8259 has no NaN or Infinity) and what diffs cleanly
+    import math
+
+    import numpy as np
+
+    from returngap.report.core import DECIMALS, clean
+
+    raw = {
+        "a": 1.234567,
+        "b": -0.00001,  # rounds to zero: written 0.0, never -0.0
+        "c": [math.inf, -math.inf, math.nan, 2.5e-5],
+        "d": (np.float64(3.14159265), {"e": [[0.123456, 7]]}),
+        "f": "text",
+        "g": None,
+        "h": True,
+    }
+    got = clean(raw)
+    assert got == {
+        "a": 1.2346,
+        "b": 0.0,
+        "c": [None, None, None, 0.0],
+        "d": [3.1416, {"e": [[0.1235, 7]]}],
+        "f": "text",
+        "g": None,
+        "h": True,
+    }
+    assert math.copysign(1.0, got["b"]) == 1.0 and DECIMALS == 4

@@ -3,7 +3,6 @@
 Floats are rounded to fixed decimals so that the same input gives byte-identical output."""
 
 import json
-import math
 from importlib import resources
 
 from returngap import __version__
@@ -42,16 +41,25 @@ DECIMALS = 4
 
 def clean(value):
     """Round floats (recursively) so reports are deterministic; non-finite values become null."""
+    kind = type(value)
+    if kind is dict:
+        return {k: _rounded(v) if type(v) is float else clean(v) for k, v in value.items()}
+    if kind is list or kind is tuple:
+        return [_rounded(v) if type(v) is float else clean(v) for v in value]
     if isinstance(value, float):
-        if not math.isfinite(value):
-            return None
-        v = round(value, DECIMALS)
-        return 0.0 if v == 0 else v
+        return _rounded(value)
     if isinstance(value, dict):
         return {k: clean(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
         return [clean(v) for v in value]
     return value
+
+
+def _rounded(value):
+    """A float to DECIMALS places (no negative zero); None where it is not finite."""
+    if value - value != 0:  # inf - inf and nan - nan are nan
+        return None
+    return round(value, DECIMALS) or 0.0
 
 
 def board_summary(board, nets=None):
