@@ -246,3 +246,35 @@ def test_layers_read_in_two_processes_match_one(tmp_path, monkeypatch):
     with pytest.raises(InputError) as e:
         load.load_board(tmp_path, runner=parallel.Parallel(2))
     assert e.value.file == "bottom.gbr" and e.value.line == 7
+
+
+def test_each_stroke_knows_the_piece_it_drew(tmp_path):
+    # reference: shapely's point-in-polygon, the middle of every segment on the piece it drew; a
+    # stroke cut by a later clear, a zero-width stroke and a continuing polyline included
+    import numpy as np
+
+    from returngap.analysis import connectivity
+
+    body = (
+        "%ADD10C,0.500000*%\n%ADD11C,0.000000*%\n%ADD12R,0.400000X0.400000*%\nD10*\n"
+        "X1000000Y1000000D02*\nX9000000Y1000000D01*\n"  # cut in two by the clear below
+        "%LPC*%\n%ADD13C,1.000000*%\nD13*\nX5000000Y1000000D03*\n%LPD*%\nD10*\n"
+        "X1000000Y3000000D02*\nX4000000Y3000000D01*\nX4000000Y6000000D01*\n"  # one polyline
+        "D11*\nX6000000Y3000000D02*\nX8000000Y3000000D01*\n"  # zero width: no piece
+        "D12*\nX6000000Y6000000D02*\nX8000000Y7000000D01*\n"  # a square aperture's stroke
+    )
+    layer = one_layer(tmp_path, body)
+    own = layer.segment_piece
+    s = layer.segments
+    assert len(own) == len(s) == 5
+    mid = shapely.points((s[:, :2] + s[:, 2:4]) / 2)
+    for k in np.flatnonzero(own >= 0):
+        assert shapely.intersects(layer.pieces[own[k]], mid[k])
+    assert own.tolist().count(-1) == 2  # the stroke the clear cut, and the one of zero width
+    piece_island, count, _ = layer.islands_found[:3] if layer.islands_found else (None, 0, None)
+    tree = shapely.STRtree(layer.pieces)
+    if piece_island is None:
+        piece_island, count, _ = connectivity.touch_components(layer.pieces, tree)
+    got = connectivity._segment_islands(layer, piece_island, tree)
+    want = connectivity._island_index(piece_island, tree, shapely.get_coordinates(mid))
+    assert got.tolist() == want.tolist()

@@ -300,6 +300,21 @@ def _first_meeting(polys, pieces, reg, piece):
     return np.concatenate(found)
 
 
+def _segment_islands(layer, piece_island, tree):
+    """Island of each segment: that of the piece its own stroke drew (which holds the segment's
+    middle), else of the piece its middle lies on (_island_index)."""
+    s = layer.segments
+    mid = np.column_stack([(s[:, 0] + s[:, 2]) / 2, (s[:, 1] + s[:, 3]) / 2])
+    own = layer.segment_piece
+    if own is None or len(own) != len(s):
+        return _island_index(piece_island, tree, mid)
+    out = np.full(len(s), -1, dtype=int)
+    known = own >= 0
+    out[known] = piece_island[own[known]]
+    out[~known] = _island_index(piece_island, tree, mid[~known])
+    return out
+
+
 def _island_index(piece_island, tree, xy):
     """Island containing each point; nearest island for points that fall on no copper."""
     if len(xy) == 0:
@@ -516,10 +531,7 @@ def layer_islands(layer):
     piece_island, count, pairs = touch_components(pieces, tree)
     seg_isl = fl_isl = reg_isl = np.zeros(0, dtype=int)
     if count:
-        s = layer.segments
-        seg_isl = _island_index(
-            piece_island, tree, np.column_stack([(s[:, 0] + s[:, 2]) / 2, (s[:, 1] + s[:, 3]) / 2])
-        )
+        seg_isl = _segment_islands(layer, piece_island, tree)
         fl_isl = _island_index(piece_island, tree, layer.flashes[:, :2])
         reg_isl = _region_islands(piece_island, tree, pieces, layer.regions)
     strokes = _pour_strokes(layer)

@@ -242,6 +242,8 @@ class _LayerBuilder:
         self.flashes, self.fl_net, self.fl_fn, self.fl_part = [], [], [], []
         self.runs = []  # [(dark, [pieces])]
         self.round_lines = []  # pending (coords, radius) of the current run, buffered together
+        self.round_where = []  # [run, position] of each pending round line's piece, set at flush
+        self.seg_where = []  # per dark segment, the [run, position] of the piece its stroke drew
         self.flash_at = []  # pending (shape, x, y) of the current run, placed together
         self.ap_info = {}  # id(aperture) -> (width, round, function); apertures outlive the loop
         self.quad_segs_of = functools.cache(lambda r: shapes.quad_segs_for(float(r), tol))
@@ -258,6 +260,9 @@ class _LayerBuilder:
             at = self.flash_at
             pieces.extend(shapes.place_all([b for b, _, _ in at], [(x, y) for _, x, y in at]))
             at.clear()
+        for j, where in enumerate(self.round_where):  # the round lines go in after the flashes
+            where[1] = len(pieces) + j
+        self.round_where.clear()
         if self.round_lines:
             rl = self.round_lines
             counts = [len(c) for c, _ in rl]
@@ -292,31 +297,39 @@ class _LayerBuilder:
         else:
             pts = [(obj.x1 * k, obj.y1 * k), (obj.x2 * k, obj.y2 * k)]
         w, round_ap, fn = self._aperture(obj)
-        rl = self.round_lines
+        rl, run = self.round_lines, len(self.runs) - 1
+        pieces = self.runs[-1][1]
         if round_ap and w > 0:
             if pts[0] == pts[-1] and len(pts) == 2:
                 dot = shapely.Point(pts[0]).buffer(
                     w / 2, quad_segs=shapes.quad_segs_for(w / 2, self.tol)
                 )
-                self.runs[-1][1].append(dot)
+                where = [run, len(pieces)]
+                pieces.append(dot)
             elif rl and rl[-1][1] == w / 2 and rl[-1][0][-1] == pts[0]:
                 rl[-1][0].extend(pts[1:])  # a continuing stroke: one polyline, one buffer
+                where = self.round_where[-1]
             else:
                 rl.append((list(pts), w / 2))
+                where = [run, None]
+                self.round_where.append(where)
         else:
-            self.runs[-1][1].append(shapes.stroke_shape(pts, obj.aperture, self.aps, self.tol))
+            where = [run, len(pieces)]
+            pieces.append(shapes.stroke_shape(pts, obj.aperture, self.aps, self.tol))
         if dark:
             if len(pts) == 2:  # a straight stroke, nearly all of them
                 (xa, ya), (xb, yb) = pts
                 self.segs.append((xa, ya, xb, yb, w))
                 self.seg_net.append(net)
                 self.seg_fn.append(fn)
+                self.seg_where.append(where)
                 return
             add, net_add, fn_add = self.segs.append, self.seg_net.append, self.seg_fn.append
             for (xa, ya), (xb, yb) in zip(pts[:-1], pts[1:]):
                 add((xa, ya, xb, yb, w))
                 net_add(net)
                 fn_add(fn)
+                self.seg_where.append(where)
 
     def flash(self, obj, k, net, dark, attrs):
         base = self.aps.shape(obj.aperture)
@@ -344,7 +357,12 @@ class _LayerBuilder:
         if self.runs:
             self.flush()
         layer = self.layer
-        layer.pieces = resolve_pieces(self.runs, negative_in)
+        layer.pieces, kept_at = resolve_pieces(self.runs, negative_in, with_positions=True)
+        where = np.array(self.seg_where, dtype=int).reshape(-1, 2)
+        start = np.cumsum([0] + [len(p) for _, p in self.runs])  # each run's first position
+        layer.segment_piece = (
+            kept_at[start[where[:, 0]] + where[:, 1]] if len(where) else where[:, 0]
+        )
         layer.segments = np.array(self.segs, dtype=float).reshape(-1, 5)
         layer.segment_net, layer.segment_function = self.seg_net, self.seg_fn
         layer.flashes = np.array(self.flashes, dtype=float).reshape(-1, 3)
@@ -355,10 +373,12 @@ class _LayerBuilder:
         )
 
 
-def resolve_pieces(runs, negative_in=None):
+def resolve_pieces(runs, negative_in=None, with_positions=False):
     """Copper pieces from polarity runs in file order: runs up to the last clear one are resolved
     (union, difference) because clears cut what came before; later dark objects stay as drawn.
-    A negative layer is the profile minus everything drawn, so all of it is resolved."""
+    A negative layer is the profile minus everything drawn, so all of it is resolved. With
+    with_positions, also the piece that each object of the runs (counted through all runs in
+    order) became, -1 where it was resolved into others, dropped or split."""
     last_clear = max((k for k, (dark, _) in enumerate(runs) if not dark), default=-1)
     if negative_in is not None:
         last_clear = len(runs) - 1
@@ -373,18 +393,23 @@ def resolve_pieces(runs, negative_in=None):
     if not acc.is_valid:
         acc = shapely.make_valid(acc)
     out = [p for p in shapely.get_parts(acc) if p.geom_type == "Polygon" and p.area > 0]
+    kept_at = [-1] * sum(len(p) for _, p in runs[: last_clear + 1])
     for _, pieces in runs[last_clear + 1 :]:
         # buffers, placed aperture shapes and repaired regions: valid as built
-        arr = np.array([p for p in pieces if p is not None], dtype=object)
-        for p in arr:  # flashes of macro apertures can be multi-part
-            if p.geom_type == "Polygon":
+        for p in pieces:  # flashes of macro apertures can be multi-part
+            if p is None:
+                kept_at.append(-1)
+            elif p.geom_type == "Polygon":
+                kept_at.append(len(out) if p.area > 0 else -1)
                 if p.area > 0:
                     out.append(p)
             else:
+                kept_at.append(-1)
                 out.extend(
                     q for q in shapely.get_parts(p) if q.geom_type == "Polygon" and q.area > 0
                 )
-    return np.array(out, dtype=object)
+    out = np.array(out, dtype=object)
+    return (out, np.array(kept_at, dtype=int)) if with_positions else out
 
 
 def _only_touches(raw):

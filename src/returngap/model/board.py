@@ -41,6 +41,9 @@ class CopperLayer:
     # worked out once, where the layer is read (analysis/connectivity.layer_islands): the island of
     # every piece, segment, flash and region, the island count, touching pairs; the pieces' tree
     islands_found: tuple | None = field(default=None, repr=False, compare=False)
+    # per segment, the piece its stroke drew (-1 where that piece was merged, cut or dropped):
+    # its island is that piece's, with no lookup (set by the import, used by layer_islands)
+    segment_piece: np.ndarray | None = field(default=None, repr=False, compare=False)
     piece_tree: object = field(default=None, repr=False, compare=False)
     _geometry: object = field(default=None, repr=False, compare=False)
 
