@@ -135,10 +135,9 @@ def _sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges):
     sub = lines[todo]
     dists = [np.linspace(0, L, max(2, int(L / step) + 1)) for L in shapely.length(sub)]
     xy = coords_along_lines(sub, dists)
-    inside, d = _measure(
-        xy, _samples_to_look_at(sub, dists, outer, edge_tree, limit), outer, edge_tree, limit
-    )
     ends = np.cumsum([0] + [len(x) for x in dists])
+    look = _samples_to_look_at(sub, dists, outer, edge_tree, limit)
+    inside, d = _measure(xy, look, outer, edge_tree, limit, ends)
     out = {}
     for j, t in enumerate(todo):
         a, b = ends[j], ends[j + 1]
@@ -163,9 +162,26 @@ def _adopted(chs, ref_nets):
     return out
 
 
-def _measure(xy, look, outer, edge_tree, limit):
+def _end_runs_off(inside, ends):
+    """Per sample, whether it lies in a stretch off the plane at either end of its track (samples
+    ends[j]:ends[j + 1] are track j's): only there does a run off the plane count (see _runs), so
+    only there is a sample's full distance to the edge needed."""
+    out = np.zeros(len(inside), dtype=bool)
+    for a, b in zip(ends[:-1].tolist(), ends[1:].tolist()):
+        on = np.flatnonzero(inside[a:b])
+        if not len(on):
+            out[a:b] = True
+            continue
+        out[a : a + on[0]] = True
+        out[a + on[-1] + 1 : b] = True
+    return out
+
+
+def _measure(xy, look, outer, edge_tree, limit, ends=None):
     """Per sample: on the plane, and the distance to its edge (exact within the limit, and for every
-    sample off the plane; infinite elsewhere). Only the samples `look` marks are measured."""
+    sample off the plane; with `ends`, the tracks' sample ranges, for those in a stretch off the
+    plane at a track's end only: _end_runs_off; infinite elsewhere). Only the samples `look`
+    marks are measured."""
     at = np.flatnonzero(look)
     inside = np.ones(len(xy), dtype=bool)
     d = np.full(len(xy), np.inf)
@@ -177,7 +193,8 @@ def _measure(xy, look, outer, edge_tree, limit):
         pts, max_distance=limit, return_distance=True, all_matches=False
     )
     d[at[k]] = dist
-    off = np.flatnonzero(~inside[at] & np.isinf(d[at]))
+    want = _end_runs_off(inside, ends)[at] if ends is not None else True
+    off = np.flatnonzero(~inside[at] & np.isinf(d[at]) & want)
     if len(off):
         (k, _), dist = edge_tree.query_nearest(pts[off], return_distance=True, all_matches=False)
         d[at[off[k]]] = dist
