@@ -206,3 +206,75 @@ def test_pour_outline_strokes_are_those_on_a_region_edge():
     ]
     assert want == [True, True, True, True, True, False, False, False]
     assert got.tolist() == want
+
+
+class _JobPool:
+    """A pool that runs each job in turn and tells which job is running (to see what each one
+    touches); `mapped` keeps every list of jobs given to it."""
+
+    def __init__(self):
+        self.job, self.mapped = None, []
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        return False
+
+    def map(self, fn, items):
+        items = list(items)
+        self.mapped.append(items)
+        out = []
+        for n, item in enumerate(items):
+            self.job = (len(self.mapped), n)
+            out.append(fn(item))
+        self.job = None
+        return out
+
+
+def test_no_two_jobs_of_one_pool_share_a_layer(monkeypatch):
+    # GEOS builds a prepared geometry's indexes at its first use and is not safe when two threads
+    # build them together (a crash seen with a board's two drill files on one layer): each job of
+    # the net-building and scan set-up pools works on one layer of its own
+    from conftest import corpus_board
+    from returngap.analysis import gaps
+    from returngap.model.runner import Serial
+
+    board_dir = corpus_board("ulx3s-v3.1.1")
+    board, cfg = read_board(board_dir, workers=1)
+    assert len(board.drills) >= 2  # plated and non-plated files, both through every layer
+    pool = _JobPool()
+
+    class Runner(Serial):
+        def threads(self, work=0):
+            return pool
+
+    seen = {}  # (pool call, job) -> layers whose pieces or copper it used
+    real_touching = connectivity.touching
+
+    def touching(tree, pieces, geoms, keep=None):
+        if pool.job is not None:
+            seen.setdefault(pool.job, set()).add(id(pieces))
+        return real_touching(tree, pieces, geoms, keep)
+
+    monkeypatch.setattr(connectivity, "touching", touching)
+    real_copper = gaps._GapScan.copper
+
+    def copper(scan, layer):
+        seen.setdefault(pool.job, set()).add(id(scan.nets.layers[layer].pieces))
+        return real_copper(scan, layer)
+
+    monkeypatch.setattr(gaps._GapScan, "copper", copper)
+    nets = connectivity.build_nets(board, cfg, Runner())
+    from returngap.analysis import references
+    from returngap.model.settings import Settings
+
+    refs, _ = references.find_references(board, nets, Settings())
+    chains = references.chains(board, nets, refs, Settings())
+    gaps.prepared_scan(board, nets, refs, chains, Settings(), workers=2, runner=Runner())
+    by_call = {}
+    for (call, _), layers in seen.items():
+        for layer in layers:
+            by_call.setdefault((call, layer), 0)
+            by_call[(call, layer)] += 1
+    assert seen and max(by_call.values()) == 1

@@ -614,8 +614,10 @@ def _hole_shapes(drill):
 
 def _join_through_holes(board, g, per_layer, pool):
     """Edges between the islands a plated hole passes through (within its span); returns the first
-    island of each hole, and per layer the islands with a hole in them (not floating). Each drill
-    file's layers are looked at in the pool (shapely lets go of the GIL), taken in order after."""
+    island of each hole, and per layer the islands with a hole in them (not floating). Each layer
+    is looked at in the pool (shapely lets go of the GIL), one thread per layer: GEOS builds a
+    prepared piece's indexes at its first use, and two threads must never build them together.
+    The results are taken in file, then layer order."""
     layer_pos = {c.name: i for i, c in enumerate(board.copper)}
     geoms = [_hole_shapes(drill) for drill in board.drills]
     work = []  # (drill position, layer position)
@@ -624,17 +626,24 @@ def _join_through_holes(board, g, per_layer, pool):
             li = layer_pos.get(f"L{ln}")
             if li is not None and per_layer[f"L{ln}"][4] and len(geoms[k]):
                 work.append((k, li))
-    found = list(pool.map(lambda job: _holes_on_layer(board, per_layer, geoms[job[0]], *job), work))
-    hole_nodes, tied = {}, defaultdict(set)
-    for k, drill in enumerate(board.drills):
-        hits = defaultdict(list)
-        for (d, li), (on_pads, q_hole, q_island) in zip(work, found):
-            if d != k:
-                continue
-            tied[li].update(on_pads)
-            for h, isl in zip(q_hole, q_island):
-                if not hits[h] or hits[h][-1] != (li, int(isl)):
-                    hits[h].append((li, int(isl)))
+    layers = sorted({li for _, li in work})
+
+    def on_layer(li):
+        return {k: _holes_on_layer(board, per_layer, geoms[k], k, li) for k, m in work if m == li}
+
+    by_layer = dict(zip(layers, pool.map(on_layer, layers)))
+    found = [by_layer[li][k] for k, li in work]
+    tied = defaultdict(set)
+    hits_of = defaultdict(lambda: defaultdict(list))  # drill -> hole -> islands, layer by layer
+    for (k, li), (on_pads, q_hole, q_island) in zip(work, found):
+        tied[li].update(on_pads)
+        hits = hits_of[k]
+        for h, isl in zip(q_hole, q_island):
+            if not hits[h] or hits[h][-1] != (li, int(isl)):
+                hits[h].append((li, int(isl)))
+    hole_nodes = {}
+    for k, hits in hits_of.items():
+        drill = board.drills[k]
         for h, nodes in hits.items():
             hole_nodes[(drill.file, int(h))] = nodes[0]
             g.add_edges_from(zip(nodes[:-1], nodes[1:]))

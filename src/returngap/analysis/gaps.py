@@ -616,12 +616,13 @@ def _events(pieces, void, line, hw):
     return events
 
 
-def chain_plane_nets(nets, chains, runner=SERIAL, alongside=(), work=None):
+def chain_plane_nets(nets, chains, runner=SERIAL, first=None, work=None):
     """Per chain, {reference layer: the plane net under most of its centre line (or None)}, with one
     tree query per reference layer for all chains; the gap scan and the edge check both use it.
-    alongside: other jobs (callables, their results dropped) for the same pool of the runner's
-    threads, taken first: geometry work of the same stage keeps both cores busy together; work:
-    the pool's size of work in track segments (the chains' own, by default)."""
+    Each layer is one job of a pool of the runner's threads; first(layer), when given, is done in
+    that job before the lookup (one thread per layer: GEOS builds a prepared piece's indexes at
+    its first use, and two threads must never build them together); work: the pool's size of
+    work in track segments (the chains' own, by default)."""
     out = [{} for _ in chains]
     by_ref = {}
     for i, ch in enumerate(chains):
@@ -629,13 +630,14 @@ def chain_plane_nets(nets, chains, runner=SERIAL, alongside=(), work=None):
             by_ref.setdefault(r, []).append(i)
 
     def one(r):
+        if first is not None:
+            first(r)
         return majority_nets(nets.layers[r], nets.plane_nets, [chains[i].line for i in by_ref[r]])
 
-    jobs = list(alongside) + [functools.partial(one, r) for r in by_ref]
     if work is None:
         work = sum(len(ch.line.coords) - 1 for ch in chains)  # the tracks' segments, about
     with runner.threads(work) as pool:  # shapely lets go of the GIL in the tree queries
-        found = list(pool.map(lambda job: job(), jobs))[len(alongside) :]
+        found = list(pool.map(one, by_ref))
     for r, nets_found in zip(by_ref, found):
         for i, n in zip(by_ref[r], nets_found):
             out[i][r] = n
@@ -645,14 +647,14 @@ def chain_plane_nets(nets, chains, runner=SERIAL, alongside=(), work=None):
 def prepared_scan(board, nets, refs, chains, settings, workers=1, runner=SERIAL):
     """(what the gap scan shares, the plane net under each chain per reference layer; see
     chain_plane_nets). Where the scan runs in several processes, each reference layer's copper is
-    built here once, in the runner's threads beside the plane-net lookups, and shared."""
+    built here once, in the same job of the runner's threads as that layer's plane-net lookup,
+    and shared."""
     scan = _GapScan(board, nets, refs, settings)
-    layers = sorted({r for ch in chains for r in ch.footprints}) if workers > 1 else []
-    if layers:
-        shapely.prepare(board.outline)  # shared by the threads: prepared once, beforehand
-    jobs = [functools.partial(scan.copper, r) for r in layers]
+    if workers <= 1:
+        return scan, chain_plane_nets(nets, chains, runner)
+    shapely.prepare(board.outline)  # shared by the threads: prepared once, beforehand
     return scan, chain_plane_nets(
-        nets, chains, runner, alongside=jobs, work=board.track_segments if jobs else None
+        nets, chains, runner, first=scan.copper, work=board.track_segments
     )
 
 
