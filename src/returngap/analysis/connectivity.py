@@ -19,6 +19,7 @@ from returngap.geometry.shapes import (
     disjoint_union,
     intersects_pairs,
     outline_pieces,
+    ranges,
     touch_components,
 )
 from returngap.model.runner import SERIAL
@@ -290,7 +291,7 @@ def _first_meeting(polys, pieces, reg, piece):
     while len(live):
         stop = np.minimum(at + size, end[live])
         count = stop - at
-        k = np.repeat(at - np.cumsum(count) + count, count) + np.arange(count.sum())
+        k = ranges(at, count)
         group = np.repeat(live, count)
         ok = shapely.intersects(pieces[piece[k]], polys[reg[k]])  # the pieces are prepared
         g, first = np.unique(group[ok], return_index=True)  # k ascends: the first hit of each

@@ -19,6 +19,7 @@ from scipy.sparse import csr_matrix
 from scipy.sparse.csgraph import dijkstra
 
 from returngap.geometry.cuts import ring_edges
+from returngap.geometry.shapes import ranges
 
 __all__ = [
     "CELLS",
@@ -69,7 +70,7 @@ def parity_grid(edges, x0, y0, size, cells):
     hi = np.minimum(np.ceil((np.maximum(ya, yb) - y0) / size - 0.5).astype(int) - 1, cells - 1)
     count = np.maximum(hi - lo + 1, 0)
     e = np.repeat(np.arange(len(edges)), count)
-    row = lo[e] + np.arange(len(e)) - np.repeat(np.cumsum(count) - count, count)
+    row = ranges(lo, count)
     yc = y0 + (row + 0.5) * size
     x = xa[e] + (xb[e] - xa[e]) * (yc - ya[e]) / (yb[e] - ya[e])
     col = np.clip(np.floor((x - x0) / size - 0.5).astype(int) + 1, 0, cells)
@@ -243,8 +244,7 @@ def _raster_clear(free, x0, y0, size, a, b):
     length = np.hypot(d[:, 0], d[:, 1])
     n = np.maximum(np.ceil(length / (size / 2)).astype(int), 1) + 1
     k = np.repeat(np.arange(len(a)), n)
-    first = np.cumsum(n) - n
-    t = (np.arange(len(k)) - first[k]) / (n[k] - 1)
+    t = ranges(0, n) / (n[k] - 1)
     along = t * length[k]
     look = (along > 1.5 * size) & (length[k] - along > 1.5 * size)
     k, t = k[look], t[look]
@@ -293,7 +293,7 @@ def _first_blocks(pts, clear, block):
     n = len(pts)
     count = np.minimum(block, n - 1 - np.arange(n - 1))
     i = np.repeat(np.arange(n - 1), count)
-    j = i + 1 + np.arange(len(i)) - np.repeat(np.cumsum(count) - count, count)
+    j = ranges(np.arange(n - 1) + 1, count)
     vis = clear(pts[i], pts[j]) if len(i) else np.zeros(0, dtype=bool)
     return np.split(vis, np.cumsum(count)[:-1])
 

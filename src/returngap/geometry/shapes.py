@@ -34,6 +34,7 @@ __all__ = [
     "disjoint_union",
     "place_all",
     "outline_pieces",
+    "ranges",
 ]
 
 DEFAULT_CHORD_TOL_MM = 0.001
@@ -308,3 +309,10 @@ def outline_pieces(polygons):
     same = vert_part[1:] == vert_part[:-1]
     pieces = shapely.linestrings(np.stack([xy[:-1][same], xy[1:][same]], axis=1))
     return pieces, part_owner[vert_part[:-1][same]]
+
+
+def ranges(starts, counts):
+    """starts[k], starts[k] + 1, ... (counts[k] of them) for every k, laid end to end in one array
+    (a scalar start serves every k)."""
+    counts = np.asarray(counts)
+    return np.repeat(starts - (np.cumsum(counts) - counts), counts) + np.arange(counts.sum())

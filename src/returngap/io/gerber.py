@@ -357,7 +357,7 @@ class _LayerBuilder:
         if self.runs:
             self.flush()
         layer = self.layer
-        layer.pieces, kept_at = resolve_pieces(self.runs, negative_in, with_positions=True)
+        layer.pieces, kept_at = resolve_pieces(self.runs, negative_in)
         where = np.array(self.seg_where, dtype=int).reshape(-1, 2)
         start = np.cumsum([0] + [len(p) for _, p in self.runs])  # each run's first position
         layer.segment_piece = (
@@ -373,12 +373,12 @@ class _LayerBuilder:
         )
 
 
-def resolve_pieces(runs, negative_in=None, with_positions=False):
+def resolve_pieces(runs, negative_in=None):
     """Copper pieces from polarity runs in file order: runs up to the last clear one are resolved
     (union, difference) because clears cut what came before; later dark objects stay as drawn.
-    A negative layer is the profile minus everything drawn, so all of it is resolved. With
-    with_positions, also the piece that each object of the runs (counted through all runs in
-    order) became, -1 where it was resolved into others, dropped or split."""
+    A negative layer is the profile minus everything drawn, so all of it is resolved. Returns
+    (pieces, the piece that each object of the runs, counted through all runs in order, became:
+    -1 where it was resolved into others, dropped or split)."""
     last_clear = max((k for k, (dark, _) in enumerate(runs) if not dark), default=-1)
     if negative_in is not None:
         last_clear = len(runs) - 1
@@ -408,8 +408,7 @@ def resolve_pieces(runs, negative_in=None, with_positions=False):
                 out.extend(
                     q for q in shapely.get_parts(p) if q.geom_type == "Polygon" and q.area > 0
                 )
-    out = np.array(out, dtype=object)
-    return (out, np.array(kept_at, dtype=int)) if with_positions else out
+    return np.array(out, dtype=object), np.array(kept_at, dtype=int)
 
 
 def _only_touches(raw):

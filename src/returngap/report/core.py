@@ -41,17 +41,13 @@ DECIMALS = 4
 
 def clean(value):
     """Round floats (recursively) so reports are deterministic; non-finite values become null."""
-    kind = type(value)
-    if kind is dict:
-        return {k: _rounded(v) if type(v) is float else clean(v) for k, v in value.items()}
-    if kind is list or kind is tuple:
-        return [_rounded(v) if type(v) is float else clean(v) for v in value]
+    # plain floats inside rounded in place, not by a call each (a detour path's many points)
     if isinstance(value, float):
         return _rounded(value)
     if isinstance(value, dict):
-        return {k: clean(v) for k, v in value.items()}
+        return {k: _rounded(v) if type(v) is float else clean(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
-        return [clean(v) for v in value]
+        return [_rounded(v) if type(v) is float else clean(v) for v in value]
     return value
 
 
