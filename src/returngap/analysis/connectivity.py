@@ -123,8 +123,10 @@ class LayerNets:
             polys = np.empty(len(need), dtype=object)
             one = size == 1
             polys[one] = self.pieces[self._order[self._start[need[one]]]]
-            many = size > 16
-            for k in np.flatnonzero(many):  # planes and pours: most pads drawn on them add nothing
+            # planes and pours (many pieces, or a pour-sized one among a few): most pads drawn on
+            # them add nothing, and one union of the rest with the largest piece skips them
+            many = (size > 16) | ((size > 2) & (self.piece_area_bounds()[1][need] >= POUR_MIN_MM2))
+            for k in np.flatnonzero(many):
                 m = self.pieces[self.members(need[k])]
                 at = int(np.argmax(shapely.area(m)))
                 big, rest = m[at], np.delete(m, at)
@@ -566,16 +568,23 @@ def build_nets(board, user_cfg=None, runner=SERIAL):
     _generated_names(board, per_layer, unnamed, node_net)
     layers = _layer_nets(board, per_layer, node_net, tied)
     net_class = classify(sorted(set(node_net.values())), user_cfg)
+    wanted = _ground_candidates(layers, net_class)
+    # one job per layer (its pours, planes and ground candidates), the costliest first: a board's
+    # layers differ several times over in the copper they union, and few layers balance badly
+    order = sorted(
+        range(len(board.copper)), key=lambda li: -_union_work(layers[board.copper[li].name])
+    )
     with runner.threads(size) as pool:
-        found = list(
+        done = list(
             pool.map(
-                lambda li: _pours_and_planes(board, layers, per_layer, li, net_class),
-                range(len(board.copper)),
+                lambda li: _pours_and_planes(board, layers, per_layer, li, net_class, wanted),
+                order,
             )
         )
-    big = set().union(*(b for b, _ in found))
-    poured = set().union(*(p for _, p in found))
-    notes = _ground_and_power(layers, net_class, big, runner, size)
+    found = [done[order.index(li)] for li in range(len(board.copper))]
+    big = set().union(*(b for b, _, _ in found))
+    poured = set().union(*(p for _, p, _ in found))
+    notes = _ground_and_power(net_class, big, [g for _, _, g in found] if wanted else None)
     notes += _poured_nets(net_class, poured)
     plane_nets = {n for n, c in net_class.items() if c in ("ground", "power")}
     hole_net = {k: node_net[v] for k, v in hole_nodes.items()}
@@ -735,8 +744,9 @@ def _layer_nets(board, per_layer, node_net, tied):
     return layers
 
 
-def _pours_and_planes(board, layers, per_layer, li, net_class):
-    """Pour segments of one layer; the nets of its plane-sized islands and of its poured ones."""
+def _pours_and_planes(board, layers, per_layer, li, net_class, wanted=None):
+    """Pour segments of one layer; the nets of its plane-sized islands, of its poured ones and
+    (wanted: see _ground_candidates) the areas of its islands that may be the ground's."""
     layer = board.copper[li]
     ln = layers[layer.name]
     _, _, seg_isl, _, _, pairs = per_layer[layer.name]
@@ -745,7 +755,15 @@ def _pours_and_planes(board, layers, per_layer, li, net_class):
     return (
         _nets_with_island(ln, PLANE_AREA_FRACTION * (board.outline.area or 1.0)),
         _nets_with_island(ln, POUR_MIN_MM2, signal),
+        _candidate_areas(ln, *wanted) if wanted else [],
     )
+
+
+def _union_work(ln):
+    """About how much copper a layer's islands union: the vertices of its pieces in islands of
+    more than one piece."""
+    shared = np.bincount(ln.piece_island, minlength=ln.n_islands)[ln.piece_island] > 1
+    return int(shapely.get_num_coordinates(ln.pieces[shared]).sum()) if shared.any() else 0
 
 
 def _nets_with_island(ln, limit, among=None):
@@ -774,38 +792,47 @@ def _poured_nets(net_class, poured):
     ]
 
 
-def _ground_by_copper(layers, runner, size):
-    """The net with the most copper, and its area. Only nets whose upper bound (sum of piece areas)
-    reaches the best lower bound (largest pieces) can win, so only theirs are unioned."""
+def _ground_candidates(layers, net_class):
+    """When no net is named like a ground (and there is copper): (per net, the sum of its pieces'
+    areas; the largest of the nets' least areas). Only a net whose sum reaches that can have the
+    most copper, so only its islands are unioned (_candidate_areas). None otherwise."""
+    if any(c == "ground" for c in net_class.values()) or not any(
+        ln.n_islands for ln in layers.values()
+    ):
+        return None
     upper, lower = Counter(), Counter()
     for ln in layers.values():
         up, lo = ln.piece_area_bounds()
         for n, u, lw in zip(ln.island_net, up.tolist(), lo.tolist()):
             upper[n] += u
             lower[n] += lw
-    best = max(lower.values())
+    return upper, max(lower.values())
+
+
+def _candidate_areas(ln, upper, best):
+    """(net, area) of each island of one layer whose net may have the most copper."""
+    idx = [i for i, n in enumerate(ln.island_net) if upper[n] >= best]
+    return [(ln.island_net[i], a) for i, a in zip(idx, shapely.area(ln.island_polygons(idx)))]
+
+
+def _ground_by_copper(candidate_areas):
+    """The net with the most copper, and its area, from each layer's _candidate_areas (added up in
+    layer order)."""
     area_by_net = Counter()
-
-    def areas(ln):  # each layer's candidate islands unioned in one call
-        idx = [i for i, n in enumerate(ln.island_net) if upper[n] >= best]
-        return [(ln.island_net[i], a) for i, a in zip(idx, shapely.area(ln.island_polygons(idx)))]
-
-    with runner.threads(size) as pool:
-        for found in pool.map(areas, layers.values()):
-            for n, a in found:
-                area_by_net[n] += a
+    for found in candidate_areas:
+        for n, a in found:
+            area_by_net[n] += a
     gnd = max(area_by_net.items(), key=lambda kv: (kv[1], kv[0]))[0]
     return gnd, area_by_net[gnd]
 
 
-def _ground_and_power(layers, net_class, big, runner, size):
-    """Ground by copper area when no net is named like one; signal nets with a plane-sized island
-    become power nets. Returns the notes that say so."""
+def _ground_and_power(net_class, big, candidate_areas=None):
+    """Ground by copper area when no net is named like one (candidate_areas: each layer's
+    _candidate_areas, given then); signal nets with a plane-sized island become power nets.
+    Returns the notes that say so."""
     notes = []
-    if not any(c == "ground" for c in net_class.values()) and any(
-        ln.n_islands for ln in layers.values()
-    ):
-        gnd, area = _ground_by_copper(layers, runner, size)
+    if candidate_areas is not None:
+        gnd, area = _ground_by_copper(candidate_areas)
         net_class[gnd] = "ground"
         notes.append(
             f"no net is named like a ground: {gnd}, the net with the most copper "

@@ -14,6 +14,7 @@ from returngap.analysis import severity
 from returngap.analysis.gaps import OTHER_PLANE_COVER, coords_along_lines
 from returngap.analysis.references import line_z0
 from returngap.checks.common import finding
+from returngap.geometry.reach import Reach
 from returngap.geometry.shapes import disjoint_union, near_clusters
 
 __all__ = ["edge_runs"]
@@ -106,11 +107,31 @@ def _merge(runs, settings):
 
 
 def _plane_edges(nets, ref_layer, edges):
+    """(plane copper without its holes, tree of its edge's straight pieces, those pieces as an
+    (N, 4) array), built once per reference layer."""
     if ref_layer not in edges:
         outer = _filled(nets.layers[ref_layer].union_of(nets.plane_nets))
         shapely.prepare(outer)
-        edges[ref_layer] = (outer, _segment_tree(outer.boundary))
+        pieces = _edge_pieces(outer.boundary)
+        edges[ref_layer] = (outer, shapely.STRtree(_as_lines(pieces)), pieces)
     return edges[ref_layer]
+
+
+# a Reach of an edge costs about this share of a bounded tree search per point to build, per
+# piece of the edge (measured on the corpus): it pays where more samples than that are measured
+REACH_BUILD_SHARE = 0.7
+
+
+def _edge_reach(edges, ref_layer, limit, samples):
+    """The edge's pieces indexed for distances within `limit` (built once per layer and limit), or
+    None where `samples` points are too few to pay for building it (see _measure)."""
+    key = (ref_layer, limit)
+    if key not in edges:
+        pieces = edges[ref_layer][2]
+        if samples < REACH_BUILD_SHARE * len(pieces):
+            return None
+        edges[key] = Reach(pieces, limit)
+    return edges[key]
 
 
 def _sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges):
@@ -122,7 +143,7 @@ def _sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges):
     keep = np.array([n is not None for n in ref_nets])
     if not keep.any():
         return {}
-    outer, edge_tree = _plane_edges(nets, ref.layer, edges)
+    outer, edge_tree, _ = _plane_edges(nets, ref.layer, edges)
     limit = hs.edge_distance_h * ref.h_mm
     near_edge = np.zeros(len(idx), dtype=bool)
     # long lines: a bounded nearest search prunes more of the tree than a distance query does
@@ -137,7 +158,8 @@ def _sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges):
     xy = coords_along_lines(sub, dists)
     ends = np.cumsum([0] + [len(x) for x in dists])
     look = _samples_to_look_at(sub, dists, outer, edge_tree, limit)
-    inside, d = _measure(xy, look, outer, edge_tree, limit, ends)
+    reach = _edge_reach(edges, ref.layer, limit, int(look.sum()))
+    inside, d = _measure(xy, look, outer, edge_tree, reach or limit, ends)
     out = {}
     for j, t in enumerate(todo):
         a, b = ends[j], ends[j + 1]
@@ -177,10 +199,11 @@ def _end_runs_off(inside, ends):
     return out
 
 
-def _measure(xy, look, outer, edge_tree, limit, ends=None):
-    """Per sample: on the plane, and the distance to its edge (exact within the limit, and for every
-    sample off the plane; with `ends`, the tracks' sample ranges, for those in a stretch off the
-    plane at a track's end only: _end_runs_off; infinite elsewhere). Only the samples `look`
+def _measure(xy, look, outer, edge_tree, reach, ends=None):
+    """Per sample: on the plane, and the distance to its edge: exact within the reach (a Reach of
+    the edge's pieces, or a distance for a bounded search of the edge's tree), and for every
+    sample off the plane (with `ends`, the tracks' sample ranges: for those in a stretch off the
+    plane at a track's end only, see _end_runs_off); infinite elsewhere. Only the samples `look`
     marks are measured."""
     at = np.flatnonzero(look)
     inside = np.ones(len(xy), dtype=bool)
@@ -189,10 +212,13 @@ def _measure(xy, look, outer, edge_tree, limit, ends=None):
         return inside, d
     pts = shapely.points(xy[at])
     inside[at] = shapely.intersects(outer, pts)
-    (k, _), dist = edge_tree.query_nearest(
-        pts, max_distance=limit, return_distance=True, all_matches=False
-    )
-    d[at[k]] = dist
+    if isinstance(reach, Reach):
+        d[at] = reach.distances(xy[at])
+    else:  # a bounded search of the edge's tree, the same distances
+        (k, _), dist = edge_tree.query_nearest(
+            pts, max_distance=reach, return_distance=True, all_matches=False
+        )
+        d[at[k]] = dist
     want = _end_runs_off(inside, ends)[at] if ends is not None else True
     off = np.flatnonzero(~inside[at] & np.isinf(d[at]) & want)
     if len(off):
@@ -304,14 +330,18 @@ def _over_other_plane(board, ch, ref, length, cover, own_nH):
     return rise + own_nH * (1.0 - cover)
 
 
-def _segment_tree(lines):
-    """STRtree of the two-point pieces of a (multi)line: nearest-distance queries in log time, where
-    the distance to one large boundary costs a pass over all its vertices."""
+def _edge_pieces(lines):
+    """The two-point pieces of a (multi)line as an (N, 4) array: nearest-distance queries go by
+    them in log time, where the distance to one large boundary costs a pass over all its
+    vertices."""
     parts = shapely.get_parts(lines)
     xy, idx = shapely.get_coordinates(parts, return_index=True)
     same = idx[1:] == idx[:-1]
-    segs = shapely.linestrings(np.stack([xy[:-1][same], xy[1:][same]], axis=1))
-    return shapely.STRtree(segs)
+    return np.column_stack([xy[:-1][same], xy[1:][same]])
+
+
+def _as_lines(pieces):
+    return shapely.linestrings(pieces.reshape(-1, 2, 2))
 
 
 def _filled(copper):
