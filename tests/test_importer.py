@@ -278,3 +278,39 @@ def test_each_stroke_knows_the_piece_it_drew(tmp_path):
     got = connectivity._segment_islands(layer, piece_island, tree)
     want = connectivity._island_index(piece_island, tree, shapely.get_coordinates(mid))
     assert got.tolist() == want.tolist()
+
+
+DECIMAL_NPTH = "M48\nINCH\nT1C0.0669\n%\nG90\nG05\nT1\nX4.9003Y-2.622\nX4.9003Y-2.8976\nT0\nM30\n"
+
+
+def test_decimal_drill_values_read_alike_in_every_number_format():
+    # gerbonara (the reference) reads a value written with its decimal point the same whatever
+    # number format and zero suppression it is told: the premise for trying one per unit
+    from gerbonara import ExcellonFile
+    from gerbonara.cam import FileSettings
+
+    from returngap.io.excellon import EXCELLON_CANDIDATES, _drill_points
+
+    seen = {}
+    for unit, nf, zeros in EXCELLON_CANDIDATES:
+        d = ExcellonFile.from_string(
+            DECIMAL_NPTH, settings=FileSettings(unit=unit, number_format=nf, zeros=zeros)
+        )
+        seen.setdefault(str(unit), set()).add(_drill_points(d).tobytes())
+    assert all(len(v) == 1 for v in seen.values()) and len(seen) == 2
+
+
+def test_format_search_tries_one_reading_per_unit_only_for_decimal_values():
+    from gerbonara import ExcellonFile
+    from gerbonara.utils import MM, Inch
+
+    from returngap.io.excellon import EXCELLON_CANDIDATES, _candidates
+
+    first = ExcellonFile.from_string(DECIMAL_NPTH)
+    assert _candidates(DECIMAL_NPTH, first, Inch) == []  # the first reading was the only one
+    assert [c[0] for c in _candidates(DECIMAL_NPTH, None, None)] == [MM, Inch]
+    assert _candidates(DECIMAL_NPTH.replace("INCH\n", ""), first, None) == [EXCELLON_CANDIDATES[0]]
+    coded = DECIMAL_NPTH.replace("X4.9003Y-2.622", "X049003Y-02622")
+    assert len(_candidates(coded, first, Inch)) == len(EXCELLON_CANDIDATES) // 2
+    tool = DECIMAL_NPTH.replace("T1C0.0669", "T1C00669")  # a digits-only tool size counts too
+    assert len(_candidates(tool, first, None)) == len(EXCELLON_CANDIDATES)

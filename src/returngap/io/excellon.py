@@ -79,9 +79,7 @@ def parse_drill(fab, text, copper_region, notes):
         else (Inch if re.search(r"^\s*INCH", text, re.M) else None)
     )
     best, best_score, best_desc = d, score, None
-    for unit, nf, zeros in EXCELLON_CANDIDATES:
-        if declared_unit is not None and unit != declared_unit:
-            continue
+    for unit, nf, zeros in _candidates(text, d, declared_unit):
         try:
             cand = attempt(FileSettings(unit=unit, number_format=nf, zeros=zeros))
         except Exception:
@@ -102,6 +100,27 @@ def parse_drill(fab, text, copper_region, notes):
             f"({best_score:.0%} of holes land on outer-layer copper)"
         )
     return best, best_desc or ""
+
+
+# a value written as digits only (no decimal point), whose reading depends on the number format
+_CODED_VALUE_RE = re.compile(r"[XYIJAC][+-]?\d+(?![\d.])")
+
+
+def _candidates(text, first, declared_unit):
+    """The number formats worth trying: EXCELLON_CANDIDATES of the declared unit (any unit when
+    none is). Where every value is written with its decimal point, the number format and the
+    zeros omitted change nothing, so one candidate per unit is enough, and none of the unit the
+    first reading (`first`, when there is one) already used."""
+    cands = [c for c in EXCELLON_CANDIDATES if declared_unit is None or c[0] == declared_unit]
+    body = "\n".join(line for line in text.splitlines() if not line.lstrip().startswith(";"))
+    if _CODED_VALUE_RE.search(body):
+        return cands
+    used = getattr(getattr(first, "import_settings", None), "unit", None) if first else None
+    units = []
+    for c in cands:
+        if c[0] not in units and c[0] != used:
+            units.append(c[0])
+    return [next(c for c in cands if c[0] == u) for u in units]
 
 
 TA_TOOL_RE = re.compile(r"#@! TA\.AperFunction,([^\r\n]*)\r?\n\s*T(\d+)C([\d.]+)")

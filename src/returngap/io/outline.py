@@ -154,8 +154,13 @@ def fit(sample, poly):
     share, inside = _contained(sample, poly)
     b = sample.boxes[inside]
     pts = np.concatenate([b[:, [0, 1]], b[:, [2, 1]], b[:, [2, 3]], b[:, [0, 3]]])
-    hull = shapely.MultiPoint(pts).convex_hull if len(pts) >= 3 else shapely.Polygon()
+    hull = _hull(pts)
     return share, (poly.area / hull.area if hull.area > 0 else float("inf"))
+
+
+def _hull(pts):
+    """The convex hull of an (n, 2) array of points (made into one MultiPoint in one call)."""
+    return shapely.convex_hull(shapely.multipoints(pts)) if len(pts) >= 3 else shapely.Polygon()
 
 
 def _cutouts(shell, loops_list, sample):
@@ -317,7 +322,7 @@ def pick_outline(roles, bf, texts, layers, tol, notes, problems):
         [shapely.get_coordinates(shapely.convex_hull(c.pieces)) for c in layers if len(c.pieces)]
         or [np.zeros((0, 2))]
     )
-    hull = shapely.MultiPoint(pts).convex_hull if len(pts) >= 3 else shapely.Polygon()
+    hull = _hull(pts)
     tried = ", ".join(n for n, _, _ in cands) or "none"
     notes.append(
         f"no closed outline holds the copper (files tried: {tried}); board outline taken as the "

@@ -18,6 +18,7 @@ import math
 import warnings
 
 import numpy as np
+import scipy.constants  # noqa: F401  scikit-rf loads it at its first unit conversion, once per worker
 import skrf
 from skrf.media import DefinedGammaZ0, MLine
 
