@@ -123,10 +123,8 @@ class LayerNets:
             polys = np.empty(len(need), dtype=object)
             one = size == 1
             polys[one] = self.pieces[self._order[self._start[need[one]]]]
-            # planes and pours (many pieces, or a pour-sized one among a few): most pads drawn on
-            # them add nothing, and one union of the rest with the largest piece skips them
-            many = (size > 16) | ((size > 2) & (self.piece_area_bounds()[1][need] >= POUR_MIN_MM2))
-            for k in np.flatnonzero(many):
+            many = size > 16
+            for k in np.flatnonzero(many):  # planes and pours: most pads drawn on them add nothing
                 m = self.pieces[self.members(need[k])]
                 at = int(np.argmax(shapely.area(m)))
                 big, rest = m[at], np.delete(m, at)
