@@ -414,6 +414,15 @@ class _GapScan:
         self._copper = {}
         self._own = {}
 
+    def shared(self, layer, routed):
+        """What both processes of a scan would each build when they first need it, built once
+        beforehand: the layer's reference copper with every gap shrunk by the hair (passable), and
+        where tracks run on it (routed), the plane copper beside them (_own_plane)."""
+        rc = self.copper(layer)
+        rc.shrunk(np.arange(len(rc.voids)))
+        if routed:
+            self._own_plane(layer)
+
     def copper(self, ref_layer):
         rc = self._copper.get(ref_layer)
         if rc is None:
@@ -653,8 +662,13 @@ def prepared_scan(board, nets, refs, chains, settings, workers=1, runner=SERIAL)
     if workers <= 1:
         return scan, chain_plane_nets(nets, chains, runner)
     shapely.prepare(board.outline)  # shared by the threads: prepared once, beforehand
+    routed = {ch.layer for ch in chains}
     return scan, chain_plane_nets(
-        nets, chains, runner, first=scan.copper, work=board.track_segments
+        nets,
+        chains,
+        runner,
+        first=lambda layer: scan.shared(layer, layer in routed),
+        work=board.track_segments,
     )
 
 
