@@ -249,6 +249,9 @@ def test_no_two_jobs_of_one_pool_share_a_layer(monkeypatch):
         def threads(self, work=0):
             return pool
 
+        def threaded(self, work=0):
+            return True  # the scan set-up then also builds what both processes share
+
     seen = {}  # (pool call, job) -> layers whose pieces or copper it used
     real_touching = connectivity.touching
 
@@ -265,6 +268,14 @@ def test_no_two_jobs_of_one_pool_share_a_layer(monkeypatch):
         return real_copper(scan, layer)
 
     monkeypatch.setattr(gaps._GapScan, "copper", copper)
+    real_own = gaps._GapScan._own_plane
+
+    def own_plane(scan, layer):
+        if pool.job is not None:
+            seen.setdefault(pool.job, set()).add(id(scan.nets.layers[layer].pieces))
+        return real_own(scan, layer)
+
+    monkeypatch.setattr(gaps._GapScan, "_own_plane", own_plane)
     nets = connectivity.build_nets(board, cfg, Runner())
     from returngap.analysis import references
     from returngap.model.settings import Settings

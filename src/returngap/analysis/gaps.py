@@ -398,6 +398,9 @@ def slot_geometry(void, mid, tangent, reach, aspect_limit):
     return dict(length=l1 + l2, width=None, l1=l1, l2=l2, end1=end1, end2=end2, elongated=True)
 
 
+SHARED_MIN_VERTICES = 64  # a gap drawn with this many vertices is shrunk before the fork (ours)
+
+
 class _GapScan:
     """What every chain's gap scan shares: the reference copper of each plane layer (built once) and
     the holes of each net."""
@@ -416,10 +419,11 @@ class _GapScan:
 
     def shared(self, layer, routed):
         """What both processes of a scan would each build when they first need it, built once
-        beforehand: the layer's reference copper with every gap shrunk by the hair (passable), and
-        where tracks run on it (routed), the plane copper beside them (_own_plane)."""
+        beforehand: the layer's reference copper with its large gaps shrunk by the hair
+        (passable; a small one, an antipad, costs little where it is needed), and where tracks
+        run on it (routed), the plane copper beside them (_own_plane)."""
         rc = self.copper(layer)
-        rc.shrunk(np.arange(len(rc.voids)))
+        rc.shrunk(np.flatnonzero(shapely.get_num_coordinates(rc.void_geoms) >= SHARED_MIN_VERTICES))
         if routed:
             self._own_plane(layer)
 
@@ -663,13 +667,15 @@ def prepared_scan(board, nets, refs, chains, settings, workers=1, runner=SERIAL)
         return scan, chain_plane_nets(nets, chains, runner)
     shapely.prepare(board.outline)  # shared by the threads: prepared once, beforehand
     routed = {ch.layer for ch in chains}
-    return scan, chain_plane_nets(
-        nets,
-        chains,
-        runner,
-        first=lambda layer: scan.shared(layer, layer in routed),
-        work=board.track_segments,
+    work = board.track_segments
+    # what both processes would build (scan.shared) is worth building here only where the
+    # layers share two threads; in this thread alone it costs what each process spends on it
+    first = (
+        (lambda layer: scan.shared(layer, layer in routed))
+        if runner.threaded(work)
+        else scan.copper
     )
+    return scan, chain_plane_nets(nets, chains, runner, first=first, work=work)
 
 
 def gap_scan_tasks(scan, chains, plane_nets_of, workers=1):

@@ -35,5 +35,9 @@ class Serial:
         """A pool (with .map) for per-layer geometry worth `work` track segments."""
         return InOrder()
 
+    def threaded(self, work=0):
+        """Whether threads(work) gives a pool of more than one thread."""
+        return False
+
 
 SERIAL = Serial()

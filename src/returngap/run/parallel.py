@@ -96,6 +96,9 @@ class Parallel:
     def threads(self, work=0):
         return two_threads(work)
 
+    def threaded(self, work=0):
+        return work >= THREADS_MIN_SEGMENTS
+
 
 def fork_map(task, n, workers, pack=None, unpack=None):
     """[task(0), ..., task(n-1)]; with more than one worker, this process and one forked child take
