@@ -14,6 +14,7 @@ from returngap.analysis import severity
 from returngap.analysis.gaps import OTHER_PLANE_COVER, coords_along_lines
 from returngap.analysis.references import line_z0
 from returngap.checks.common import finding
+from returngap.geometry.cuts import ring_edges
 from returngap.geometry.reach import Reach
 from returngap.geometry.shapes import disjoint_union, near_clusters
 
@@ -112,7 +113,7 @@ def _plane_edges(nets, ref_layer, edges):
     if ref_layer not in edges:
         outer = _filled(nets.layers[ref_layer].union_of(nets.plane_nets))
         shapely.prepare(outer)
-        pieces = _edge_pieces(outer.boundary)
+        pieces = ring_edges(outer)  # nearest-distance queries by piece go in log time
         edges[ref_layer] = (outer, shapely.STRtree(_as_lines(pieces)), pieces)
     return edges[ref_layer]
 
@@ -328,16 +329,6 @@ def _over_other_plane(board, ch, ref, length, cover, own_nH):
         ch.width_mm, ref.h_mm, ref.other_h_mm, t, length * cover
     )
     return rise + own_nH * (1.0 - cover)
-
-
-def _edge_pieces(lines):
-    """The two-point pieces of a (multi)line as an (N, 4) array: nearest-distance queries go by
-    them in log time, where the distance to one large boundary costs a pass over all its
-    vertices."""
-    parts = shapely.get_parts(lines)
-    xy, idx = shapely.get_coordinates(parts, return_index=True)
-    same = idx[1:] == idx[:-1]
-    return np.column_stack([xy[:-1][same], xy[1:][same]])
 
 
 def _as_lines(pieces):

@@ -78,7 +78,11 @@ def two_threads(segments):
     go of the GIL in its vectorised calls), or, below THREADS_MIN_SEGMENTS, a stand-in that does the
     same work in this thread: on a small board the threads' turns at the interpreter cost more than
     the second core gives (a 2,500-segment board checks about a tenth faster without them)."""
-    return ThreadPoolExecutor(2) if segments >= THREADS_MIN_SEGMENTS else InOrder()
+    return ThreadPoolExecutor(2) if _threaded(segments) else InOrder()
+
+
+def _threaded(segments):
+    return segments >= THREADS_MIN_SEGMENTS
 
 
 class Parallel:
@@ -97,7 +101,7 @@ class Parallel:
         return two_threads(work)
 
     def threaded(self, work=0):
-        return work >= THREADS_MIN_SEGMENTS
+        return _threaded(work)
 
 
 def fork_map(task, n, workers, pack=None, unpack=None):
