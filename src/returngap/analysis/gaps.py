@@ -24,7 +24,7 @@ from returngap.analysis import severity
 from returngap.analysis.references import footprint_halfwidth, footprint_polygon, line_z0
 from returngap.geometry.cuts import cut_intervals, ring_edges
 from returngap.geometry.gridpath import CELLS, Lattice, lattice_way
-from returngap.geometry.shapes import outline_pieces
+from returngap.geometry.shapes import outline_pieces, points_hull
 from returngap.model.findings import UNSET, GapCrossing
 from returngap.model.runner import SERIAL
 
@@ -865,7 +865,7 @@ def _hull_ring(ends, pts):
     """The convex hull of the two ends and pts, as its ring's points (the closing one aside), with
     the positions of the two ends on it; None where the hull is not a polygon or an end is not on
     its ring (it lies inside)."""
-    hull = shapely.convex_hull(shapely.multipoints(np.vstack([ends, pts])))
+    hull = points_hull(np.vstack([ends, pts]))
     if hull.geom_type != "Polygon":
         return None
     ring = shapely.get_coordinates(hull.exterior)[:-1]

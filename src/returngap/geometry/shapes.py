@@ -33,6 +33,7 @@ __all__ = [
     "merge_pieces",
     "disjoint_union",
     "place_all",
+    "points_hull",
     "outline_pieces",
     "ranges",
 ]
@@ -277,6 +278,13 @@ def place_all(bases, xy):
         np.asarray(xy, dtype=float).reshape(-1, 2), shapely.get_num_coordinates(geoms), axis=0
     )
     return list(shapely.transform(geoms, lambda c: c + off))
+
+
+def points_hull(pts):
+    """The convex hull of an (n, 2) array of points (n >= 2), taken of one line through them all:
+    GEOS hulls the vertices, so it is the same to the bit as the hull of a MultiPoint of them, and
+    about ten times faster to make (no point geometry per point)."""
+    return shapely.convex_hull(shapely.linestrings(pts))
 
 
 def near_clusters(xy, reach):

@@ -15,7 +15,14 @@ from returngap.errors import InputError
 from returngap.io import compat
 from returngap.model.board import DrillFile
 
-__all__ = ["EXCELLON_CANDIDATES", "parse_drill", "TA_TOOL_RE", "tool_attributes", "build_drill"]
+__all__ = [
+    "EXCELLON_CANDIDATES",
+    "first_reading",
+    "parse_drill",
+    "TA_TOOL_RE",
+    "tool_attributes",
+    "build_drill",
+]
 
 compat.apply()
 
@@ -51,21 +58,26 @@ def _inside_fraction(pts, region):
     return float(len(np.unique(hit)) / len(pts))
 
 
-def parse_drill(fab, text, copper_region, notes):
-    """Excellon via gerbonara; when the header is silent or the holes land off the board,
-    try the usual number formats and keep the one whose holes fall on the copper."""
+def _attempt(fab, text, settings):
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return ExcellonFile.from_string(text, settings=settings, filename=fab.name)
 
-    def attempt(settings):
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            return ExcellonFile.from_string(text, settings=settings, filename=fab.name)
 
-    first_error = None
-    d = None
+def first_reading(fab, text):
+    """(gerbonara's reading of a drill file as its header says, or None; the error it gave, or
+    None): needs no copper, so it can be done before the copper is read."""
     try:
-        d = attempt(None)
+        return _attempt(fab, text, None), None
     except Exception as e:
-        first_error = e
+        return None, e
+
+
+def parse_drill(fab, text, copper_region, notes, first=None):
+    """Excellon via gerbonara; when the header is silent or the holes land off the board,
+    try the usual number formats and keep the one whose holes fall on the copper. first: the
+    file's first_reading, when already made."""
+    d, first_error = first if first is not None else first_reading(fab, text)
     if d is not None:
         score = _inside_fraction(_drill_points(d), copper_region)
         if score >= 0.9 or len(d.objects) == 0 or copper_region is None:
@@ -81,7 +93,7 @@ def parse_drill(fab, text, copper_region, notes):
     best, best_score, best_desc = d, score, None
     for unit, nf, zeros in _candidates(text, d, declared_unit):
         try:
-            cand = attempt(FileSettings(unit=unit, number_format=nf, zeros=zeros))
+            cand = _attempt(fab, text, FileSettings(unit=unit, number_format=nf, zeros=zeros))
         except Exception:
             continue
         sc = _inside_fraction(_drill_points(cand), copper_region)

@@ -14,7 +14,7 @@ import shapely
 from returngap.errors import InputError
 from returngap.geometry import shapes
 from returngap.io import drillspans, outline
-from returngap.io.excellon import build_drill, parse_drill
+from returngap.io.excellon import build_drill, first_reading, parse_drill
 from returngap.io.gerber import build_layer, check_extent, parse_gerber, truncation
 from returngap.io.inputs import BoardFiles
 from returngap.io.ipc356 import parse_netlist
@@ -79,12 +79,14 @@ def _copper_layer(fab, text, role, provisional, tol):
     return layer, notes, problems
 
 
-def _copper_layers(by_name, texts, copper_roles, provisional, tol, runner, per_layer=None):
+def _copper_layers(
+    by_name, texts, copper_roles, provisional, tol, runner, per_layer=None, first=None
+):
     """Every copper layer, top to bottom, each passed to per_layer (when given) as soon as it is
     built. The layers are independent, so a large board's are read on both cores, largest file
     first so the two processes finish together. (Only shapely geometry and plain arrays come back
     from the other process: gerbonara's objects compare units by identity, which pickling
-    breaks.)"""
+    breaks.) first: work of this process alone, done while the other starts on the layers."""
     size = sum(len(texts[name]) for name, _ in copper_roles)
     order = sorted(range(len(copper_roles)), key=lambda k: -len(texts[copper_roles[k][0]]))
 
@@ -95,7 +97,7 @@ def _copper_layers(by_name, texts, copper_roles, provisional, tol, runner, per_l
             per_layer(layer)
         return layer, notes, problems
 
-    done = runner.tasks(task, len(order), "copper-layers", size, _packed, _unpacked)
+    done = runner.tasks(task, len(order), "copper-layers", size, _packed, _unpacked, first)
     out = [None] * len(order)
     for j, k in enumerate(order):
         out[k] = done[j]
@@ -230,8 +232,11 @@ def load_board(
         notes, problems = [], []
         job, job_name = _job(bf, texts)
         roles, stated, copper_roles = _roles(bf, texts, job, user_layers, notes)
+        ahead = _ReadAhead(roles, bf, texts, chord_tol_mm)
         build = (bf, texts, chord_tol_mm, runner, per_layer, notes, problems)
-        layers, board_outline, outline_file, why = _copper_and_outline(roles, copper_roles, *build)
+        layers, board_outline, outline_file, why = _copper_and_outline(
+            roles, copper_roles, ahead, *build
+        )
         _complete_stack(layers, bf, job, copper_roles, stated, problems)
         board = Board(
             name=bf.name,
@@ -245,7 +250,7 @@ def load_board(
             outline_file=outline_file,
             outline_why=why,
         )
-        _drills(board, roles, bf, texts, notes, problems)
+        _drills(board, roles, bf, texts, notes, problems, ahead.drills)
         for f in bf.fab:
             if f.kind == "ipc356":
                 board.netlist.extend(parse_netlist(f))
@@ -294,9 +299,28 @@ def _roles(bf, texts, job, user_layers, notes):
     return roles, stated, copper_roles
 
 
-def _copper_and_outline(roles, copper_roles, bf, texts, tol, runner, per_layer, notes, problems):
+class _ReadAhead:
+    """What of the reading needs no copper: the outline candidates' parse and loops and each drill
+    file's first reading, made by this process while the other starts on the copper layers."""
+
+    def __init__(self, roles, bf, texts, tol):
+        self.roles, self.bf, self.texts, self.tol = roles, bf, texts, tol
+        self.outline, self.drills = None, {}
+
+    def __call__(self):
+        by_name = {f.name: f for f in self.bf.fab}
+        self.outline = outline.read_candidates(self.roles, self.bf, self.texts, self.tol)
+        for name, role in self.roles.items():
+            if role.kind == "drill":
+                self.drills[name] = first_reading(by_name[name], self.texts[name])
+
+
+def _copper_and_outline(
+    roles, copper_roles, ahead, bf, texts, tol, runner, per_layer, notes, problems
+):
     """The copper layers and the board outline: positive layers first (the outline is chosen by the
-    copper it holds), then negative ones (profile minus what they draw)."""
+    copper it holds), then negative ones (profile minus what they draw). ahead: the reading that
+    needs no copper, done beside the positive layers."""
     by_name = {f.name: f for f in bf.fab}
     positive = [(n, r) for n, r in copper_roles if r.polarity != "negative"]
     negative = [(n, r) for n, r in copper_roles if r.polarity == "negative"]
@@ -308,10 +332,8 @@ def _copper_and_outline(roles, copper_roles, bf, texts, tol, runner, per_layer, 
             notes.extend(layer_notes)
             problems.extend(layer_problems)
 
-    add(_copper_layers(by_name, texts, positive, None, tol, runner, per_layer))
-    board_outline, outline_file, why = outline.pick_outline(
-        roles, bf, texts, layers, tol, notes, problems
-    )
+    add(_copper_layers(by_name, texts, positive, None, tol, runner, per_layer, ahead))
+    board_outline, outline_file, why = outline.pick_outline(ahead.outline, layers, notes, problems)
     if negative:
         add(_copper_layers(by_name, texts, negative, board_outline, tol, runner, per_layer))
     return layers, board_outline, outline_file, why
@@ -336,7 +358,7 @@ def _complete_stack(layers, bf, job, copper_roles, stated, problems):
     _sides(layers)
 
 
-def _drills(board, roles, bf, texts, notes, problems):
+def _drills(board, roles, bf, texts, notes, problems, firsts):
     """Every drill file with its span and plating; the other files listed as recognised."""
     n = len(board.copper)
     real = [c for c in board.copper if not c.missing]
@@ -357,7 +379,7 @@ def _drills(board, roles, bf, texts, notes, problems):
         if role.kind != "drill":
             continue
         f = by_name[name]
-        d, fmt = parse_drill(f, texts[name], region, notes)
+        d, fmt = parse_drill(f, texts[name], region, notes, firsts.get(name))
         span, span_source = drillspans.drill_span(name, role, n, side)
         drill, unknown = _guarded(
             name, build_drill, f, d, role, n, texts[name], fmt, span, span_source

@@ -24,6 +24,7 @@ from returngap.model.board import Problem
 
 __all__ = [
     "CopperSample",
+    "Candidates",
     "Loops",
     "OutlineChoice",
     "choose",
@@ -31,6 +32,7 @@ __all__ = [
     "copper_sample",
     "fit",
     "pick_outline",
+    "read_candidates",
 ]
 
 WELD_MM = 0.005  # stroke ends closer than this are one point (writers round differently)
@@ -159,8 +161,8 @@ def fit(sample, poly):
 
 
 def _hull(pts):
-    """The convex hull of an (n, 2) array of points (made into one MultiPoint in one call)."""
-    return shapely.convex_hull(shapely.multipoints(pts)) if len(pts) >= 3 else shapely.Polygon()
+    """The convex hull of an (n, 2) array of points."""
+    return shapes.points_hull(pts) if len(pts) >= 3 else shapely.Polygon()
 
 
 def _cutouts(shell, loops_list, sample):
@@ -278,18 +280,46 @@ MECHANICAL_NAME_RE = re.compile(
 )
 
 
-def pick_outline(roles, bf, texts, layers, tol, notes, problems):
-    """The board outline (see outline.py) and where it came from. A profile the user names is used
-    as named; when nothing fits, the copper's own extent stands in, stated."""
+@dataclass
+class Candidates:
+    """The profile and mechanical files, read before the copper is (their reading needs none of
+    it): (file, loops, rank, object count) of each that draws a closed loop, whether the stackup
+    file names one, every file tried, the notes their reading gave, and an error to raise when
+    the outline is chosen."""
+
+    looked: list
+    user: bool
+    tried: list
+    notes: list
+    error: Exception | None = None
+
+
+def read_candidates(roles, bf, texts, tol):
+    """Every outline candidate file parsed and its loops found (the stackup file's own when it
+    names one)."""
+    notes = []
+    try:
+        cands = _profile_candidates(roles, bf, texts, notes, {})
+        user = [c for c in cands if c[1] == 0]
+        looked = []
+        for name, rank, g in user or cands:
+            loops = loops_of(g, tol)
+            if loops is not None:
+                looked.append((name, loops, rank, len(g.objects)))
+    except Exception as e:  # raised where the outline is chosen, as if read there
+        return Candidates([], False, [], notes, e)
+    return Candidates(looked, bool(user), [n for n, _, _ in cands], notes)
+
+
+def pick_outline(candidates, layers, notes, problems):
+    """The board outline (see outline.py) and where it came from, from the candidates read by
+    read_candidates. A profile the user names is used as named; when nothing fits, the copper's
+    own extent stands in, stated."""
     sample = copper_sample(layers)
-    cache = {}
-    cands = _profile_candidates(roles, bf, texts, notes, cache)
-    user = [c for c in cands if c[1] == 0]
-    looked = []
-    for name, rank, g in user or cands:
-        loops = loops_of(g, tol)
-        if loops is not None:
-            looked.append((name, loops, rank, len(g.objects)))
+    notes.extend(candidates.notes)
+    if candidates.error is not None:
+        raise candidates.error
+    looked, user = candidates.looked, candidates.user
     if looked and not len(sample.xy):  # only negative copper: nothing to test a loop against yet
         name, loops = looked[0][0], looked[0][1]
         return (
@@ -323,7 +353,7 @@ def pick_outline(roles, bf, texts, layers, tol, notes, problems):
         or [np.zeros((0, 2))]
     )
     hull = _hull(pts)
-    tried = ", ".join(n for n, _, _ in cands) or "none"
+    tried = ", ".join(candidates.tried) or "none"
     notes.append(
         f"no closed outline holds the copper (files tried: {tried}); board outline taken as the "
         "convex hull of all copper"

@@ -26,9 +26,13 @@ class Serial:
         """How many processes `tasks` would use for `work` units of this kind of work."""
         return 1
 
-    def tasks(self, task, n, kind="", work=0, pack=None, unpack=None):
+    def tasks(self, task, n, kind="", work=0, pack=None, unpack=None, first=None):
         """[task(0), ..., task(n - 1)]. pack / unpack: what a result needs to cross between
-        processes (and back), where a runner uses more than one."""
+        processes (and back), where a runner uses more than one. first: work of this process
+        alone (it keeps what that work leaves), done before its first task; a runner of two
+        processes lets the other one start on the tasks meanwhile."""
+        if first is not None:
+            first()
         return [task(k) for k in range(n)]
 
     def threads(self, work=0):

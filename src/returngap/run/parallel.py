@@ -94,8 +94,8 @@ class Parallel:
     def processes(self, kind, work):
         return 1 if work < POLICY[kind] else workers_for(self.workers)
 
-    def tasks(self, task, n, kind, work=0, pack=None, unpack=None):
-        return fork_map(task, n, self.processes(kind, work), pack, unpack)
+    def tasks(self, task, n, kind, work=0, pack=None, unpack=None, first=None):
+        return fork_map(task, n, self.processes(kind, work), pack, unpack, first)
 
     def threads(self, work=0):
         return two_threads(work)
@@ -104,18 +104,21 @@ class Parallel:
         return _threaded(work)
 
 
-def fork_map(task, n, workers, pack=None, unpack=None):
+def fork_map(task, n, workers, pack=None, unpack=None, first=None):
     """[task(0), ..., task(n-1)]; with more than one worker, this process and one forked child take
     the tasks in turn from a shared queue (uneven tasks balance themselves), and the child sends
     its results back pickled (pack(result) there, unpack(...) here, when given). In this process
     alone when only one worker, or when no child can be started. Tasks the child did not finish
     (it failed, died or fell silent) are done here, in order, so that an exception in a task is
-    raised here as it would be in one process."""
+    raised here as it would be in one process. first (when given) is this process's own work,
+    done here before it takes a task: the child starts on the tasks meanwhile."""
     if workers > 1 and 1 < n <= MAX_SHARED_TASKS:
         try:
-            return _shared(task, n, pack, unpack)
+            return _shared(task, n, pack, unpack, first)
         except _NoChild:
             pass
+    if first is not None:
+        first()
     return [task(k) for k in range(n)]
 
 
@@ -154,7 +157,7 @@ def _queue(n):
     return q, claim, stop
 
 
-def _shared(task, n, pack, unpack):
+def _shared(task, n, pack, unpack, first=None):
     try:
         r, w = os.pipe()
         q, claim, stop = _queue(n)
@@ -175,6 +178,8 @@ def _shared(task, n, pack, unpack):
     done, error, data = {}, None, b""
     try:
         try:
+            if first is not None:
+                first()
             while (k := claim()) < n:
                 done[k] = task(k)
         except BaseException as e:
