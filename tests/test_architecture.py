@@ -151,6 +151,28 @@ def test_a_silent_child_is_stopped_and_its_work_redone(forking_allowed, monkeypa
     assert time.monotonic() - t < 30
 
 
+def test_first_job_runs_once_here_while_the_child_takes_tasks(forking_allowed):
+    # the parent's own job runs before it takes a task: the child, started at once, takes the
+    # first tasks meanwhile; the job's effect stays in the parent, the results are those of one
+    # process
+    parent, seen, where = os.getpid(), [], {}
+
+    def first():
+        time.sleep(0.3)
+        seen.append(os.getpid())
+
+    def task(k):
+        return k, os.getpid()
+
+    done = parallel.fork_map(task, 8, 2, first=first)
+    assert [k for k, _ in done] == list(range(8))
+    for k, pid in done:
+        where[k] = pid
+    assert seen == [parent]
+    assert where[0] != parent  # taken by the child while the parent was busy with its own job
+    assert parallel.fork_map(task, 8, 1, first=first)[0] == (0, parent) and seen == [parent] * 2
+
+
 def test_a_task_error_is_raised_here_as_in_one_process(forking_allowed):
     def task(k):
         if k == 5:
