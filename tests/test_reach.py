@@ -1,8 +1,10 @@
 """Distances within a reach (geometry/reach.py) against shapely's own distance and tree search."""
 
 import numpy as np
+import pytest
 import shapely
 
+from returngap.geometry import reach as reach_module
 from returngap.geometry.reach import Reach, point_segment_distance
 
 
@@ -30,8 +32,11 @@ def test_point_segment_distance_equals_shapely_to_the_bit():
     assert np.array_equal(ours, theirs)
 
 
-def test_reach_equals_a_bounded_nearest_search():
-    # shapely's tree search with max_distance (distance <= reach counts) is the reference
+@pytest.mark.parametrize("block", [reach_module.BLOCK_POINTS, 7, 1])
+def test_reach_equals_a_bounded_nearest_search(block, monkeypatch):
+    # shapely's tree search with max_distance (distance <= reach counts) is the reference; the
+    # points measured in blocks of any size (a block of 7 ends in the middle of the case)
+    monkeypatch.setattr(reach_module, "BLOCK_POINTS", block)
     for seed, reach in ((3, 0.3), (4, 1.0), (5, 0.05)):
         segs, pts = _random_case(seed)
         tree = shapely.STRtree(shapely.linestrings(segs.reshape(-1, 2, 2)))

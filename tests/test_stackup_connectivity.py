@@ -289,3 +289,31 @@ def test_no_two_jobs_of_one_pool_share_a_layer(monkeypatch):
             by_call.setdefault((call, layer), 0)
             by_call[(call, layer)] += 1
     assert seen and max(by_call.values()) == 1
+
+
+@pytest.mark.parametrize("collide", [False, True])
+def test_strokes_along_edges_match_byte_for_byte(collide, monkeypatch):
+    # reference: numpy's own exact matching of the rows' bytes; with every hash made equal, the
+    # rows that share a hash are all compared whole
+    import numpy as np
+
+    rng = np.random.default_rng(11)
+    edges = np.round(rng.uniform(-5, 5, (300, 4)), 3)
+    strokes = np.vstack(
+        [
+            edges[:100],  # drawn as the edge
+            edges[100:150][:, [2, 3, 0, 1]],  # drawn backwards
+            np.round(rng.uniform(-5, 5, (100, 4)), 3),  # elsewhere
+            edges[150:160] + 1e-12,  # a hair off
+        ]
+    )
+    strokes[0, 0] = -0.0 if strokes[0, 0] == 0.0 else strokes[0, 0]
+    edges[1, 0], strokes[1, 0] = 0.0, -0.0  # the same number, other bytes
+    if collide:
+        monkeypatch.setattr(connectivity, "_row_hash", lambda a: np.zeros(len(a), np.uint64))
+    keys = connectivity._row_keys
+    want = np.isin(keys(strokes), np.concatenate([keys(edges), keys(edges[:, [2, 3, 0, 1]])]))
+    s = np.column_stack([strokes, np.full(len(strokes), 0.2)])
+    got = connectivity._along_region_edges(s, edges)
+    assert got.tolist() == want.tolist()
+    assert 140 <= want.sum() < 160

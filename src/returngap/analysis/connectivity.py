@@ -18,7 +18,7 @@ import shapely
 from returngap.geometry.shapes import (
     disjoint_union,
     intersects_pairs,
-    outline_pieces,
+    outline_segments,
     ranges,
     touch_components,
 )
@@ -376,18 +376,18 @@ def _pour_strokes(layer):
     s = layer.segments
     if not len(s) or not layer.regions:
         return np.zeros(len(s), dtype=bool)
-    pieces, edge_region = outline_pieces([r[0] for r in layer.regions])
-    out = _along_region_edges(s, pieces)  # nearly every one, where the writer drew them so
+    xy, edge_region = outline_segments([r[0] for r in layer.regions])
+    out = _along_region_edges(s, xy)  # nearly every one, where the writer drew them so
     rest = np.flatnonzero(~out)
     if not len(rest):
         return out
-    edge_tree = shapely.STRtree(pieces)
+    edge_tree = shapely.STRtree(shapely.linestrings(xy.reshape(-1, 2, 2)))
     ends = s[rest, :4].reshape(-1, 2, 2)
     n_reg = len(layer.regions)
     on_edge = None  # (stroke, region) keys whose three points all lie on that region's edge
-    for xy in (ends[:, 0], ends[:, 1], ends.mean(axis=1)):
+    for pts in (ends[:, 0], ends[:, 1], ends.mean(axis=1)):
         pt, e = edge_tree.query(
-            shapely.points(xy), predicate="dwithin", distance=POUR_STROKE_HAIR_MM
+            shapely.points(pts), predicate="dwithin", distance=POUR_STROKE_HAIR_MM
         )
         keys = np.unique(pt.astype(np.int64) * n_reg + edge_region[e])
         on_edge = keys if on_edge is None else np.intersect1d(on_edge, keys, assume_unique=True)
@@ -395,12 +395,36 @@ def _pour_strokes(layer):
     return out
 
 
-def _along_region_edges(s, pieces):
-    """Strokes (rows of s) drawn exactly from one end of a region's edge to the other, either way:
-    all three of their points lie on that edge (the test of _pour_strokes, passed at once)."""
-    xy = shapely.get_coordinates(pieces).reshape(-1, 4)
-    edges = np.concatenate([_row_keys(xy), _row_keys(xy[:, [2, 3, 0, 1]])])
-    return np.isin(_row_keys(s[:, :4]), edges)  # byte for byte: a -0.0 only takes the long way
+def _along_region_edges(s, edges):
+    """Strokes (rows of s) drawn exactly from one end of a region's edge (a row of `edges`, see
+    shapes.outline_segments) to the other, either way: all three of their points lie on that
+    edge (the test of _pour_strokes, passed at once). Rows match byte for byte (a -0.0 only takes
+    the long way), looked up by a hash of their bytes and then compared whole."""
+    if not len(edges):
+        return np.zeros(len(s), dtype=bool)
+    want = np.ascontiguousarray(s[:, :4], dtype=np.float64)
+    both = np.ascontiguousarray(np.concatenate([edges, edges[:, [2, 3, 0, 1]]]), dtype=np.float64)
+    h_want, h_both = _row_hash(want), _row_hash(both)
+    order = np.argsort(h_both, kind="stable")
+    at = np.minimum(np.searchsorted(h_both[order], h_want), len(order) - 1)
+    first = order[at]  # the first edge row of the stroke's hash, where there is one
+    hashed = h_both[first] == h_want
+    out = hashed & (want.view(np.uint64) == both[first].view(np.uint64)).all(axis=1)
+    odd = np.flatnonzero(hashed & ~out)  # two different rows under one hash: compare them all
+    if len(odd):
+        out[odd] = np.isin(_row_keys(want[odd]), _row_keys(both))
+    return out
+
+
+_HASH_MIX = np.array(
+    [0x9E3779B97F4A7C15, 0xC2B2AE3D27D4EB4F, 0x165667B19E3779F9, 0xD6E8FEB86659FD93],
+    dtype=np.uint64,
+)
+
+
+def _row_hash(a):
+    """A 64-bit mix of each row's four floats' bits (wrapping products and sums)."""
+    return (a.view(np.uint64) * _HASH_MIX).sum(axis=1, dtype=np.uint64)
 
 
 def _row_keys(a):

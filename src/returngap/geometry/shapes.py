@@ -35,6 +35,7 @@ __all__ = [
     "place_all",
     "points_hull",
     "outline_pieces",
+    "outline_segments",
     "ranges",
 ]
 
@@ -307,16 +308,22 @@ def near_clusters(xy, reach):
     return np.array([root(i) for i in range(len(pts))], dtype=int)
 
 
-def outline_pieces(polygons):
-    """The outlines of `polygons` cut into their straight pieces, and each piece's polygon: a
-    distance to a whole pour tests every vertex of its outline, a piece's only its two, so a
-    tree of pieces answers "how near is copper" at the cost of the few pieces nearby."""
+def outline_segments(polygons):
+    """The outlines of `polygons` as their straight pieces, an (N, 4) array [x0, y0, x1, y1], and
+    each piece's polygon (no geometry made per piece)."""
     rings = shapely.boundary(np.asarray(polygons, dtype=object))
     parts, part_owner = shapely.get_parts(rings, return_index=True)
     xy, vert_part = shapely.get_coordinates(parts, return_index=True)
     same = vert_part[1:] == vert_part[:-1]
-    pieces = shapely.linestrings(np.stack([xy[:-1][same], xy[1:][same]], axis=1))
-    return pieces, part_owner[vert_part[:-1][same]]
+    return np.column_stack([xy[:-1][same], xy[1:][same]]), part_owner[vert_part[:-1][same]]
+
+
+def outline_pieces(polygons):
+    """The outlines of `polygons` cut into their straight pieces, and each piece's polygon: a
+    distance to a whole pour tests every vertex of its outline, a piece's only its two, so a
+    tree of pieces answers "how near is copper" at the cost of the few pieces nearby."""
+    xy, owner = outline_segments(polygons)
+    return shapely.linestrings(xy.reshape(-1, 2, 2)), owner
 
 
 def ranges(starts, counts):
