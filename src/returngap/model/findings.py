@@ -50,6 +50,16 @@ _SHARED = (
 )
 
 
+_OWN = {}  # finding class -> the names of its own fields, in order
+
+
+def _own_fields(cls):
+    own = _OWN.get(cls)
+    if own is None:
+        own = _OWN[cls] = tuple(f.name for f in fields(cls) if f.name not in _SHARED)
+    return own
+
+
 def _opt():
     return field(default=UNSET)
 
@@ -71,12 +81,12 @@ class Finding(Mapping):
 
     def as_dict(self):
         """The JSON fields, in order."""
-        d = self.__dict__.get("_dict")
+        v = self.__dict__
+        d = v.get("_dict")
         if d is None:
-            own = [f.name for f in fields(self) if f.name not in _SHARED]
-            d = {k: (self.kind if k == "kind" else getattr(self, k)) for k in _SHARED}
-            d.update((k, getattr(self, k)) for k in own if getattr(self, k) is not UNSET)
-            self.__dict__["_dict"] = d
+            d = {k: (self.kind if k == "kind" else v[k]) for k in _SHARED}
+            d.update((k, v[k]) for k in _own_fields(type(self)) if v[k] is not UNSET)
+            v["_dict"] = d
         return d
 
     def __getitem__(self, key):
