@@ -21,6 +21,7 @@ from matplotlib.patches import PathPatch  # noqa: E402
 from matplotlib.path import Path as MPath  # noqa: E402
 
 from returngap.analysis.references import nearest_chain  # noqa: E402
+from returngap.geometry.shapes import disjoint_union  # noqa: E402
 
 __all__ = [
     "PLANE",
@@ -183,14 +184,15 @@ def _plane_geoms(result, layer, net=None):
 
 
 def _plane_union(result, layer, net=None):
+    """(the plane copper of `net`, or of every plane net; the other plane nets' copper) on a
+    layer: its islands side by side (islands of one layer never touch, so this is their union,
+    with no overlay work)."""
     ln = result.nets.layers[layer]
     ref, other = [], []
     for i, p in ln.islands_of(result.nets.plane_nets):
         n = ln.island_net[i]
         (ref if net is None or n == net else other).append(p)
-    return shapely.union_all(ref) if ref else shapely.Polygon(), shapely.union_all(
-        other
-    ) if other else shapely.Polygon()
+    return disjoint_union(ref), disjoint_union(other)
 
 
 def overview_png(result, report, path, layer=None):
