@@ -186,8 +186,8 @@ def build_layer(fab, g, role, outline, tol):
     )
     b = _LayerBuilder(layer, tol)
     Line, Arc, Flash, Region = go.Line, go.Arc, go.Flash, go.Region
-    unit_k = {}  # id(unit) -> mm per unit (gerbonara's unit comparison is slow)
     net_of = {}  # .N value -> net name
+    dark_now, unit_now, k = None, None, 1.0  # what the object before had (most objects repeat it)
     for obj in g.objects:
         kind = type(obj)
         if kind is not Line and kind is not Flash and kind is not Arc and kind is not Region:
@@ -196,14 +196,18 @@ def build_layer(fab, g, role, outline, tol):
             layer.skipped_objects += 1  # drawn before any aperture was selected
             continue
         dark = bool(obj.polarity_dark)
-        b.polarity(dark)
-        k = unit_k.get(id(obj.unit))
-        if k is None:
-            k = unit_k[id(obj.unit)] = 25.4 if obj.unit == Inch else 1.0
+        if dark is not dark_now:
+            b.polarity(dark)
+            dark_now = dark
+        if obj.unit is not unit_now:  # gerbonara's unit comparison is slow: once per change
+            unit_now = obj.unit
+            k = 25.4 if unit_now == Inch else 1.0
         attrs = getattr(obj, "attrs", None)
         net = _net(attrs, net_of)
-        if kind is Line or kind is Arc:
-            b.stroke(obj, kind is Arc, k, net, dark)
+        if kind is Line:
+            b.line(obj, k, net, dark)
+        elif kind is Arc:
+            b.stroke(obj, True, k, net, dark)
         elif kind is Flash:
             b.flash(obj, k, net, dark, attrs)
         elif kind is Region:
@@ -290,6 +294,27 @@ class _LayerBuilder:
                 _aper_function(obj),
             )
         return info
+
+    def line(self, obj, k, net, dark):
+        """A straight stroke (nearly all strokes): stroke() without its list of points, where its
+        aperture is round and it has length."""
+        w, round_ap, fn = self._aperture(obj)
+        xa, ya, xb, yb = obj.x1 * k, obj.y1 * k, obj.x2 * k, obj.y2 * k
+        if not (round_ap and w > 0) or (xa == xb and ya == yb):
+            return self.stroke(obj, False, k, net, dark)
+        rl, r = self.round_lines, w / 2
+        if rl and rl[-1][1] == r and rl[-1][0][-1] == (xa, ya):
+            rl[-1][0].append((xb, yb))  # a continuing stroke: one polyline, one buffer
+            where = self.round_where[-1]
+        else:
+            rl.append(([(xa, ya), (xb, yb)], r))
+            where = [len(self.runs) - 1, None]
+            self.round_where.append(where)
+        if dark:
+            self.segs.append((xa, ya, xb, yb, w))
+            self.seg_net.append(net)
+            self.seg_fn.append(fn)
+            self.seg_where.append(where)
 
     def stroke(self, obj, arc, k, net, dark):
         if arc:
