@@ -302,19 +302,9 @@ class _LayerBuilder:
         xa, ya, xb, yb = obj.x1 * k, obj.y1 * k, obj.x2 * k, obj.y2 * k
         if not (round_ap and w > 0) or (xa == xb and ya == yb):
             return self.stroke(obj, False, k, net, dark)
-        rl, r = self.round_lines, w / 2
-        if rl and rl[-1][1] == r and rl[-1][0][-1] == (xa, ya):
-            rl[-1][0].append((xb, yb))  # a continuing stroke: one polyline, one buffer
-            where = self.round_where[-1]
-        else:
-            rl.append(([(xa, ya), (xb, yb)], r))
-            where = [len(self.runs) - 1, None]
-            self.round_where.append(where)
+        where = self._round_polyline(((xa, ya), (xb, yb)), w / 2)
         if dark:
-            self.segs.append((xa, ya, xb, yb, w))
-            self.seg_net.append(net)
-            self.seg_fn.append(fn)
-            self.seg_where.append(where)
+            self._dark_segment(xa, ya, xb, yb, w, net, fn, where)
 
     def stroke(self, obj, arc, k, net, dark):
         if arc:
@@ -322,39 +312,39 @@ class _LayerBuilder:
         else:
             pts = [(obj.x1 * k, obj.y1 * k), (obj.x2 * k, obj.y2 * k)]
         w, round_ap, fn = self._aperture(obj)
-        rl, run = self.round_lines, len(self.runs) - 1
         pieces = self.runs[-1][1]
-        if round_ap and w > 0:
-            if pts[0] == pts[-1] and len(pts) == 2:
-                dot = shapely.Point(pts[0]).buffer(
-                    w / 2, quad_segs=shapes.quad_segs_for(w / 2, self.tol)
-                )
-                where = [run, len(pieces)]
-                pieces.append(dot)
-            elif rl and rl[-1][1] == w / 2 and rl[-1][0][-1] == pts[0]:
-                rl[-1][0].extend(pts[1:])  # a continuing stroke: one polyline, one buffer
-                where = self.round_where[-1]
-            else:
-                rl.append((list(pts), w / 2))
-                where = [run, None]
-                self.round_where.append(where)
+        if round_ap and w > 0 and not (pts[0] == pts[-1] and len(pts) == 2):
+            where = self._round_polyline(pts, w / 2)
         else:
-            where = [run, len(pieces)]
-            pieces.append(shapes.stroke_shape(pts, obj.aperture, self.aps, self.tol))
+            where = [len(self.runs) - 1, len(pieces)]
+            if round_ap and w > 0:  # a dot
+                r = w / 2
+                pieces.append(
+                    shapely.Point(pts[0]).buffer(r, quad_segs=shapes.quad_segs_for(r, self.tol))
+                )
+            else:
+                pieces.append(shapes.stroke_shape(pts, obj.aperture, self.aps, self.tol))
         if dark:
-            if len(pts) == 2:  # a straight stroke, nearly all of them
-                (xa, ya), (xb, yb) = pts
-                self.segs.append((xa, ya, xb, yb, w))
-                self.seg_net.append(net)
-                self.seg_fn.append(fn)
-                self.seg_where.append(where)
-                return
-            add, net_add, fn_add = self.segs.append, self.seg_net.append, self.seg_fn.append
             for (xa, ya), (xb, yb) in zip(pts[:-1], pts[1:]):
-                add((xa, ya, xb, yb, w))
-                net_add(net)
-                fn_add(fn)
-                self.seg_where.append(where)
+                self._dark_segment(xa, ya, xb, yb, w, net, fn, where)
+
+    def _round_polyline(self, pts, r):
+        """Where a round stroke through pts went: onto the polyline it continues (one polyline,
+        one buffer), else into a new one, placed when the run is flushed."""
+        rl = self.round_lines
+        if rl and rl[-1][1] == r and rl[-1][0][-1] == pts[0]:
+            rl[-1][0].extend(pts[1:])
+            return self.round_where[-1]
+        rl.append((list(pts), r))
+        where = [len(self.runs) - 1, None]
+        self.round_where.append(where)
+        return where
+
+    def _dark_segment(self, xa, ya, xb, yb, w, net, fn, where):
+        self.segs.append((xa, ya, xb, yb, w))
+        self.seg_net.append(net)
+        self.seg_fn.append(fn)
+        self.seg_where.append(where)
 
     def flash(self, obj, k, net, dark, attrs):
         base = self.aps.shape(obj.aperture)
