@@ -20,6 +20,7 @@ from returngap.geometry.shapes import (
     intersects_pairs,
     outline_segments,
     ranges,
+    segment_lines,
     touch_components,
 )
 from returngap.model.runner import SERIAL
@@ -381,7 +382,7 @@ def _pour_strokes(layer):
     rest = np.flatnonzero(~out)
     if not len(rest):
         return out
-    edge_tree = shapely.STRtree(shapely.linestrings(xy.reshape(-1, 2, 2)))
+    edge_tree = shapely.STRtree(segment_lines(xy))
     ends = s[rest, :4].reshape(-1, 2, 2)
     n_reg = len(layer.regions)
     on_edge = None  # (stroke, region) keys whose three points all lie on that region's edge

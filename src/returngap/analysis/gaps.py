@@ -24,7 +24,7 @@ from returngap.analysis import severity
 from returngap.analysis.references import footprint_halfwidth, footprint_polygon, line_z0
 from returngap.geometry.cuts import cut_intervals, ring_edges
 from returngap.geometry.gridpath import CELLS, Lattice, lattice_way
-from returngap.geometry.shapes import outline_pieces, points_hull
+from returngap.geometry.shapes import outline_pieces, points_hull, segment_lines
 from returngap.model.findings import UNSET, GapCrossing
 from returngap.model.runner import SERIAL
 
@@ -110,9 +110,7 @@ class Void:
             return self.edges[:0]
         tree = self.__dict__.get("_edge_tree")
         if tree is None:
-            tree = self.__dict__["_edge_tree"] = shapely.STRtree(
-                shapely.linestrings(self.edges.reshape(-1, 2, 2))
-            )
+            tree = self.__dict__["_edge_tree"] = shapely.STRtree(segment_lines(self.edges))
         t = np.linspace(lo, hi, max(2, int((hi - lo) / 2.0) + 2))  # pieces about 2 mm long
         a, b = m + t[:-1, None] * u, m + t[1:, None] * u
         # each piece's box, a hair larger: an edge through a piece's end is found from both sides

@@ -16,6 +16,7 @@ import numpy as np
 import shapely
 
 from returngap import physics
+from returngap.geometry.shapes import segment_lines
 from returngap.model.settings import Settings  # noqa: F401  (the settings the functions here take)
 
 __all__ = [
@@ -333,7 +334,7 @@ def chains(board, nets, refs, settings):
         which = np.repeat(np.arange(len(keys)), [len(groups[k]) for k in keys])
         # every (net, width) group merged into its longest runs in one vectorised pass
         merged = shapely.line_merge(
-            shapely.multilinestrings(shapely.linestrings(xy[rows].reshape(-1, 2, 2)), indices=which)
+            shapely.multilinestrings(segment_lines(xy[rows]), indices=which)
         )
         parts, of_group = shapely.get_parts(merged, return_index=True)
         for line, g in zip(parts, of_group.tolist()):

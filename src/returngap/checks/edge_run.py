@@ -16,7 +16,7 @@ from returngap.analysis.references import line_z0
 from returngap.checks.common import finding
 from returngap.geometry.cuts import ring_edges
 from returngap.geometry.reach import Reach
-from returngap.geometry.shapes import disjoint_union, near_clusters
+from returngap.geometry.shapes import disjoint_union, near_clusters, segment_lines
 
 __all__ = ["edge_runs"]
 
@@ -114,7 +114,7 @@ def _plane_edges(nets, ref_layer, edges):
         outer = _filled(nets.layers[ref_layer].union_of(nets.plane_nets))
         shapely.prepare(outer)
         pieces = ring_edges(outer)  # nearest-distance queries by piece go in log time
-        edges[ref_layer] = (outer, shapely.STRtree(_as_lines(pieces)), pieces)
+        edges[ref_layer] = (outer, shapely.STRtree(segment_lines(pieces)), pieces)
     return edges[ref_layer]
 
 
@@ -329,10 +329,6 @@ def _over_other_plane(board, ch, ref, length, cover, own_nH):
         ch.width_mm, ref.h_mm, ref.other_h_mm, t, length * cover
     )
     return rise + own_nH * (1.0 - cover)
-
-
-def _as_lines(pieces):
-    return shapely.linestrings(pieces.reshape(-1, 2, 2))
 
 
 def _filled(copper):

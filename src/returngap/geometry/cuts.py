@@ -7,6 +7,8 @@ builds an overlay graph for every cut, which on the gap scan's many short cuts c
 import numpy as np
 import shapely
 
+from returngap.geometry.shapes import vertex_pairs
+
 __all__ = ["ring_edges", "cut_intervals"]
 
 
@@ -15,9 +17,7 @@ def ring_edges(geom):
     rings = shapely.get_rings(shapely.get_parts(geom))
     if not len(rings):
         return np.zeros((0, 4))
-    xy, idx = shapely.get_coordinates(rings, return_index=True)
-    same = idx[1:] == idx[:-1]
-    return np.column_stack([xy[:-1][same], xy[1:][same]])
+    return vertex_pairs(rings)[0]
 
 
 def cut_intervals(edges, origins, directions, lo, hi):

@@ -36,6 +36,8 @@ __all__ = [
     "points_hull",
     "outline_pieces",
     "outline_segments",
+    "segment_lines",
+    "vertex_pairs",
     "ranges",
 ]
 
@@ -308,14 +310,26 @@ def near_clusters(xy, reach):
     return np.array([root(i) for i in range(len(pts))], dtype=int)
 
 
+def vertex_pairs(lines):
+    """The straight pieces of lines (or rings), an (N, 4) array [x0, y0, x1, y1], and the line each
+    piece belongs to."""
+    xy, of_line = shapely.get_coordinates(lines, return_index=True)
+    same = of_line[1:] == of_line[:-1]
+    return np.column_stack([xy[:-1][same], xy[1:][same]]), of_line[:-1][same]
+
+
+def segment_lines(pieces):
+    """An (N, 4) array of straight pieces [x0, y0, x1, y1] as N two-point LineStrings."""
+    return shapely.linestrings(np.asarray(pieces).reshape(-1, 2, 2))
+
+
 def outline_segments(polygons):
     """The outlines of `polygons` as their straight pieces, an (N, 4) array [x0, y0, x1, y1], and
     each piece's polygon (no geometry made per piece)."""
     rings = shapely.boundary(np.asarray(polygons, dtype=object))
     parts, part_owner = shapely.get_parts(rings, return_index=True)
-    xy, vert_part = shapely.get_coordinates(parts, return_index=True)
-    same = vert_part[1:] == vert_part[:-1]
-    return np.column_stack([xy[:-1][same], xy[1:][same]]), part_owner[vert_part[:-1][same]]
+    pieces, of_part = vertex_pairs(parts)
+    return pieces, part_owner[of_part]
 
 
 def outline_pieces(polygons):
@@ -323,7 +337,7 @@ def outline_pieces(polygons):
     distance to a whole pour tests every vertex of its outline, a piece's only its two, so a
     tree of pieces answers "how near is copper" at the cost of the few pieces nearby."""
     xy, owner = outline_segments(polygons)
-    return shapely.linestrings(xy.reshape(-1, 2, 2)), owner
+    return segment_lines(xy), owner
 
 
 def ranges(starts, counts):

@@ -41,7 +41,8 @@ DECIMALS = 4
 
 def clean(value):
     """Round floats (recursively) so reports are deterministic; non-finite values become null."""
-    # plain floats inside rounded in place, not by a call each (a detour path's many points)
+    # a container's own floats rounded right here, without a recursive call each (a detour
+    # path's many points)
     if isinstance(value, float):
         return _rounded(value)
     if isinstance(value, dict):
