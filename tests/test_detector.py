@@ -299,6 +299,24 @@ def test_exact_way_round_a_lone_slot():
     assert got[1][1:-1] == [(-0.5, 5.0), (0.5, 5.0)]
 
 
+@pytest.mark.parametrize("start", range(4))
+@pytest.mark.parametrize("reverse", [False, True])
+def test_equally_long_ways_round_a_symmetric_slot_do_not_hang_on_its_outline(start, reverse):
+    """A track across the middle of a 1 x 10 mm slot: both ways round are equally long
+    (geometry), so the choice is ours to fix: the lower way, wherever the slot's outline starts
+    and whichever way it runs."""
+    import shapely
+
+    ring = [(-0.5, -5.0), (0.5, -5.0), (0.5, 5.0), (-0.5, 5.0)]
+    ring = ring[start:] + ring[:start]
+    slot = shapely.Polygon(ring[::-1] if reverse else ring)
+    plane = _Plane(shapely.box(-20, -20, 20, 20), [slot])
+    got = _chain(plane, 0, (-0.51, 0.0), (0.51, 0.0))
+    assert got is not None
+    assert got[0] == pytest.approx(2 * math.hypot(0.01, 5.0) + 1.0, abs=1e-9)
+    assert got[1][1:-1] == [(-0.5, -5.0), (0.5, -5.0)]
+
+
 # a gap with two arms down, 5 mm below the track, and its top 6 mm above it: a bay between the arms
 ARMS = (-3, -5, 3, 6), (-2, -6, 2, -3)
 

@@ -317,3 +317,28 @@ def test_strokes_along_edges_match_byte_for_byte(collide, monkeypatch):
     got = connectivity._along_region_edges(s, edges)
     assert got.tolist() == want.tolist()
     assert 140 <= want.sum() < 160
+
+
+def test_island_areas_are_those_of_the_islands_unions():
+    """Islands of one, two (a track and its pad: inclusion-exclusion) and three pieces, and a
+    plane with a pad on it: each area that of the union of its pieces (shapely's union as the
+    reference; the overlaps follow from geometry)."""
+    import numpy as np
+    import shapely
+
+    from returngap.analysis.connectivity import LayerNets
+
+    track = shapely.LineString([(0, 0), (10, 0)]).buffer(0.1)
+    pad = shapely.box(9.5, -0.5, 10.5, 0.5)
+    lone = shapely.box(20, 20, 21, 22)
+    three = [shapely.box(30, 0, 32, 1), shapely.box(31, 0, 33, 1), shapely.box(32, 0, 34, 1)]
+    plane, on_plane = shapely.box(-50, -50, -10, -10), shapely.box(-20, -20, -19, -19)
+    pieces = np.array([track, pad, lone, *three, plane, on_plane], dtype=object)
+    piece_island = np.array([0, 0, 1, 2, 2, 2, 3, 3])
+    ln = LayerNets("L1", pieces, piece_island, ["A"] * 4, [], [], None)
+    want = [
+        shapely.union_all(pieces[piece_island == i]).area for i in range(4)
+    ]  # shapely's union: the reference
+    assert ln.island_areas() == pytest.approx(want, rel=1e-12)
+    assert want[0] == pytest.approx(track.area + 1.0 - pad.intersection(track).area)
+    assert want[2] == pytest.approx(4.0) and want[3] == pytest.approx(1600.0)

@@ -53,6 +53,9 @@ EPS = 1e-6
 STEP_OFF_MM = 0.01  # how far beyond a gap's edge the detour path starts and ends
 MAX_STATIONS = 160  # transverse cuts per crossing for the interrupted share
 EDGE_HAIR_MM = 0.005  # a detour may graze a gap's edge by this much
+# relative: two ways round a gap this close in length are equally long (a symmetric gap, where
+# only float noise of where the outline's vertices start would tell them apart)
+TIE_REL = 1e-9
 # a stripline's other plane under this share of a crossing carries its return where it lies (our
 # choice: under half, the gap common to both planes is the larger part, and the detour is kept)
 OTHER_PLANE_COVER = 0.5
@@ -775,7 +778,8 @@ def _hull_detour(rc, pa, pb, gap_hull):
         if lead[1] is not None:
             c = np.vstack([c, lead[1]])
         ways.append((float(np.hypot(*np.diff(c, axis=0).T).sum()), c))
-    ways.sort(key=lambda w: w[0])
+    if _before(ways[1], ways[0]):
+        ways.reverse()
     # both ways' pieces in one test
     ok = rc.passable(
         shapely.linestrings(np.concatenate([np.stack([c[:-1], c[1:]], axis=1) for _, c in ways]))
@@ -785,6 +789,15 @@ def _hull_detour(rc, pa, pb, gap_hull):
         if clear:
             return (length, [tuple(map(float, p)) for p in c]), ways[0][0]
     return None, ways[0][0]
+
+
+def _before(a, b):
+    """Whether way a, (length, points), is taken before way b: the shorter; of two equally long
+    (TIE_REL), the lower, then the one further left, so that a symmetric gap's choice never hangs
+    on where its outline happens to start."""
+    if abs(a[0] - b[0]) > TIE_REL * max(a[0], b[0]):
+        return a[0] < b[0]
+    return tuple(np.mean(a[1], axis=0)[::-1]) < tuple(np.mean(b[1], axis=0)[::-1])
 
 
 def _chain_detour(rc, void, pa, pb):
@@ -827,12 +840,12 @@ def _chain_detour(rc, void, pa, pb):
     stretches.sort(key=lambda t: t[0])
     best = None
     for bound, q in stretches:
-        if best is not None and bound >= best[0]:
+        if best is not None and bound > best[0] * (1 + TIE_REL):
             break
         way = _hull_arc(ends, q)
         if way is None:
             return None  # an end in a pocket of the stretch: not a plain hull
-        if best is None or way[0] < best[0]:
+        if best is None or _before(way, best):
             best = way
     if best is None:
         return None
