@@ -156,9 +156,10 @@ def _sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges):
     step = max(0.05, min(0.25, ref.h_mm / 2))
     sub = lines[todo]
     dists = [np.linspace(0, L, max(2, int(L / step) + 1)) for L in shapely.length(sub)]
+    look = _samples_to_look_at(sub, dists, outer, edge_tree, limit)
+    dists, look = _kept_samples(dists, look)
     xy = coords_along_lines(sub, dists)
     ends = np.cumsum([0] + [len(x) for x in dists])
-    look = _samples_to_look_at(sub, dists, outer, edge_tree, limit)
     reach = _edge_reach(edges, ref.layer, limit, int(look.sum()))
     inside, d = _measure(xy, look, outer, edge_tree, reach or limit, ends)
     out = {}
@@ -166,6 +167,22 @@ def _sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges):
         a, b = ends[j], ends[j + 1]
         out[idx[t]] = (ref_nets[t], ref, limit, dists[j], xy[a:b], inside[a:b], d[a:b])
     return out
+
+
+def _kept_samples(dists, look):
+    """Of each track's samples (dists[i], laid end to end as `look` flags them), those that can
+    belong to a run: every one looked at, and of each stretch of others only its first, which
+    stands for the whole stretch (on the plane, far from its edge: it ends a run, see _runs, and
+    is on the plane for _end_runs_off). A long track near the edge for a few millimetres keeps
+    a few dozen samples, not thousands. Returns (the kept distances per track, their flags)."""
+    count = np.array([len(x) for x in dists])
+    starts = np.zeros(len(look), dtype=bool)
+    starts[np.cumsum(count)[:-1]] = True
+    starts[0] = True
+    keep = look | (~look & (starts | np.r_[True, look[:-1]]))
+    at = np.cumsum(np.r_[0, count])
+    kept = [d[keep[a:b]] for d, a, b in zip(dists, at[:-1].tolist(), at[1:].tolist())]
+    return kept, look[keep]
 
 
 def _adopted(chs, ref_nets):
