@@ -549,18 +549,30 @@ def classify(names, user_cfg):
     return cls
 
 
-def _tally(votes, li, islands, names, weight):
-    """Add `weight` votes for each named object's net to its island (counted in numpy, not one
-    by one)."""
+def _tally(islands, names, weight):
+    """(island, net, votes) for each net the named objects give an island, `weight` votes per
+    object (counted in numpy, not one by one)."""
     uniq = sorted({n for n in names if n})
     code = {n: k for k, n in enumerate(uniq)}
     if not uniq:
-        return
+        return []
     c = np.fromiter((code.get(n, -1) if n else -1 for n in names), int, len(names))
     ok = c >= 0
     pair, count = np.unique(np.asarray(islands)[ok] * len(uniq) + c[ok], return_counts=True)
-    for p, k in zip(pair.tolist(), count.tolist()):
-        votes[(li, p // len(uniq))][uniq[p % len(uniq)]] += weight * k
+    return [
+        (p // len(uniq), uniq[p % len(uniq)], weight * k)
+        for p, k in zip(pair.tolist(), count.tolist())
+    ]
+
+
+def _layer_votes(layer, seg_isl, fl_isl, reg_isl):
+    """The net labels one layer's own objects give its islands, (island, net, votes) in turn:
+    segments', flashes', then named pours' (which speak for their island)."""
+    return (
+        _tally(seg_isl, layer.segment_net, 1)
+        + _tally(fl_isl, layer.flash_net, 1)
+        + _tally(reg_isl, [r[1] for r in layer.regions], 5)
+    )
 
 
 def layer_islands(layer):
@@ -573,12 +585,14 @@ def layer_islands(layer):
     tree = shapely.STRtree(pieces)
     piece_island, count, pairs = touch_components(pieces, tree)
     seg_isl = fl_isl = reg_isl = np.zeros(0, dtype=int)
+    votes = []
     if count:
         seg_isl = _segment_islands(layer, piece_island, tree)
         fl_isl = _island_index(piece_island, tree, layer.flashes[:, :2])
         reg_isl = _region_islands(piece_island, tree, pieces, layer.regions)
+        votes = _layer_votes(layer, seg_isl, fl_isl, reg_isl)
     strokes = _pour_strokes(layer)
-    layer.islands_found = (piece_island, seg_isl, fl_isl, reg_isl, count, pairs, strokes)
+    layer.islands_found = (piece_island, seg_isl, fl_isl, reg_isl, count, pairs, strokes, votes)
     layer.piece_tree = tree
 
 
@@ -590,8 +604,8 @@ def _layer_islands(layer):
     elif layer.piece_tree is None:
         shapely.prepare(layer.pieces)
         layer.piece_tree = shapely.STRtree(layer.pieces)
-    piece_island, seg_isl, fl_isl, reg_isl, count, pairs, _ = layer.islands_found
-    return piece_island, layer.piece_tree, seg_isl, fl_isl, reg_isl, count, pairs
+    piece_island, seg_isl, fl_isl, reg_isl, count, pairs, _, votes = layer.islands_found
+    return piece_island, layer.piece_tree, seg_isl, fl_isl, count, pairs, votes
 
 
 def build_nets(board, user_cfg=None, runner=SERIAL):
@@ -638,14 +652,11 @@ def _island_graph(board, found):
     g = nx.Graph()
     per_layer = {}
     votes = defaultdict(Counter)
-    for li, (layer, (piece_island, tree, seg_isl, fl_isl, reg_isl, count, pairs)) in enumerate(
+    for li, (layer, (piece_island, tree, seg_isl, fl_isl, count, pairs, own)) in enumerate(
         zip(board.copper, found)
     ):
-        if count:
-            _tally(votes, li, seg_isl, layer.segment_net, 1)
-            _tally(votes, li, fl_isl, layer.flash_net, 1)
-            # a named pour speaks for its island
-            _tally(votes, li, reg_isl, [r[1] for r in layer.regions], 5)
+        for island, net, k in own:  # worked out where the layer was read (layer_islands)
+            votes[(li, island)][net] += k
         g.add_nodes_from((li, int(i)) for i in range(count))
         per_layer[layer.name] = (piece_island, tree, seg_isl, fl_isl, count, pairs)
     return g, votes, per_layer
