@@ -342,3 +342,49 @@ def test_island_areas_are_those_of_the_islands_unions():
     assert ln.island_areas() == pytest.approx(want, rel=1e-12)
     assert want[0] == pytest.approx(track.area + 1.0 - pad.intersection(track).area)
     assert want[2] == pytest.approx(4.0) and want[3] == pytest.approx(1600.0)
+
+
+def _stroke_layer(strokes):
+    """A layer of round-ended strokes (x0, y0, x1, y1, width), a piece each, with its islands."""
+    import numpy as np
+    import shapely
+
+    from returngap.analysis.connectivity import LayerNets, touch_components
+    from returngap.model.board import CopperLayer
+
+    s = np.array(strokes, dtype=float)
+    pieces = shapely.buffer(shapely.linestrings(s[:, :4].reshape(-1, 2, 2)), s[:, 4] / 2)
+    island, count, pairs = touch_components(pieces, shapely.STRtree(pieces))
+    layer = CopperLayer(name="L1", file="strokes.gbr", side="top")
+    layer.segments = s
+    ln = LayerNets("L1", pieces, island, ["N"] * count, [], [], None)
+    return layer, ln, island, pairs
+
+
+def test_strokes_filling_an_area_are_a_pour_and_tracks_are_not():
+    """Eagle draws a pour as strokes that overlap many times over: twenty 0.5 mm strokes 0.25 mm
+    apart. A track of ten 0.5 mm strokes end to end (ruled out by how little their boxes
+    overlap), and a star of eight strokes through one point (whose boxes overlap far more than
+    they do: ruled out by their own overlaps), are not. Reference: the rule itself (stroke area
+    over 1.6 times the island's area), with shapely's union for the island's area."""
+    import numpy as np
+    import shapely
+
+    from returngap.analysis import connectivity
+
+    hatch = [(0.0, 0.25 * k, 10.0, 0.25 * k, 0.5) for k in range(20)]
+    track = [(20.0 + k, 0.0, 21.0 + k, 0.0, 0.5) for k in range(10)]
+    star = [
+        (45 + 5 * np.cos(a), 5 + 5 * np.sin(a), 45 - 5 * np.cos(a), 5 - 5 * np.sin(a), 0.2)
+        for a in np.arange(8) * np.pi / 8
+    ]
+    layer, ln, island, pairs = _stroke_layer(hatch + track + star)
+    got = connectivity._fill_segments(layer, ln, island, pairs)
+    s = layer.segments
+    stroke = np.hypot(s[:, 2] - s[:, 0], s[:, 3] - s[:, 1]) * s[:, 4]
+    want = []
+    for i in island.tolist():
+        union = shapely.union_all(ln.pieces[island == i]).area
+        want.append(bool(stroke[island == i].sum() > connectivity.FILL_OVERLAP * union))
+    assert want == [True] * 20 + [False] * 18
+    assert got.tolist() == want

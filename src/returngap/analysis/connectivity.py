@@ -371,19 +371,33 @@ def _fill_segments(layer, ln, seg_isl, pairs):
         cand &= per_island > FILL_OVERLAP * largest
     if cand.any():
         # Bonferroni: union area >= sum of piece areas - sum of pairwise overlaps; islands
-        # whose bound
-        # already rules a pour out (single tracks: pieces overlap only at their ends) are
-        # not unioned
-        lower = total.copy()
+        # whose bound already rules a pour out (single tracks: pieces overlap only at their
+        # ends) are not unioned. A pair overlaps by no more than its boxes do: islands that this
+        # looser bound rules out already need no exact overlaps either
         a, b = pairs
         keep = cand[ln.piece_island[a]]
         a, b = a[keep], b[keep]
+        box = _box_overlaps(ln, a, b)
+        rough = total - np.bincount(ln.piece_island[a], weights=box, minlength=ln.n_islands)
+        cand &= per_island > FILL_OVERLAP * rough
+        keep = cand[ln.piece_island[a]]
+        a, b = a[keep], b[keep]
+        lower = total.copy()
         overlap = shapely.area(shapely.intersection(ln.pieces[a], ln.pieces[b]))
         lower -= np.bincount(ln.piece_island[a], weights=overlap, minlength=ln.n_islands)
         for i in np.nonzero(cand & (per_island > FILL_OVERLAP * lower))[0]:
             isl_area = ln.island_area(int(i))
             fill_island[i] = per_island[i] > FILL_OVERLAP * isl_area and isl_area > 2.0
     return fill_island[seg_isl]
+
+
+def _box_overlaps(ln, a, b):
+    """Per pair of pieces (a[k], b[k]), the area their bounding boxes share: at least their own
+    overlap (a hair more, so that rounding never makes it less)."""
+    bb = shapely.bounds(ln.pieces[np.concatenate([a, b])]).reshape(2, len(a), 4)
+    w = np.minimum(bb[0, :, 2], bb[1, :, 2]) - np.maximum(bb[0, :, 0], bb[1, :, 0])
+    h = np.minimum(bb[0, :, 3], bb[1, :, 3]) - np.maximum(bb[0, :, 1], bb[1, :, 1])
+    return np.clip(w, 0, None) * np.clip(h, 0, None) * (1 + 1e-9) + 1e-12
 
 
 def _pour_strokes(layer):
