@@ -271,10 +271,11 @@ def test_each_stroke_knows_the_piece_it_drew(tmp_path):
     for k in np.flatnonzero(own >= 0):
         assert shapely.intersects(layer.pieces[own[k]], mid[k])
     assert own.tolist().count(-1) == 2  # the stroke the clear cut, and the one of zero width
-    piece_island, count, _ = layer.islands_found[:3] if layer.islands_found else (None, 0, None)
     tree = shapely.STRtree(layer.pieces)
-    if piece_island is None:
-        piece_island, count, _ = connectivity.touch_components(layer.pieces, tree)
+    if layer.islands_found:
+        piece_island = layer.islands_found[0]
+    else:
+        piece_island = connectivity.touch_components(layer.pieces, tree)[0]
     got = connectivity._segment_islands(layer, piece_island, tree)
     want = connectivity._island_index(piece_island, tree, shapely.get_coordinates(mid))
     assert got.tolist() == want.tolist()
