@@ -590,10 +590,11 @@ def _layer_votes(layer, seg_isl, fl_isl, reg_isl):
 
 
 def layer_islands(layer):
-    """Islands of one layer's pieces, the island under each segment, flash and region, and the
-    strokes that outline a pour (_pour_strokes); kept on the layer (as layer.islands_found, with
-    its pieces' tree as layer.piece_tree), so that the import can work them out for each layer as
-    it reads it, on either core."""
+    """Islands of one layer's pieces, the island under each segment, flash and region, the
+    strokes that outline a pour (_pour_strokes) and the net labels the layer's own objects give
+    its islands (_layer_votes); kept on the layer (as layer.islands_found, with its pieces' tree
+    as layer.piece_tree), so that the import can work them out for each layer as it reads it, on
+    either core."""
     pieces = layer.pieces
     shapely.prepare(pieces)  # point and hole tests below and in later stages
     tree = shapely.STRtree(pieces)
