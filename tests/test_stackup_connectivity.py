@@ -388,3 +388,18 @@ def test_strokes_filling_an_area_are_a_pour_and_tracks_are_not():
         want.append(bool(stroke[island == i].sum() > connectivity.FILL_OVERLAP * union))
     assert want == [True] * 20 + [False] * 18
     assert got.tolist() == want
+
+
+def test_tracks_are_grouped_by_net_and_width_in_sorted_order():
+    """Segments 0..5 of nets B, A, B, A, B, A and widths (0.2, 0.2, 0.25, 0.2, 0.2, 0.3): the
+    groups (A, 0.2), (A, 0.3), (B, 0.2), (B, 0.25), each in the segments' own order (by hand)."""
+    import numpy as np
+
+    from returngap.analysis.references import _net_width_groups
+
+    nets = ["B", "A", "B", "A", "B", "A", "C"]
+    widths = np.array([0.2, 0.2, 0.25, 0.20000001, 0.2, 0.3])
+    keys, rows, counts = _net_width_groups(nets, np.arange(6), widths)
+    assert keys == [("A", 0.2), ("A", 0.3), ("B", 0.2), ("B", 0.25)]
+    assert rows.tolist() == [1, 3, 5, 0, 4, 2]
+    assert counts.tolist() == [2, 1, 2, 1]

@@ -8,7 +8,6 @@ return current (REFERENCE: 1/(1+(x/h)^2) for microstrip, the two-plate law for s
 
 import fnmatch
 import math
-from collections import defaultdict
 from collections.abc import Mapping
 from dataclasses import dataclass
 
@@ -16,7 +15,6 @@ import numpy as np
 import shapely
 
 from returngap import physics
-from returngap.geometry.shapes import segment_lines
 from returngap.model.settings import Settings  # noqa: F401  (the settings the functions here take)
 
 __all__ = [
@@ -300,6 +298,21 @@ def unmatched_globs(nets, settings):
     return [g for g in settings.nets if not any(fnmatch.fnmatchcase(n, g.lower()) for n in routed)]
 
 
+def _net_width_groups(segment_net, idx, widths):
+    """The segments idx grouped by (net, width rounded to 0.1 um): (the groups' keys in sorted
+    order, the segments group after group, each in the order given, and each group's size)."""
+    names = [segment_net[k] for k in idx.tolist()]
+    uniq = sorted(set(names))
+    code = {n: i for i, n in enumerate(uniq)}
+    net_code = np.fromiter((code[n] for n in names), int, len(names))
+    w, w_code = np.unique(np.round(widths, 4), return_inverse=True)
+    key = net_code * len(w) + w_code
+    order = np.argsort(key, kind="stable")
+    found, counts = np.unique(key[order], return_counts=True)
+    keys = [(uniq[k // len(w)], float(w[k % len(w)])) for k in found.tolist()]
+    return keys, idx[order], counts
+
+
 def chains(board, nets, refs, settings):
     """Signal-track centre lines merged per (layer, net, width), with a footprint per reference."""
     out = []
@@ -324,17 +337,17 @@ def chains(board, nets, refs, settings):
             & (seg[:, 4] > 0)
             & ((xy[:, 0] != xy[:, 2]) | (xy[:, 1] != xy[:, 3]))
         )
-        groups = defaultdict(list)
-        for k, w in zip(np.flatnonzero(ok).tolist(), np.round(seg[ok, 4], 4).tolist()):
-            groups[(ln.segment_net[k], w)].append(k)
-        keys = sorted(groups)
+        keys, rows, counts = _net_width_groups(ln.segment_net, np.flatnonzero(ok), seg[ok, 4])
         if not keys:
             continue
-        rows = np.concatenate([groups[k] for k in keys])
-        which = np.repeat(np.arange(len(keys)), [len(groups[k]) for k in keys])
-        # every (net, width) group merged into its longest runs in one vectorised pass
+        # every (net, width) group, its segments as the parts of one MultiLineString built
+        # straight from their coordinates, merged into its longest runs in one vectorised pass
         merged = shapely.line_merge(
-            shapely.multilinestrings(segment_lines(xy[rows]), indices=which)
+            shapely.from_ragged_array(
+                shapely.GeometryType.MULTILINESTRING,
+                xy[rows].reshape(-1, 2),
+                (np.arange(0, 2 * len(rows) + 1, 2), np.r_[0, np.cumsum(counts)]),
+            )
         )
         parts, of_group = shapely.get_parts(merged, return_index=True)
         for line, g in zip(parts, of_group.tolist()):
