@@ -39,6 +39,7 @@ __all__ = [
     "NetConflict",
     "classify",
     "layer_islands",
+    "net_codes",
     "build_nets",
 ]
 
@@ -563,14 +564,20 @@ def classify(names, user_cfg):
     return cls
 
 
+def net_codes(names, keep=None):
+    """(the distinct names that `keep` accepts, all of them without it, sorted; per name, its
+    position among those, -1 for any other): names as small integers that numpy sorts and counts."""
+    uniq = sorted({n for n in names if keep is None or keep(n)})
+    code = {n: k for k, n in enumerate(uniq)}
+    return uniq, np.fromiter((code.get(n, -1) for n in names), int, len(names))
+
+
 def _tally(islands, names, weight):
     """(island, net, votes) for each net the named objects give an island, `weight` votes per
     object (counted in numpy, not one by one)."""
-    uniq = sorted({n for n in names if n})
-    code = {n: k for k, n in enumerate(uniq)}
+    uniq, c = net_codes(names, bool)
     if not uniq:
         return []
-    c = np.fromiter((code.get(n, -1) if n else -1 for n in names), int, len(names))
     ok = c >= 0
     pair, count = np.unique(np.asarray(islands)[ok] * len(uniq) + c[ok], return_counts=True)
     return [

@@ -21,6 +21,7 @@ import shapely.ops
 
 from returngap import physics
 from returngap.analysis import severity
+from returngap.analysis.connectivity import net_codes
 from returngap.analysis.references import footprint_halfwidth, footprint_polygon, line_z0
 from returngap.geometry.cuts import cut_intervals, ring_edges
 from returngap.geometry.gridpath import CELLS, Lattice, lattice_way
@@ -964,9 +965,8 @@ def majority_nets(ln, plane_nets, lines, samples=17):
     pts = shapely.points(coords_along_lines(lines, list(np.outer(shapely.length(lines), frac))))
     isl = ln.islands_at(pts, among=plane_nets)  # other islands' nets count for nothing
     which = np.repeat(np.arange(len(lines)), samples)
-    names = sorted(set(ln.island_net) & set(plane_nets))
-    code = {n: k for k, n in enumerate(names)}
-    net_of = np.array([code.get(n, -1) for n in ln.island_net] + [-1])  # island -1: off copper
+    names, net_of = net_codes(ln.island_net, set(plane_nets).__contains__)
+    net_of = np.append(net_of, -1)  # island -1: off copper
     c = net_of[isl]
     ok = c >= 0
     out = [None] * len(lines)

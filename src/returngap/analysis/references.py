@@ -15,6 +15,7 @@ import numpy as np
 import shapely
 
 from returngap import physics
+from returngap.analysis.connectivity import net_codes
 from returngap.model.settings import Settings  # noqa: F401  (the settings the functions here take)
 
 __all__ = [
@@ -301,10 +302,7 @@ def unmatched_globs(nets, settings):
 def _net_width_groups(segment_net, idx, widths):
     """The segments idx grouped by (net, width rounded to 0.1 um): (the groups' keys in sorted
     order, the segments group after group, each in the order given, and each group's size)."""
-    names = [segment_net[k] for k in idx.tolist()]
-    uniq = sorted(set(names))
-    code = {n: i for i, n in enumerate(uniq)}
-    net_code = np.fromiter((code[n] for n in names), int, len(names))
+    uniq, net_code = net_codes([segment_net[k] for k in idx.tolist()])
     w, w_code = np.unique(np.round(widths, 4), return_inverse=True)
     key = net_code * len(w) + w_code
     order = np.argsort(key, kind="stable")

@@ -176,11 +176,10 @@ def _kept_samples(dists, look):
     is on the plane for _end_runs_off). A long track near the edge for a few millimetres keeps
     a few dozen samples, not thousands. Returns (the kept distances per track, their flags)."""
     count = np.array([len(x) for x in dists])
-    starts = np.zeros(len(look), dtype=bool)
-    starts[np.cumsum(count)[:-1]] = True
-    starts[0] = True
-    keep = look | (~look & (starts | np.r_[True, look[:-1]]))
     at = np.cumsum(np.r_[0, count])
+    starts = np.zeros(len(look), dtype=bool)
+    starts[at[:-1]] = True  # each track's first sample
+    keep = look | starts | np.r_[True, look[:-1]]
     kept = [d[keep[a:b]] for d, a, b in zip(dists, at[:-1].tolist(), at[1:].tolist())]
     return kept, look[keep]
 

@@ -13,6 +13,7 @@ import numpy as np
 
 from returngap import physics
 from returngap.analysis import severity
+from returngap.analysis.connectivity import net_codes
 from returngap.analysis.references import line_z0
 from returngap.checks.common import DEFAULT_PART_LOOP_NH, finding, parts_bridging, plane_net_near
 
@@ -99,9 +100,7 @@ def _track_ends(board, nets):
     for layer in board.copper:
         ln = nets.layers[layer.name]
         seg = layer.segments
-        names = sorted({n for n in ln.segment_net if n and nets.is_signal(n)})
-        ids = {n: k for k, n in enumerate(names)}
-        code = np.fromiter((ids.get(n, -1) for n in ln.segment_net), int, len(seg))
+        names, code = net_codes(ln.segment_net, lambda n: n and nets.is_signal(n))
         keep = np.flatnonzero(code >= 0)
         order = keep[np.argsort(code[keep], kind="stable")]
         start = np.searchsorted(code[order], np.arange(len(names) + 1))
