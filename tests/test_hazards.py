@@ -100,24 +100,24 @@ def test_edge_runs_from_the_kept_samples_are_those_from_all_samples(
     """Only the samples looked at (and one for each stretch of others) are measured: the edge
     runs come out the same, to the last digit, as when every sample is kept (a track 2.5 h, then
     0.75 h inside the plane's edge)."""
-    from returngap.checks import edge_run
-
-    kept = [x for x in kinds(hazard_board(tmp_path / "kept", edge_gap=edge_gap), "edge-run")]
-    monkeypatch.setattr(edge_run, "_kept_samples", lambda dists, look: (dists, look))
-    every = [x for x in kinds(hazard_board(tmp_path / "all", edge_gap=edge_gap), "edge-run")]
-    assert kept and [x.as_dict() for x in kept] == [x.as_dict() for x in every]
-
-
-def test_kept_samples_hold_every_looked_one_and_the_first_of_each_other_stretch():
     import numpy as np
 
-    from returngap.checks.edge_run import _kept_samples
+    from returngap.checks import edge_run
 
-    dists = [np.arange(6.0), np.arange(4.0) + 10]
-    look = np.array([0, 0, 1, 1, 0, 0, 1, 0, 0, 1], dtype=bool)
-    kept, flags = _kept_samples(dists, look)
-    assert [k.tolist() for k in kept] == [[0.0, 2.0, 3.0, 4.0], [10.0, 11.0, 13.0]]
-    assert flags.tolist() == [False, True, True, False, True, False, True]
+    def keep_all(lengths, counts, run, piece_line, flag):
+        dists = [np.linspace(0, L, n) for L, n in zip(lengths, counts)]
+        first = np.searchsorted(piece_line, np.arange(len(dists)))
+        last = np.searchsorted(piece_line, np.arange(len(dists)), side="right") - 1
+        looks = [
+            flag[np.clip(np.searchsorted(run, d + run[a], side="right") - 1, a, b)]
+            for d, a, b in zip(dists, first, last)
+        ]
+        return dists, np.concatenate(looks)
+
+    kept = [x for x in kinds(hazard_board(tmp_path / "kept", edge_gap=edge_gap), "edge-run")]
+    monkeypatch.setattr(edge_run, "kept_samples", keep_all)
+    every = [x for x in kinds(hazard_board(tmp_path / "all", edge_gap=edge_gap), "edge-run")]
+    assert kept and [x.as_dict() for x in kept] == [x.as_dict() for x in every]
 
 
 def test_floating_island_resonance(tmp_path):

@@ -6,6 +6,7 @@ when no net is named like a ground, the net with the most copper is taken as gro
 """
 
 import fnmatch
+import itertools
 import re
 import weakref
 from collections import Counter, defaultdict
@@ -567,9 +568,9 @@ def classify(names, user_cfg):
 def net_codes(names, keep=None):
     """(the distinct names that `keep` accepts, all of them without it, sorted; per name, its
     position among those, -1 for any other): names as small integers that numpy sorts and counts."""
-    uniq = sorted({n for n in names if keep is None or keep(n)})
-    code = {n: k for k, n in enumerate(uniq)}
-    return uniq, np.fromiter((code.get(n, -1) for n in names), int, len(names))
+    uniq = sorted(n for n in set(names) if keep is None or keep(n))  # each name asked once
+    code = dict(zip(uniq, range(len(uniq))))
+    return uniq, np.fromiter(map(code.get, names, itertools.repeat(-1)), int, len(names))
 
 
 def _tally(islands, names, weight):

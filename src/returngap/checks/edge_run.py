@@ -16,6 +16,7 @@ from returngap.analysis.references import line_z0
 from returngap.checks.common import finding
 from returngap.geometry.cuts import ring_edges
 from returngap.geometry.reach import Reach
+from returngap.geometry.samples import kept_samples, sample_counts
 from returngap.geometry.shapes import disjoint_union, near_clusters, segment_lines
 
 __all__ = ["edge_runs"]
@@ -155,9 +156,7 @@ def _sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges):
         return {}
     step = max(0.05, min(0.25, ref.h_mm / 2))
     sub = lines[todo]
-    dists = [np.linspace(0, L, max(2, int(L / step) + 1)) for L in shapely.length(sub)]
-    look = _samples_to_look_at(sub, dists, outer, edge_tree, limit)
-    dists, look = _kept_samples(dists, look)
+    dists, look = _samples_to_look_at(sub, step, outer, edge_tree, limit)
     xy = coords_along_lines(sub, dists)
     ends = np.cumsum([0] + [len(x) for x in dists])
     reach = _edge_reach(edges, ref.layer, limit, int(look.sum()))
@@ -167,21 +166,6 @@ def _sample_layer(nets, chains, idx, ref, hs, plane_nets_of, edges):
         a, b = ends[j], ends[j + 1]
         out[idx[t]] = (ref_nets[t], ref, limit, dists[j], xy[a:b], inside[a:b], d[a:b])
     return out
-
-
-def _kept_samples(dists, look):
-    """Of each track's samples (dists[i], laid end to end as `look` flags them), those that can
-    belong to a run: every one looked at, and of each stretch of others only its first, which
-    stands for the whole stretch (on the plane, far from its edge: it ends a run, see _runs, and
-    is on the plane for _end_runs_off). A long track near the edge for a few millimetres keeps
-    a few dozen samples, not thousands. Returns (the kept distances per track, their flags)."""
-    count = np.array([len(x) for x in dists])
-    at = np.cumsum(np.r_[0, count])
-    starts = np.zeros(len(look), dtype=bool)
-    starts[at[:-1]] = True  # each track's first sample
-    keep = look | starts | np.r_[True, look[:-1]]
-    kept = [d[keep[a:b]] for d, a, b in zip(dists, at[:-1].tolist(), at[1:].tolist())]
-    return kept, look[keep]
 
 
 def _adopted(chs, ref_nets):
@@ -363,11 +347,14 @@ def _filled(copper):
     return disjoint_union(np.delete(filled, nested))
 
 
-def _samples_to_look_at(lines, dists, outer, edge_tree, limit):
-    """For samples at distances dists[i] along lines[i] (laid end to end, as coords_along_lines lays
-    them): True where the straight piece of line a sample lies on comes within `limit` of the
-    plane's edge or lies off the plane (`outer`). A piece farther than that from the edge does not
-    cross it, so one point tells whether all of it is on the plane."""
+def _samples_to_look_at(lines, step, outer, edge_tree, limit):
+    """The samples along lines, about `step` apart, that can belong to a run (see kept_samples):
+    (per line, their distances along it; per sample, whether it is looked at: the straight piece
+    of line it lies on comes within `limit` of the plane's edge or lies off the plane (`outer`)).
+    A piece farther than that from the edge does not cross it, so one point tells whether all of
+    it is on the plane; the first sample of a stretch of such pieces stands for the stretch (on
+    the plane, far from its edge: it ends a run, see _runs, and is on the plane for
+    _end_runs_off)."""
     xy, idx = shapely.get_coordinates(lines, return_index=True)
     same = idx[1:] == idx[:-1]
     a, b, of_line = xy[:-1][same], xy[1:][same], idx[:-1][same]
@@ -378,12 +365,7 @@ def _samples_to_look_at(lines, dists, outer, edge_tree, limit):
     far = np.flatnonzero(~flag)
     mid = (a[far] + b[far]) / 2
     flag[far] = ~shapely.intersects_xy(outer, mid[:, 0], mid[:, 1])
-    # the piece under each sample, by its distance along the pieces of all lines laid end to end
+    # the pieces of all lines laid end to end on one distance axis
     run = np.concatenate([[0.0], np.cumsum(np.hypot(*(b - a).T))])
-    first = np.searchsorted(of_line, np.arange(len(dists)))
-    last = np.searchsorted(of_line, np.arange(len(dists)), side="right") - 1
-    count = [len(x) for x in dists]
-    pos = np.concatenate([x + run[f] for x, f in zip(dists, first)] or [np.zeros(0)])
-    piece = np.searchsorted(run, pos, side="right") - 1
-    piece = np.clip(piece, np.repeat(first, count), np.repeat(last, count))
-    return flag[piece]
+    lengths = shapely.length(lines)
+    return kept_samples(lengths, sample_counts(lengths, step), run, of_line, flag)
