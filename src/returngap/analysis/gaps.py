@@ -949,9 +949,9 @@ def coords_along_lines(lines, dists):
     k = np.arange(len(dists))
     start = run[np.searchsorted(idx, k)]
     length = run[np.searchsorted(idx, k, side="right") - 1] - start
-    at = np.concatenate(
-        [np.clip(d, 0.0, n) + a for d, a, n in zip(dists, start, length)] or [np.zeros(0)]
-    )
+    count = [len(d) for d in dists]
+    flat = np.concatenate(dists) if dists else np.zeros(0)
+    at = np.clip(flat, 0.0, np.repeat(length, count)) + np.repeat(start, count)
     return np.column_stack([np.interp(at, run, xy[:, 0]), np.interp(at, run, xy[:, 1])])
 
 

@@ -323,10 +323,9 @@ def chains(board, nets, refs, settings):
             continue
         fill = ln.segment_fill if ln.segment_fill is not None else np.zeros(len(seg), dtype=bool)
         net_ok = {n: nets.is_signal(n) and wanted(n, settings) for n in set(ln.segment_net)}
-        ok = np.fromiter((net_ok[n] for n in ln.segment_net), bool, len(seg))
-        ok &= np.fromiter(
-            (fn not in NON_TRACK_FUNCTIONS for fn in layer.segment_function), bool, len(seg)
-        )
+        ok = np.fromiter(map(net_ok.__getitem__, ln.segment_net), bool, len(seg))
+        fn_ok = {fn: fn not in NON_TRACK_FUNCTIONS for fn in set(layer.segment_function)}
+        ok &= np.fromiter(map(fn_ok.__getitem__, layer.segment_function), bool, len(seg))
         # ends snapped to a 10 nm grid so that strokes drawn end to end meet exactly; strokes that
         # shrink to a point there are dropped
         xy = np.round(seg[:, :4], 5)

@@ -172,16 +172,26 @@ def _adopted(chs, ref_nets):
     """The plane net of each chain; a chain with no plane copper under it at all takes the net of
     a chain of its track it joins end to end (a width change): its run off the plane continues
     the other's, where alone it would not be looked at."""
-    by_end = {}
-    for ch, n in zip(chs, ref_nets):
-        if n is not None:
-            for p in (ch.line.coords[0], ch.line.coords[-1]):
-                by_end.setdefault((ch.net, round(p[0], 2), round(p[1], 2)), n)
     out = list(ref_nets)
-    for k, ch in enumerate(chs):
+    if None not in out:
+        return out
+    lines = [ch.line for ch in chs]
+    ends = np.hstack(
+        [shapely.get_coordinates(shapely.get_point(lines, k))[:, :2] for k in (0, -1)]
+    ).tolist()  # per chain: x0, y0, x1, y1
+    keys = [
+        ((ch.net, round(x0, 2), round(y0, 2)), (ch.net, round(x1, 2), round(y1, 2)))
+        for ch, (x0, y0, x1, y1) in zip(chs, ends)
+    ]
+    by_end = {}
+    for pair, n in zip(keys, ref_nets):
+        if n is not None:
+            for key in pair:
+                by_end.setdefault(key, n)
+    for k, pair in enumerate(keys):
         if out[k] is None:
-            for p in (ch.line.coords[0], ch.line.coords[-1]):
-                out[k] = out[k] or by_end.get((ch.net, round(p[0], 2), round(p[1], 2)))
+            for key in pair:
+                out[k] = out[k] or by_end.get(key)
     return out
 
 
@@ -214,7 +224,7 @@ def _measure(xy, look, outer, edge_tree, reach, ends=None):
     pts = shapely.points(xy[at])
     inside[at] = shapely.intersects(outer, pts)
     if isinstance(reach, Reach):
-        d[at] = reach.distances(xy[at])
+        d[at] = reach.distances(xy[at], pts)
     else:  # a bounded search of the edge's tree, the same distances
         (k, _), dist = edge_tree.query_nearest(
             pts, max_distance=reach, return_distance=True, all_matches=False

@@ -44,21 +44,25 @@ class Reach:
         hi = np.maximum(self.pieces[:, :2], self.pieces[:, 2:]) + grow
         self.tree = shapely.STRtree(shapely.box(lo[:, 0], lo[:, 1], hi[:, 0], hi[:, 1]))
 
-    def distances(self, xy):
+    def distances(self, xy, points=None):
+        """points: the same points as shapely Points, where the caller has them already."""
         xy = np.asarray(xy, dtype=float).reshape(-1, 2)
         out = np.full(len(xy), np.inf)
         if not len(xy) or not len(self.pieces):
             return out
+        if points is None:
+            points = shapely.points(xy)
         # in blocks of points: a block's candidate pairs fit in memory already in use, where all
         # pairs at once (hundreds of thousands on a large board) cost a fresh page per 4 KB of
         # every temporary array
         for a in range(0, len(xy), BLOCK_POINTS):
-            out[a : a + BLOCK_POINTS] = self._distances(xy[a : a + BLOCK_POINTS])
+            block = slice(a, a + BLOCK_POINTS)
+            out[block] = self._distances(xy[block], points[block])
         return out
 
-    def _distances(self, xy):
+    def _distances(self, xy, points):
         out = np.full(len(xy), np.inf)
-        at, k = self.tree.query(shapely.points(xy))
+        at, k = self.tree.query(points)
         if not len(at):
             return out
         if (np.diff(at) < 0).any():  # shapely gives them ordered by point; not relied upon
