@@ -243,6 +243,7 @@ class BoardFiles:
             if not sources[0].is_file():
                 raise InputError(sources[0], "no such file")
             self._tmp = tempfile.mkdtemp(prefix="returngap-", dir=scratch)
+            self._owner = os.getpid()
             try:
                 unpack_zip(sources[0], self._tmp)
                 self._scan_dir(Path(self._tmp))
@@ -298,7 +299,7 @@ class BoardFiles:
         self.fab.append(FabFile(rel, path, kind))
 
     def close(self):
-        if self._tmp:
+        if self._tmp and os.getpid() == self._owner:  # a forked process leaves it to its parent
             shutil.rmtree(self._tmp, ignore_errors=True)
             self._tmp = None
 

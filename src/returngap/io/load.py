@@ -5,6 +5,7 @@ the Gerber job file's FilesAttributes, the user's mapping in the stackup file, t
 gerbonara's file-name recognition. Disagreements are reported as assumptions.
 """
 
+import copy
 import re
 from pathlib import Path, PurePosixPath
 
@@ -126,7 +127,7 @@ def _wkb_unpacked(layer):
 
 def _packed(result):
     layer, notes, problems = result
-    return _wkb_packed(layer), notes, problems
+    return _wkb_packed(copy.copy(layer)), notes, problems  # the layer itself stays as it is
 
 
 def _unpacked(result):

@@ -26,6 +26,7 @@ from returngap.checks import (
 from returngap.io import config, load
 from returngap.model.settings import Settings
 from returngap.run import parallel
+from returngap.run.twin import Twin
 
 __all__ = ["CheckResult", "read_board", "layers_report", "with_file_thresholds", "run_check"]
 
@@ -44,15 +45,16 @@ class CheckResult:
     inputs: dict = None  # what was read: {"sources": [...], "stackup_file": ...}
 
 
-def read_board(sources, stackup_file=None, scratch=None, workers=0):
-    """The board model and the stackup file's settings."""
+def read_board(sources, stackup_file=None, scratch=None, workers=0, runner=None):
+    """The board model and the stackup file's settings (runner: a Parallel of `workers`, unless
+    given)."""
     cfg = config.load_stackup_file(stackup_file)
     # each layer's copper islands are found as it is read, on whichever core read it
     board = load.load_board(
         sources,
         user_layers=cfg.get("layers"),
         scratch=scratch,
-        runner=parallel.Parallel(workers),
+        runner=runner or parallel.Parallel(workers),
         per_layer=connectivity.layer_islands,
     )
     stackup.build_stackup(board, cfg)
@@ -93,16 +95,19 @@ def with_file_thresholds(settings, thresholds):
 def run_check(sources, stackup_file=None, settings=None, scratch=None, workers=0, stage=None):
     """One board through every stage. workers: processes (0: both cores where the work pays,
     1: this process only); stage: told the name of each stage as it starts (a progress line)."""
+    runner = Twin(workers)  # a small board's stages share one forked twin (run/twin.py)
     with parallel.fewer_collections():
-        return _run_check(sources, stackup_file, settings, scratch, workers, stage)
+        try:
+            return _run_check(sources, stackup_file, settings, scratch, runner, stage)
+        finally:
+            runner.finish()  # the twin, if any, ends here: it never returns from the check
 
 
-def _run_check(sources, stackup_file, settings, scratch, workers, stage):
+def _run_check(sources, stackup_file, settings, scratch, runner, stage):
     settings = settings or Settings()
-    stage = stage or (lambda name: None)
-    runner = parallel.Parallel(workers)
+    stage = runner.hook(stage or (lambda name: None))
     stage("reading layers")
-    board, cfg = read_board(sources, stackup_file, scratch, workers)
+    board, cfg = read_board(sources, stackup_file, scratch, runner=runner)
     settings = with_file_thresholds(settings, cfg.get("thresholds", {}))
     if not settings.allow_incomplete:  # refuse before the expensive stages
         completeness.enforce(board, board.problems, False)
@@ -147,7 +152,7 @@ def _findings(board, nets, refs, chains, settings, runner):
     ]
     areas = [lambda layer=layer: _area(nets, layer) for layer in board.copper]
     jobs = checks + areas + tasks
-    done = parallel.fork_map(lambda k: jobs[k](), len(jobs), workers)
+    done = runner.tasks(lambda k: jobs[k](), len(jobs), "gap-scan", len(chains))
     for layer, area in zip(board.copper, done[len(checks) : len(checks) + len(areas)]):
         layer.area_mm2 = area
     findings = combine(done[len(checks) + len(areas) :])
