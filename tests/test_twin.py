@@ -3,6 +3,7 @@ never lets the twin return from the check, and does here whatever the twin does 
 
 import json
 import logging
+import math
 import os
 import time
 import zipfile
@@ -43,9 +44,12 @@ def _report(result):
 def test_a_twin_gives_what_one_process_gives(twins):
     one = _report(run_check(DEMO, STACK, workers=1))
     assert not twins
+    fds = len(os.listdir("/proc/self/fd")) if Path("/proc/self/fd").exists() else None
     two = _report(run_check(DEMO, STACK, workers=2))
     assert twins, "no twin was forked"
     assert '"kind": "gap-crossing"' in one and one == two
+    if fds is not None:  # every pipe of the twin closed again
+        assert len(os.listdir("/proc/self/fd")) == fds
 
 
 def test_the_twin_never_returns_from_the_check(twins, tmp_path, monkeypatch):
@@ -119,3 +123,37 @@ def test_the_twin_leaves_an_unpacked_archive_to_its_parent(twins, tmp_path):
     assert twins
     assert len(got.findings) == len(run_check(DEMO, STACK, workers=1).findings) and one
     assert not list(scratch.iterdir())
+
+
+def test_negative_layers_are_swapped_too(twins, tmp_path):
+    """Positive layers read first (by both processes, swapped), then the negative ones (profile
+    minus what they draw: a second round of tasks, swapped too): the same copper as one process
+    reads."""
+    from conftest import gerber
+
+    (tmp_path / "edge.gbr").write_text(
+        gerber(
+            "%ADD10C,0.100000*%\nD10*\nX0Y0D02*\nX20000000Y0D01*\n"
+            "X20000000Y10000000D01*\nX0Y10000000D01*\nX0Y0D01*",
+            attrs="%TF.FileFunction,Profile,NP*%",
+        )
+    )
+    corners = ("X1000000Y1000000", "X19000000Y1000000", "X19000000Y9000000", "X1000000Y9000000")
+    pads = "%ADD10C,2.000000*%\nD10*\n" + "\n".join(f"{c}D03*" for c in corners)
+    clearance = "%ADD10C,2.000000*%\nD10*\nX5000000Y5000000D03*"
+    layers = [("Top", "Positive"), ("Inr", "Negative"), ("Inr", "Negative"), ("Bot", "Positive")]
+    for k, (side, polarity) in enumerate(layers, 1):
+        attrs = f"%TF.FileFunction,Copper,L{k},{side}*%\n%TF.FilePolarity,{polarity}*%"
+        body = pads if polarity == "Positive" else clearance
+        (tmp_path / f"L{k}.gbr").write_text(gerber(body, attrs=attrs))
+    one = load.load_board(tmp_path)
+    runner = twin.Twin(2)
+    try:
+        two = load.load_board(tmp_path, runner=runner)
+    finally:
+        runner.finish()  # the twin ends here
+    assert twins and runner._phase == 2  # both rounds of layers went through the twin
+    areas = [round(c.copper_area_mm2, 9) for c in two.copper]
+    assert areas == [round(c.copper_area_mm2, 9) for c in one.copper]
+    # a negative layer: the 20 x 10 mm profile minus the 2 mm clearance drawn on it
+    assert areas[1] == areas[2] == pytest.approx(200 - math.pi, abs=2 * math.pi * 1e-3)

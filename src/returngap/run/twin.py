@@ -78,6 +78,12 @@ class Twin(parallel.Parallel):
         if self.pid is not None:
             _stop(self.pid)
             self.pid = None
+        self.active = False
+        fds = [fd for q in self._queues for fd in q] + [self._recv, self._send]
+        for fd in fds:
+            if fd is not None:
+                os.close(fd)
+        self._queues, self._recv, self._send = [], None, None
 
     def _worth_a_twin(self, n, work):
         return (
