@@ -157,3 +157,17 @@ def test_negative_layers_are_swapped_too(twins, tmp_path):
     assert areas == [round(c.copper_area_mm2, 9) for c in one.copper]
     # a negative layer: the 20 x 10 mm profile minus the 2 mm clearance drawn on it
     assert areas[1] == areas[2] == pytest.approx(200 - math.pi, abs=2 * math.pi * 1e-3)
+
+
+def test_a_round_too_large_for_the_queue_ends_the_twin(twins, monkeypatch, tmp_path):
+    """More gap-scan tasks than a queue holds: both processes see it alike; the twin exits there
+    and this process goes on alone, with the same findings."""
+    me, marker = os.getpid(), tmp_path / "returned"
+    one = _report(run_check(DEMO, STACK, workers=1))
+    monkeypatch.setattr(parallel, "MAX_SHARED_TASKS", 8)  # the 4 layers fit; the scan's do not
+    monkeypatch.setattr(twin, "_stop", lambda pid: os.waitpid(pid, 0))
+    two = _report(run_check(DEMO, STACK, workers=2))
+    if os.getpid() != me:
+        marker.write_text(str(os.getpid()))
+        os._exit(0)
+    assert twins and two == one and not marker.exists()

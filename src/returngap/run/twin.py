@@ -54,6 +54,8 @@ class Twin(parallel.Parallel):
         if self.pid is None and not self.in_twin and kind == "copper-layers":
             if self._worth_a_twin(n, work):
                 self._fork(n)
+        if self.active and n > parallel.MAX_SHARED_TASKS:  # both processes see it alike
+            self._retire()  # the twin ends; this process goes on alone
         if self.active and kind == "copper-layers" and self._phase < 2:
             return self._swapped(task, n, pack, unpack, first)
         if self.active and kind == "gap-scan":
@@ -73,17 +75,23 @@ class Twin(parallel.Parallel):
         return lambda *a, **k: None if self.in_twin else fn(*a, **k)
 
     def finish(self):
-        if self.in_twin:
-            os._exit(0)
-        if self.pid is not None:
-            _stop(self.pid)
-            self.pid = None
-        self.active = False
+        """The check's end, however it ends: the twin exits (it never returns from the check);
+        here, the twin is stopped if still running, and every pipe closed."""
+        self._retire()
         fds = [fd for q in self._queues for fd in q] + [self._recv, self._send]
         for fd in fds:
             if fd is not None:
                 os.close(fd)
         self._queues, self._recv, self._send = [], None, None
+
+    def _retire(self):
+        """The twin's part ends: in the twin, the process does; here, a twin still running (it had
+        nothing left to do, or the check ends early) is stopped."""
+        if self.in_twin:
+            os._exit(0)
+        if self.pid is not None:
+            _stop(self.pid)
+        self.pid, self.active = None, False
 
     def _worth_a_twin(self, n, work):
         return (
@@ -93,9 +101,13 @@ class Twin(parallel.Parallel):
         )
 
     def _fork(self, n):
+        pipes = []
         try:
-            pipes = [os.pipe() for _ in range(len(_PHASES) + 2)]
+            for _ in range(len(_PHASES) + 2):
+                pipes.append(os.pipe())
         except OSError:
+            for fd in [fd for pair in pipes for fd in pair]:
+                os.close(fd)
             return
         *queues, (up_r, up_w), (down_r, down_w) = pipes
         os.write(queues[0][1], struct.pack(f"{n}i", *range(n)))
@@ -193,8 +205,7 @@ class Twin(parallel.Parallel):
 
     def _lost(self):
         parallel.log.debug("twin: the other process ended without its results; done here")
-        _stop(self.pid)
-        self.pid, self.active = None, False
+        self._retire()
 
     def _swap(self, data):
         """Send data to the other process and receive its message, both at once (neither waits
@@ -284,8 +295,11 @@ def _quiet():
 
 
 def _stop(pid):
-    try:
-        os.kill(pid, signal.SIGKILL)
-    except ProcessLookupError:
-        pass
+    """Stop and collect the twin; one already collected (its number may be another's now) is left
+    alone."""
+    if pid not in parallel._collected:
+        try:
+            os.kill(pid, signal.SIGKILL)
+        except ProcessLookupError:
+            pass
     parallel._reap(pid)
