@@ -145,6 +145,12 @@ def _queue(n):
     q, qw = os.pipe()
     os.write(qw, struct.pack(f"{n}i", *range(n)))
     os.close(qw)
+    return (q, *_claims(q, n))
+
+
+def _claims(q, n):
+    """(claim, stop) on a queue's read end q: claim() takes the next task number (n once none is
+    left), stop() takes all that are left, so that no process takes another."""
 
     def claim():
         b = os.read(q, 4)
@@ -154,7 +160,7 @@ def _queue(n):
         while os.read(q, 4096):
             pass
 
-    return q, claim, stop
+    return claim, stop
 
 
 def _shared(task, n, pack, unpack, first=None):

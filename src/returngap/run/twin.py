@@ -141,22 +141,17 @@ class Twin(parallel.Parallel):
 
     def _claim(self, phase, n):
         """The phase's queue, its task numbers written when this process (not the twin) first
-        gets to it: a function that claims the next number (n when none is left)."""
+        gets to it: (claim, stop) as parallel._claims gives them."""
         q = self._queues[phase]
         if q[1] is not None:
             os.write(q[1], struct.pack(f"{n}i", *range(n)))
             os.close(q[1])
             q[1] = None
-
-        def claim():
-            b = os.read(q[0], 4)
-            return struct.unpack("i", b)[0] if len(b) == 4 else n
-
-        return claim
+        return parallel._claims(q[0], n)
 
     def _swapped(self, task, n, pack, unpack, first):
         """Copper layers: each process builds those it takes and sends them to the other."""
-        claim = self._claim(self._phase, n)
+        claim, _ = self._claim(self._phase, n)
         self._phase += 1
         if first is not None and not self.in_twin:
             first()  # meanwhile the twin starts on the layers
@@ -178,16 +173,16 @@ class Twin(parallel.Parallel):
 
     def _shared_last(self, task, n, pack, unpack):
         """The gap scan: both take tasks; the twin sends its results and exits."""
-        claim = self._claim(2, n)
+        claim, stop = self._claim(2, n)
         done = {}
         if self.in_twin:
             try:
                 while (k := claim()) < n:
                     done[k] = pack(task(k)) if pack else task(k)
             except BaseException:  # the task is done again here, which raises its error
-                while claim() < n:  # and neither process takes another
-                    pass
-            _write_all(self._send, _framed(pickle.dumps(list(done.items()), -1)))
+                stop()
+            with os.fdopen(self._send, "wb") as f:  # its end closed: the parent reads to there
+                f.write(pickle.dumps(list(done.items()), -1))
             os._exit(0)
         try:
             while (k := claim()) < n:
@@ -196,8 +191,8 @@ class Twin(parallel.Parallel):
             self.active = False  # later stages run here alone
         if len(done) < n:  # the twin took the rest
             try:
-                theirs = pickle.loads(self._receive())
-            except (_Gone, pickle.UnpicklingError, EOFError):
+                theirs = pickle.loads(parallel._read_from(self.pid, self._recv))
+            except (pickle.UnpicklingError, EOFError):
                 self._lost()
                 theirs = []
             done.update((k, unpack(v) if unpack else v) for k, v in theirs)
@@ -240,20 +235,6 @@ class Twin(parallel.Parallel):
                 self._check_alive(last)
         return _message(got)
 
-    def _receive(self):
-        got, last = bytearray(), time.monotonic()
-        while not _complete(got):
-            r, _, _ = select.select([self._recv], [], [], 1.0)
-            if not r:
-                self._check_alive(last)
-                continue
-            chunk = os.read(self._recv, 1 << 20)
-            if not chunk:
-                raise _Gone
-            got += chunk
-            last = time.monotonic()
-        return _message(got)
-
     def _check_alive(self, last):
         if self.in_twin:
             if os.getppid() == 1:  # its parent is gone
@@ -277,12 +258,6 @@ def _complete(got):
 
 def _message(got):
     return bytes(got[_LEN.size : _LEN.size + _LEN.unpack_from(got)[0]])
-
-
-def _write_all(fd, data):
-    view = memoryview(data)
-    while view:
-        view = view[os.write(fd, view) :]
 
 
 def _quiet():
